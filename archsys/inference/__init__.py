@@ -1,0 +1,1 @@
+"""Inference: population priors, likelihoods and the emcee sampler."""

@@ -1,0 +1,139 @@
+"""Direct Monte Carlo draws from independent catalogue summaries.
+
+When no joint constraint binds (independent Gaussian or asymmetric summaries,
+no stability prior) the posterior of each quantity is its summary
+distribution, and derived quantities are propagated draw by draw.  This is the
+"direct" path; the MCMC engine (:mod:`archsys.inference.sampler`) is used when
+constraints couple the parameters.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..physics import kepler, transit
+from ..physics.constants import MEARTH_MSUN
+from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
+from .posterior import Posterior
+
+__all__ = ["direct_draws", "eccentricity_draws", "DEFAULT_DRAWS"]
+
+DEFAULT_DRAWS = 4000
+
+
+def _redraw_valid(sample, valid, rng, n, max_rounds=200):
+    """Draw until ``valid(x)`` holds for all n rows (rejection, vectorised)."""
+    out = sample(n)
+    bad = ~valid(out)
+    rounds = 0
+    while bad.any() and rounds < max_rounds:
+        out[bad] = sample(int(bad.sum()))[..., : out.shape[-1]] if out.ndim > 1 else sample(int(bad.sum()))
+        bad = ~valid(out)
+        rounds += 1
+    return out, bad
+
+
+def eccentricity_draws(planet, rng, n):
+    """(ecc, omega [rad], note) for one planet from whichever parametrisation it gives."""
+    q = planet.quantities
+    if "secosw" in q or "ecosw" in q:
+        a, b = ("secosw", "sesinw") if "secosw" in q else ("ecosw", "esinw")
+
+        def sample(m):
+            return np.stack([q[a].sample(rng, m), q[b].sample(rng, m)], axis=-1)
+
+        def valid(x):
+            r2 = x[:, 0] ** 2 + x[:, 1] ** 2
+            return (r2 if a == "secosw" else np.sqrt(r2)) < 1.0
+
+        x, bad = _redraw_valid(sample, valid, rng, n)
+        r2 = x[:, 0] ** 2 + x[:, 1] ** 2
+        e = r2 if a == "secosw" else np.sqrt(r2)
+        e = np.minimum(e, 1 - 1e-9)
+        w = np.arctan2(x[:, 1], x[:, 0])
+        return e, w, f"from {a}/{b}"
+    if "ecc" in q:
+        e = q["ecc"].sample(rng, n)
+        if "omega" in q:
+            w = np.radians(q["omega"].sample(rng, n))
+        else:
+            w = rng.uniform(-np.pi, np.pi, n)
+        return e, w, "measured" if not q["ecc"].is_limit else f"{q['ecc'].kind} limit"
+    w = np.radians(q["omega"].sample(rng, n)) if "omega" in q else rng.uniform(-np.pi, np.pi, n)
+    return np.zeros(n), w, "assumed circular"
+
+
+def direct_draws(system, n=DEFAULT_DRAWS, seed=0) -> Posterior:
+    """Propagate every summary of ``system`` by ``n`` seeded Monte Carlo draws."""
+    rng = np.random.default_rng(seed)
+    st = system.star
+    npl = system.n_planets
+    m_star = st.mass.sample(rng, n)
+    r_star = st.radius.sample(rng, n) if st.radius else np.full(n, np.nan)
+    rho = st.density.sample(rng, n) if st.density else np.full(n, np.nan)
+
+    shape = (n, npl)
+    P, e, w = np.empty(shape), np.empty(shape), np.empty(shape)
+    msini, mass = np.full(shape, np.nan), np.full(shape, np.nan)
+    inc, node = np.full(shape, np.nan), np.full(shape, np.nan)
+    a = np.empty(shape)
+    notes = {}
+    for j, pl in enumerate(system.planets):
+        q = pl.quantities
+        note = {}
+        P[:, j] = pl.period.sample(rng, n)
+        e[:, j], w[:, j], note["ecc"] = eccentricity_draws(pl, rng, n)
+        # masses (M_sun) before inclinations; Kepler III needs M* + m
+        if "mass" in q:
+            mass[:, j] = q["mass"].sample(rng, n) * MEARTH_MSUN
+            note["mass"] = "true"
+        if "msini" in q:
+            msini[:, j] = q["msini"].sample(rng, n) * MEARTH_MSUN
+            note.setdefault("mass", "minimum")
+        elif "k" in q:
+            k_draws = q["k"].sample(rng, n)
+            msini[:, j] = kepler.msini_from_k_msun(P[:, j], k_draws, m_star, e[:, j])
+            note.setdefault("mass", "minimum (from K)")
+        elif "mass" not in q and "radius" in q:
+            r = q["radius"].sample(rng, n)
+            mass[:, j] = (mass_from_radius_mearth(r) * 10 ** (SCATTER_DEX * rng.standard_normal(n))
+                          * MEARTH_MSUN)
+            note["mass"] = "from radius (mass-radius relation)"
+        m_for_a = np.where(np.isfinite(mass[:, j]), mass[:, j], np.nan_to_num(msini[:, j]))
+        a[:, j] = kepler.a_au(P[:, j], m_star + m_for_a)
+        # inclination to the sky
+        if "inclination" in q:
+            inc[:, j] = np.radians(q["inclination"].sample(rng, n))
+            note["inc"] = "measured"
+        elif "b" in q or pl.transiting:
+            if st.radius is not None:
+                aor = transit.a_over_rstar(a[:, j], r_star)
+            elif st.density is not None:
+                aor = transit.a_over_rstar_from_density(rho, P[:, j])
+            else:
+                aor = None
+            if aor is not None:
+                if "b" in q:
+                    b = q["b"].sample(rng, n)
+                    note["inc"] = "from impact parameter"
+                else:
+                    ror = q["ror"].sample(rng, n) if "ror" in q else 0.0
+                    b = rng.uniform(0.0, 1.0 + ror, n)
+                    note["inc"] = "transiting (b uniform on [0, 1 + Rp/R*])"
+                inc[:, j] = transit.inclination_from_b(b, aor, e[:, j], w[:, j])
+        if "ascending_node" in q:
+            node[:, j] = np.radians(q["ascending_node"].sample(rng, n))
+        # true mass from m sin i where the inclination is known
+        if note.get("mass", "").startswith("minimum") and np.isfinite(inc[:, j]).any():
+            sini = np.sin(inc[:, j])
+            if "k" in q and "msini" not in q:   # exact cubic with the inclination inside M* + m
+                mass[:, j] = kepler.mass_from_k_msun(P[:, j], k_draws, m_star, e[:, j], sini)
+            else:
+                mass[:, j] = msini[:, j] / sini
+            note["mass"] = "true (m sin i / sin i)"
+            a[:, j] = kepler.a_au(P[:, j], m_star + np.nan_to_num(mass[:, j]))
+        notes[pl.name] = note
+    draws = dict(m_star=m_star, r_star=r_star, rho_star=rho, period=P, a=a, ecc=e, omega=w,
+                 msini=msini, mass=mass, inc=inc, node=node)
+    return Posterior(system, draws, "direct", seed=seed, notes=notes,
+                     sampler={"method": "direct Monte Carlo", "draws": n,
+                              "why": "no joint constraint binds: summaries are independent"})

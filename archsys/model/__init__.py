@@ -1,0 +1,1 @@
+"""Data model: measured quantities, the system-file schema and reader."""

@@ -1,0 +1,196 @@
+"""Measured quantities: exact values, Gaussian and asymmetric errors, limits.
+
+A :class:`Measurement` holds one catalogue-level summary in the field's
+canonical unit (converted once, at read time, with astropy units) and knows how
+to draw seeded Monte Carlo samples from the distribution it describes.
+
+Distributions
+-------------
+exact
+    A point mass at ``value``.
+normal / asym
+    A split-normal (two half-Gaussians joined at the mode) with widths
+    ``minus`` and ``plus``; a Gaussian is the case ``minus == plus``.  Draws
+    are truncated to the field's physical support (e.g. ``ecc`` in [0, 1)) by
+    inverse-CDF sampling restricted to the support, never by clipping.
+upper / lower
+    A one-sided limit read as a half-Gaussian likelihood anchored at the edge
+    of the support (0 for an upper limit, the top of the support for a lower
+    limit) whose width is chosen so that, under a flat prior on the support,
+    the posterior has the limit at quantile ``cl`` (upper) or ``1 - cl``
+    (lower).  A lower limit on a quantity without an upper bound defines no
+    proper distribution; such draws stay at the limit and are flagged.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+import math
+
+import numpy as np
+from scipy import optimize, special
+
+__all__ = ["Measurement", "split_normal_ppf", "split_normal_cdf"]
+
+_SQRT2 = math.sqrt(2.0)
+
+
+def _phi(z):
+    return 0.5 * (1.0 + special.erf(np.asarray(z) / _SQRT2))
+
+
+def _phi_inv(u):
+    return _SQRT2 * special.erfinv(2.0 * np.asarray(u) - 1.0)
+
+
+def split_normal_cdf(x, mode, minus, plus):
+    """CDF of the split-normal with widths ``minus`` (below) and ``plus`` (above)."""
+    x = np.asarray(x, dtype=float)
+    w = minus + plus
+    below = 2.0 * minus / w * _phi((x - mode) / minus)
+    above = minus / w + 2.0 * plus / w * (_phi((x - mode) / plus) - 0.5)
+    return np.where(x < mode, below, above)
+
+
+def split_normal_ppf(u, mode, minus, plus):
+    """Inverse CDF of the split-normal distribution (vectorised over ``u``)."""
+    u = np.asarray(u, dtype=float)
+    w = minus + plus
+    p = minus / w
+    lo = mode + minus * _phi_inv(np.clip(u * w / (2.0 * minus), 1e-300, 1 - 1e-16))
+    hi = mode + plus * _phi_inv(np.clip(0.5 + (u - p) * w / (2.0 * plus), 1e-16, 1 - 1e-16))
+    return np.where(u < p, lo, hi)
+
+
+@dataclass(frozen=True)
+class Measurement:
+    """One measured quantity in its field's canonical unit.
+
+    Parameters
+    ----------
+    kind : {'exact', 'normal', 'asym', 'upper', 'lower'}
+    value : float or None
+        Central value (mode of the split-normal) or the point value.
+    minus, plus : float
+        Lower and upper 1-sigma widths (equal for ``normal``; 0 for ``exact``).
+    limit : float or None
+        The limit value for ``upper``/``lower``.
+    cl : float
+        Confidence level of a limit (default 0.95).
+    support : (float, float)
+        Physical support of the field, e.g. (0, 1) for eccentricity.
+    unit : str
+        Canonical unit, for display.
+    """
+
+    kind: str
+    value: float | None = None
+    minus: float = 0.0
+    plus: float = 0.0
+    limit: float | None = None
+    cl: float = 0.95
+    support: tuple = (-math.inf, math.inf)
+    unit: str = ""
+
+    # -- summaries -----------------------------------------------------
+    @property
+    def is_limit(self) -> bool:
+        return self.kind in ("upper", "lower")
+
+    @property
+    def center(self) -> float:
+        """A representative value: the mode, or the limit for limits."""
+        return self.value if self.value is not None else self.limit
+
+    @property
+    def sigma(self) -> float:
+        """Mean of the two widths (0 for exact values and limits)."""
+        return 0.5 * (self.minus + self.plus)
+
+    # -- one-sided limits ---------------------------------------------
+    def limit_scale(self) -> float:
+        """Half-Gaussian width s of the one-sided likelihood of a limit.
+
+        Solves F(limit) = cl (upper) or 1 - F(limit) = cl (lower), where F is
+        the CDF of the posterior under a flat prior on the support.
+        """
+        lo, hi = self.support
+        if self.kind == "upper":
+            edge, span = (lo if math.isfinite(lo) else 0.0), hi - (lo if math.isfinite(lo) else 0.0)
+            d = self.limit - edge
+        else:
+            if not math.isfinite(hi):
+                return math.nan
+            edge, span = hi, hi - lo
+            d = hi - self.limit
+        if d <= 0:
+            return 0.0
+        # posterior is a half-normal(s) truncated to [0, span]
+        def frac(s):
+            return special.erf(d / (s * _SQRT2)) / special.erf(span / (s * _SQRT2)) - self.cl
+        s_inf = d / (_SQRT2 * special.erfinv(self.cl))
+        if not math.isfinite(span):
+            return s_inf
+        if frac(1e6 * span) > 0:  # flat prior alone already satisfies the level
+            return math.inf
+        return optimize.brentq(frac, 1e-9 * d, 1e6 * span, xtol=1e-12 * d)
+
+    # -- sampling -----------------------------------------------------
+    def sample(self, rng: np.random.Generator, n: int) -> np.ndarray:
+        """Seeded Monte Carlo draws, shape (n,)."""
+        lo, hi = self.support
+        if self.kind == "exact":
+            return np.full(n, float(self.value))
+        if self.kind in ("normal", "asym"):
+            m, sm, sp = float(self.value), float(self.minus), float(self.plus)
+            if sm == 0 and sp == 0:
+                return np.full(n, m)
+            sm = sm if sm > 0 else 1e-12 * max(abs(m), 1.0)
+            sp = sp if sp > 0 else 1e-12 * max(abs(m), 1.0)
+            u_lo = split_normal_cdf(lo, m, sm, sp) if math.isfinite(lo) else 0.0
+            u_hi = split_normal_cdf(hi, m, sm, sp) if math.isfinite(hi) else 1.0
+            u = rng.uniform(u_lo, u_hi, n)
+            x = split_normal_ppf(u, m, sm, sp)
+            # keep strictly inside open supports such as ecc < 1
+            return np.clip(x, lo, np.nextafter(hi, -np.inf) if math.isfinite(hi) else hi)
+        s = self.limit_scale()
+        if self.kind == "upper":
+            edge = lo if math.isfinite(lo) else 0.0
+            span = hi - edge
+            if not math.isfinite(s):
+                return rng.uniform(edge, hi, n)
+            top = special.erf(span / (s * _SQRT2)) if math.isfinite(span) else 1.0
+            u = rng.uniform(0.0, top, n)
+            x = edge + s * _SQRT2 * special.erfinv(u)
+            return np.clip(x, lo, np.nextafter(hi, -np.inf) if math.isfinite(hi) else hi)
+        # lower limit
+        if not math.isfinite(s):
+            if math.isfinite(hi):
+                return rng.uniform(lo, hi, n)
+            return np.full(n, float(self.limit))
+        span = hi - lo
+        top = special.erf(span / (s * _SQRT2))
+        u = rng.uniform(0.0, top, n)
+        x = hi - s * _SQRT2 * special.erfinv(u)
+        return np.clip(x, lo, np.nextafter(hi, -np.inf))
+
+    def log_likelihood(self, x):
+        """Log-likelihood of true value(s) ``x`` given this summary (up to a constant).
+
+        Split-normal for ``normal``/``asym``; half-Gaussian one-sided for limits;
+        0 for ``exact`` (exact values are fixed, not fitted).
+        """
+        x = np.asarray(x, dtype=float)
+        if self.kind in ("normal", "asym"):
+            d = x - self.value
+            s = np.where(d < 0, self.minus, self.plus)
+            return -0.5 * (d / s) ** 2
+        if self.kind == "exact":
+            return np.zeros_like(x)
+        s = self.limit_scale()
+        if not math.isfinite(s):
+            return np.zeros_like(x)
+        lo, hi = self.support
+        if self.kind == "upper":
+            edge = lo if math.isfinite(lo) else 0.0
+            return -0.5 * ((x - edge) / s) ** 2
+        return -0.5 * ((hi - x) / s) ** 2

@@ -1,0 +1,324 @@
+"""Read and validate system files (TOML, archsys schema).
+
+The schema is documented in README.md ("System files").  Every problem found is
+reported as one line naming the file, the planet and the field; all problems
+of a file are collected and raised together as one :class:`InputError`.
+"""
+from __future__ import annotations
+
+import difflib
+import hashlib
+import math
+import pathlib
+import tomllib
+
+import astropy.units as u
+
+from ..errors import InputError
+from ..physics.constants import MEARTH_MSUN
+from .quantity import Measurement
+from .schema import (PLANET_FIELDS, PLANET_META_KEYS, QUANTITY_KEYS, STAR_FIELDS,
+                     STAR_META_KEYS, TOP_KEYS, Field)
+from .system import Planet, Star, System
+
+__all__ = ["read_system", "build_system", "parse_quantity", "MAX_PLANETS"]
+
+#: Largest system we accept; far above any known system, it bounds memory use.
+MAX_PLANETS = 64
+
+
+class _Problems:
+    def __init__(self, source):
+        self.source = source
+        self.lines = []
+
+    def add(self, where, msg):
+        self.lines.append(f"{self.source}: {where}: {msg}" if where else f"{self.source}: {msg}")
+
+    def raise_if_any(self):
+        if self.lines:
+            err = InputError(self.lines[0])
+            err.problems = list(self.lines)
+            err.args = ("\n".join(self.lines),)
+            raise err
+
+
+def _suggest(key, known):
+    close = difflib.get_close_matches(key, list(known), n=1, cutoff=0.5)
+    return f" (did you mean '{close[0]}'?)" if close else ""
+
+
+def _is_number(x):
+    return isinstance(x, (int, float)) and not isinstance(x, bool)
+
+
+def _convert(x, unit_str, fld: Field):
+    """Convert number x from unit_str to the field's canonical unit."""
+    if unit_str is None or unit_str == fld.unit:
+        return float(x)
+    src = u.Unit(unit_str)
+    dst = u.Unit(fld.unit) if fld.unit else u.dimensionless_unscaled
+    return float((x * src).to_value(dst))
+
+
+def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
+    """Parse one quantity (number or table) into a Measurement, or None on error."""
+    name = fld.name
+    loc = f"{where}field '{name}'"
+    if _is_number(raw):
+        spec = {"value": raw}
+    elif isinstance(raw, dict):
+        spec = dict(raw)
+    else:
+        problems.add(loc, f"expected a number or a table like {{value, err}}; got {type(raw).__name__} {raw!r:.40}")
+        return None
+    for k in spec:
+        if k not in QUANTITY_KEYS:
+            problems.add(loc, f"unknown key '{k}'{_suggest(k, QUANTITY_KEYS)}")
+            return None
+    unit_str = spec.pop("unit", None)
+    if unit_str is not None:
+        if not isinstance(unit_str, str):
+            problems.add(loc, f"unit must be a string; got {unit_str!r:.40}")
+            return None
+        try:
+            _convert(1.0, unit_str, fld)
+        except (ValueError, u.UnitsError, TypeError):
+            want = fld.unit or "a dimensionless unit"
+            problems.add(loc, f"unit '{unit_str}' does not convert to {want}")
+            return None
+    for k, v in spec.items():
+        if not _is_number(v):
+            problems.add(loc, f"'{k}' must be a number; got {v!r:.40}")
+            return None
+        if not math.isfinite(v):
+            problems.add(loc, f"'{k}' must be finite; got {v}")
+            return None
+    has_val = "value" in spec
+    lims = [k for k in ("upper", "lower") if k in spec]
+    if has_val and lims:
+        problems.add(loc, f"give either 'value' or '{lims[0]}', not both")
+        return None
+    if not has_val and not lims:
+        problems.add(loc, "needs 'value', 'upper' or 'lower'")
+        return None
+    if len(lims) == 2:
+        problems.add(loc, "give only one of 'upper' and 'lower'")
+        return None
+    if ("minus" in spec) != ("plus" in spec):
+        given, missing = ("minus", "plus") if "minus" in spec else ("plus", "minus")
+        problems.add(loc, f"'{given}' given without '{missing}'")
+        return None
+    if "err" in spec and "minus" in spec:
+        problems.add(loc, "give either 'err' or 'minus'/'plus', not both")
+        return None
+    for k in ("err", "minus", "plus"):
+        if k in spec and spec[k] < 0:
+            problems.add(loc, f"'{k}' must not be negative; got {spec[k]}")
+            return None
+    if lims and any(k in spec for k in ("err", "minus", "plus")):
+        problems.add(loc, f"a limit ('{lims[0]}') takes no errors; use 'cl' for its confidence level")
+        return None
+    cl = spec.get("cl", 0.95)
+    if "cl" in spec and not lims:
+        problems.add(loc, "'cl' applies only to an 'upper' or 'lower' limit")
+        return None
+    if not 0.0 < cl < 1.0:
+        problems.add(loc, f"'cl' must be in (0, 1); got {cl}")
+        return None
+    if fld.periodic and lims:
+        problems.add(loc, "an angle defined modulo 360 deg cannot take a limit")
+        return None
+
+    # convert to canonical units (errors scale linearly; all our units are linear)
+    conv = lambda x: _convert(x, unit_str, fld)  # noqa: E731
+    scale = abs(conv(1.0) - conv(0.0)) if unit_str else 1.0
+    lo, hi = fld.support
+    if has_val:
+        value = conv(spec["value"])
+        if "err" in spec:
+            minus = plus = spec["err"] * scale
+            kind = "normal"
+        elif "minus" in spec:
+            minus, plus = spec["minus"] * scale, spec["plus"] * scale
+            kind = "asym" if minus != plus else "normal"
+        else:
+            minus = plus = 0.0
+            kind = "exact"
+        if kind != "exact" and minus == 0 and plus == 0:
+            kind = "exact"
+        if not _in_support(value, fld, problems, loc, "value"):
+            return None
+        return Measurement(kind, value=value, minus=minus, plus=plus,
+                           support=fld.support, unit=fld.unit)
+    kind = lims[0]
+    limit = conv(spec[kind])
+    if not _in_support(limit, fld, problems, loc, kind):
+        return None
+    if kind == "upper" and limit <= lo and math.isfinite(lo):
+        problems.add(loc, f"upper limit {limit} leaves no room above the physical minimum {lo}")
+        return None
+    if kind == "lower" and math.isfinite(hi) and limit >= hi:
+        problems.add(loc, f"lower limit {limit} leaves no room below the physical maximum {hi}")
+        return None
+    return Measurement(kind, limit=limit, cl=cl, support=fld.support, unit=fld.unit)
+
+
+def _in_support(x, fld, problems, loc, key):
+    lo, hi = fld.support
+    unit = f" {fld.unit}" if fld.unit else ""
+    if fld.positive and x <= 0:
+        problems.add(loc, f"{key} must be positive; got {x:g}{unit}")
+        return False
+    if x < lo or x > hi or (x == hi and not fld.closed_hi):
+        br = ")" if not fld.closed_hi else "]"
+        problems.add(loc, f"{key} must be in [{lo:g}, {hi:g}{br}; got {x:g}{unit}")
+        return False
+    return True
+
+
+def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> System:
+    """Validate a parsed system mapping and build a :class:`System`."""
+    P = _Problems(source)
+    if not isinstance(data, dict):
+        P.add("", "expected a table at top level")
+        P.raise_if_any()
+    for k in data:
+        if k not in TOP_KEYS:
+            P.add("", f"unknown top-level key '{k}'{_suggest(k, TOP_KEYS)}")
+    name = data.get("name")
+    if name is None:
+        P.add("", "missing required field 'name'")
+    elif not isinstance(name, str) or not name.strip():
+        P.add("field 'name'", f"must be a non-empty string; got {name!r:.40}")
+
+    star = None
+    star_raw = data.get("star")
+    if star_raw is None:
+        P.add("", "missing required table [star]")
+    elif not isinstance(star_raw, dict):
+        P.add("", "'star' must be a table [star]")
+    else:
+        sq = {}
+        for k, v in star_raw.items():
+            if k in STAR_META_KEYS:
+                continue
+            if k not in STAR_FIELDS:
+                P.add("star", f"unknown key '{k}'{_suggest(k, list(STAR_FIELDS) + list(STAR_META_KEYS))}")
+                continue
+            m = parse_quantity(v, STAR_FIELDS[k], "star: ", P)
+            if m is not None:
+                sq[k] = m
+        if "mass" not in star_raw:
+            P.add("star", "missing required field 'mass' (solar masses)")
+        if "mass" in sq:
+            star = Star(mass=sq["mass"], radius=sq.get("radius"), density=sq.get("density"),
+                        name=star_raw.get("name"))
+
+    planets = []
+    praw = data.get("planet")
+    if praw is None:
+        P.add("", "no planets: add at least one [[planet]] table")
+        praw = []
+    elif not isinstance(praw, list):
+        P.add("", "'planet' must be an array of tables [[planet]]")
+        praw = []
+    if len(praw) > MAX_PLANETS:
+        P.add("", f"{len(praw)} planets in one system; archsys accepts at most {MAX_PLANETS}")
+        P.raise_if_any()
+    seen = {}
+    for idx, pr in enumerate(praw, start=1):
+        if not isinstance(pr, dict):
+            P.add(f"planet #{idx}", "must be a table")
+            continue
+        pname = pr.get("name")
+        if pname is None:
+            P.add(f"planet #{idx}", "missing required field 'name'")
+            pname = f"#{idx}"
+        elif not isinstance(pname, str) or not pname.strip():
+            P.add(f"planet #{idx}", f"field 'name' must be a non-empty string; got {pname!r:.40}")
+            pname = f"#{idx}"
+        elif pname in seen:
+            P.add(f"planet '{pname}'", f"duplicate planet name (also planet #{seen[pname]})")
+        seen.setdefault(pname, idx)
+        where = f"planet '{pname}'"
+        q = {}
+        for k, v in pr.items():
+            if k in PLANET_META_KEYS:
+                continue
+            if k not in PLANET_FIELDS:
+                P.add(where, f"unknown key '{k}'{_suggest(k, list(PLANET_FIELDS) + list(PLANET_META_KEYS))}")
+                continue
+            m = parse_quantity(v, PLANET_FIELDS[k], where + ": ", P)
+            if m is not None:
+                q[k] = m
+        tr = pr.get("transiting")
+        if tr is not None and not isinstance(tr, bool):
+            P.add(where, f"field 'transiting' must be true or false; got {tr!r:.40}")
+            tr = None
+        if "period" not in pr:
+            P.add(where, "missing required field 'period' (days)")
+        _cross_checks(q, star, where, P)
+        if "period" in q:
+            planets.append(Planet(name=pname, period=q.pop("period"), quantities=q, transiting=tr))
+    P.raise_if_any()
+    planets.sort(key=lambda p: p.period.center)
+    return System(name=name.strip(), star=star, planets=tuple(planets), source=source, sha256=sha256,
+                  reference_plane=str(data.get("reference_plane", "sky")))
+
+
+def _cross_checks(q, star, where, P):
+    """Rules that involve more than one field of a planet."""
+    pairs = [("secosw", "sesinw"), ("ecosw", "esinw")]
+    for a, b in pairs:
+        if (a in q) != (b in q):
+            have, miss = (a, b) if a in q else (b, a)
+            P.add(where, f"field '{have}' needs its partner '{miss}'")
+    given = [k for k in ("ecc", "secosw", "ecosw") if k in q]
+    if len(given) > 1:
+        P.add(where, f"give eccentricity one way only; got {', '.join(given)}")
+    for a, b in pairs:
+        if a in q and b in q and q[a].value is not None and q[b].value is not None:
+            r2 = q[a].value ** 2 + q[b].value ** 2
+            e = r2 if a == "secosw" else math.sqrt(r2)
+            if e >= 1:
+                P.add(where, f"fields '{a}', '{b}' imply e = {e:.3g}; must be < 1")
+    if star is not None and star.mass.center:
+        mstar_mearth = star.mass.center / MEARTH_MSUN
+        for k in ("mass", "msini"):
+            if k in q and q[k].center is not None and q[k].center >= mstar_mearth:
+                P.add(where, f"field '{k}': planet mass {q[k].center:g} M_earth is not below "
+                             f"the stellar mass ({mstar_mearth:g} M_earth)")
+
+
+def read_system(path) -> System:
+    """Read and validate a system file.
+
+    Raises
+    ------
+    InputError
+        One line per problem, each naming file, planet and field.
+    """
+    p = pathlib.Path(path)
+    src = str(path)
+    try:
+        blob = p.read_bytes()
+    except FileNotFoundError:
+        raise InputError(f"{src}: file not found") from None
+    except IsADirectoryError:
+        raise InputError(f"{src}: is a directory, expected a system file (.toml)") from None
+    except OSError as exc:
+        raise InputError(f"{src}: cannot read ({exc.strerror})") from None
+    if not blob.strip():
+        raise InputError(f"{src}: file is empty")
+    try:
+        text = blob.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise InputError(f"{src}: not UTF-8 text (byte {exc.start}); save the file as UTF-8") from None
+    if "\x00" in text:
+        raise InputError(f"{src}: contains NUL bytes; not a text system file")
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{src}: not valid TOML: {exc}") from None
+    return build_system(data, source=src, sha256=hashlib.sha256(blob).hexdigest())

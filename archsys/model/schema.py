@@ -1,0 +1,60 @@
+"""The system-file schema: every field, its canonical unit and physical support.
+
+Canonical (file) units are the defaults a user may override per quantity with
+``unit = "..."`` (any astropy unit string that converts).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+import math
+
+INF = math.inf
+
+
+@dataclass(frozen=True)
+class Field:
+    name: str
+    unit: str            # canonical unit (astropy string); "" = dimensionless
+    support: tuple       # (lo, hi) physical support in the canonical unit
+    description: str
+    positive: bool = False   # value must be > 0
+    periodic: bool = False   # an angle defined modulo 360 deg: no limits
+    closed_hi: bool = True   # False: the upper end is excluded (ecc < 1)
+
+
+STAR_FIELDS = {
+    f.name: f
+    for f in [
+        Field("mass", "solMass", (0.0, INF), "stellar mass", positive=True),
+        Field("radius", "solRad", (0.0, INF), "stellar radius", positive=True),
+        Field("density", "g / cm3", (0.0, INF), "mean stellar density", positive=True),
+    ]
+}
+
+PLANET_FIELDS = {
+    f.name: f
+    for f in [
+        Field("period", "day", (0.0, INF), "orbital period", positive=True),
+        Field("k", "m / s", (0.0, INF), "RV semi-amplitude", positive=True),
+        Field("msini", "earthMass", (0.0, INF), "minimum mass m sin i", positive=True),
+        Field("mass", "earthMass", (0.0, INF), "true mass", positive=True),
+        Field("radius", "earthRad", (0.0, INF), "planet radius", positive=True),
+        Field("ror", "", (0.0, 1.0), "radius ratio Rp/R*", positive=True),
+        Field("ecc", "", (0.0, 1.0), "eccentricity", closed_hi=False),
+        Field("omega", "deg", (-INF, INF), "argument of periastron", periodic=True),
+        Field("secosw", "", (-1.0, 1.0), "sqrt(e) cos(omega)"),
+        Field("sesinw", "", (-1.0, 1.0), "sqrt(e) sin(omega)"),
+        Field("ecosw", "", (-1.0, 1.0), "e cos(omega)"),
+        Field("esinw", "", (-1.0, 1.0), "e sin(omega)"),
+        Field("b", "", (0.0, INF), "transit impact parameter"),
+        Field("inclination", "deg", (0.0, 180.0), "orbital inclination"),
+        Field("ascending_node", "deg", (-INF, INF), "longitude of ascending node", periodic=True),
+    ]
+}
+
+#: Keys allowed inside a quantity table.
+QUANTITY_KEYS = ("value", "err", "minus", "plus", "upper", "lower", "cl", "unit")
+#: Non-quantity keys.
+TOP_KEYS = ("name", "star", "planet", "reference_plane", "notes")
+PLANET_META_KEYS = ("name", "transiting", "notes")
+STAR_META_KEYS = ("name", "notes")

@@ -1,0 +1,1 @@
+"""Outputs: the JSON report document, text/Markdown/HTML/LaTeX renderings and figures."""

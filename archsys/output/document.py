@@ -1,0 +1,89 @@
+"""The report document: the JSON contract of ``archsys report --json``.
+
+Keys are stable; later versions only add keys.  Every uncertain number is an
+object ``{"median", "lo", "hi"}`` (the 15.87 / 50 / 84.13 percentiles of the
+draws); ``null`` means the quantity cannot be derived from the inputs.
+Nothing in the document depends on the clock, so the same input and seed give
+byte-identical JSON.
+"""
+from __future__ import annotations
+
+import platform
+
+import numpy as np
+
+from .. import __version__
+from ..inference.summary import summarize
+from ..physics.constants import MEARTH_MSUN
+
+__all__ = ["build_document", "DISCLAIMER", "SCHEMA_VERSION"]
+
+SCHEMA_VERSION = 1
+DISCLAIMER = ("Stability and resonance verdicts are statistical estimates over the posterior "
+              "draws, not guarantees of long-term dynamical behaviour.")
+
+
+def _versions():
+    import astropy
+    import emcee
+    import scipy
+    return {"archsys": __version__, "python": platform.python_version(), "numpy": np.__version__,
+            "scipy": scipy.__version__, "astropy": astropy.__version__, "emcee": emcee.__version__}
+
+
+def _planet_entry(post, j, pl):
+    d = post.draws
+    note = post.notes.get(pl.name, {})
+    entry = {"name": pl.name, "period_days": summarize(d["period"][:, j]),
+             "a_au": summarize(d["a"][:, j])}
+    mass, msini = d["mass"][:, j], d["msini"][:, j]
+    basis = note.get("mass")
+    if np.isfinite(mass).any():
+        entry["mass_mearth"] = summarize(mass, 1.0 / MEARTH_MSUN)
+    if np.isfinite(msini).any():
+        entry["msini_mearth"] = summarize(msini, 1.0 / MEARTH_MSUN)
+    entry["mass_basis"] = basis or "unknown (no K, mass or radius)"
+    ecc_basis = note.get("ecc", "")
+    if ecc_basis != "assumed circular" or post.method == "mcmc":
+        entry["ecc"] = summarize(d["ecc"][:, j])
+    entry["ecc_basis"] = ecc_basis
+    if post.method == "mcmc" or "omega" in pl.quantities or ecc_basis.startswith("from"):
+        entry["omega_deg"] = summarize(np.degrees(d["omega"][:, j]) % 360.0)
+    if np.isfinite(d["inc"][:, j]).any():
+        entry["inclination_deg"] = summarize(np.degrees(d["inc"][:, j]))
+        entry["inclination_basis"] = note.get("inc", "")
+    if pl.transiting is not None:
+        entry["transiting"] = pl.transiting
+    return entry
+
+
+def build_document(res) -> dict:
+    """JSON-ready document of one analysis (see module docstring for the contract)."""
+    post, sysm, sc = res.posterior, res.system, res.scores
+    d = post.draws
+    star = {"mass_msun": summarize(d["m_star"])}
+    if sysm.star.radius is not None:
+        star["radius_rsun"] = summarize(d["r_star"])
+    if sysm.star.density is not None:
+        star["density_gcc"] = summarize(d["rho_star"])
+    doc = {
+        "schema_version": SCHEMA_VERSION,
+        "system": sysm.name,
+        "star": star,
+        "planets": [_planet_entry(post, j, pl) for j, pl in enumerate(sysm.planets)],
+        "pairs": sc["pairs"],
+    }
+    doc.update({k: v for k, v in sc["system"].items()})
+    doc["sampler"] = dict(post.sampler)
+    doc["disclaimer"] = DISCLAIMER
+    doc["provenance"] = {
+        "input_file": sysm.source,
+        "input_sha256": sysm.sha256,
+        "seed": res.options.seed,
+        "draws": post.n_draws,
+        "options": res.options.as_dict(),
+        "priors": post.prior,
+        "package_version": __version__,
+        "versions": _versions(),
+    }
+    return doc

@@ -1,0 +1,1 @@
+"""Survey: batch analysis of catalogues and population inference."""
