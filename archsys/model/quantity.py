@@ -32,6 +32,7 @@ from scipy import optimize, special
 __all__ = ["Measurement", "split_normal_ppf", "split_normal_cdf"]
 
 _SQRT2 = math.sqrt(2.0)
+_GAUSS_CACHE: dict = {}
 
 
 def _phi(z):
@@ -173,6 +174,30 @@ class Measurement:
         x = hi - s * _SQRT2 * special.erfinv(u)
         return np.clip(x, lo, np.nextafter(hi, -np.inf))
 
+    def gauss_params(self):
+        """(center, minus, plus) such that the log-likelihood is -0.5 ((x - center) / width)^2,
+        width = minus below the center and plus above; None for exact values and
+        for limits the flat prior already satisfies.
+
+        Limits become half-Gaussians anchored at the support edge (see module docstring).
+        """
+        cached = _GAUSS_CACHE.get(self)
+        if cached is not None or self in _GAUSS_CACHE:
+            return cached
+        out = None
+        if self.kind in ("normal", "asym"):
+            out = (float(self.value), float(self.minus), float(self.plus))
+        elif self.kind in ("upper", "lower"):
+            s = self.limit_scale()
+            lo, hi = self.support
+            if math.isfinite(s) and s > 0:
+                if self.kind == "upper":
+                    out = ((lo if math.isfinite(lo) else 0.0), math.inf, s)
+                else:
+                    out = (hi, s, math.inf)
+        _GAUSS_CACHE[self] = out
+        return out
+
     def log_likelihood(self, x):
         """Log-likelihood of true value(s) ``x`` given this summary (up to a constant).
 
@@ -180,17 +205,11 @@ class Measurement:
         0 for ``exact`` (exact values are fixed, not fitted).
         """
         x = np.asarray(x, dtype=float)
-        if self.kind in ("normal", "asym"):
-            d = x - self.value
-            s = np.where(d < 0, self.minus, self.plus)
-            return -0.5 * (d / s) ** 2
-        if self.kind == "exact":
+        g = self.gauss_params()
+        if g is None:
             return np.zeros_like(x)
-        s = self.limit_scale()
-        if not math.isfinite(s):
-            return np.zeros_like(x)
-        lo, hi = self.support
-        if self.kind == "upper":
-            edge = lo if math.isfinite(lo) else 0.0
-            return -0.5 * ((x - edge) / s) ** 2
-        return -0.5 * ((hi - x) / s) ** 2
+        c, sm, sp = g
+        d = x - c
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r = np.where(d < 0, d / sm, d / sp)
+        return -0.5 * r * r

@@ -98,7 +98,7 @@ def render_text(doc, colour=False) -> str:
         rows = []
         for q in doc["pairs"]:
             row = [f"{_short(q['inner'], sysname)}–{_short(q['outer'], sysname)}", fmt_summary(q["period_ratio"])]
-            row.append(q.get("nearest_mmr", "") + (f" ({100 * q['mmr_offset']['median']:+.2f} %)" if q.get("mmr_offset") else ""))
+            row.append((q.get("nearest_mmr") or "— (wide)") + (f" ({100 * q['mmr_offset']['median']:+.2f} %)" if q.get("mmr_offset") else ""))
             row.append(fmt_summary(q["hill_separation"]))
             row.append(_pct(q.get("hill_stable_probability")))
             if "amd_stable_probability" in q:

@@ -98,15 +98,21 @@ def _integrate_one(task):
     period_inner = TWO_PI * math.sqrt(a[0] ** 3 / (GM_SUN * (m_star + m[0])))
     sim.integrator = "whfast"
     sim.dt = period_inner / steps_per_orbit
-    if len(m) > 1:  # closest-pair scale: smallest mutual Hill radius of neighbours
-        r_hm = np.cbrt((m[:-1] + m[1:]) / (3.0 * m_star)) * 0.5 * (a[:-1] + a[1:])
-        sim.exit_min_distance = encounter_factor * float(r_hm.min())
+    # Close encounters: give planet i the radius encounter_factor * r_H,i / 2,
+    # so that a pair "collides" when closer than encounter_factor times the
+    # mean of the two Hill radii.  rebound's "line" search tests the straight
+    # path of each step, so fast passes between two steps are not missed.
+    sim.collision = "line"
+    sim.collision_resolve = "halt"
+    r_hill = a * np.cbrt(m / (3.0 * m_star))
+    for k in range(len(m)):
+        sim.particles[k + 1].r = 0.5 * encounter_factor * float(r_hill[k])
     sim.exit_max_distance = ESCAPE_FACTOR * float(a[-1])
     sim.init_megno(seed=seed)
     encounter = escape = False
     try:
         sim.integrate(n_orbits * period_inner, exact_finish_time=0)
-    except rebound.Encounter:
+    except (rebound.Collision, rebound.Encounter):
         encounter = True
     except rebound.Escape:
         escape = True

@@ -176,7 +176,7 @@ WISDOM1980_COEFF = 1.3
 #: in period ratio).  Derived, not quoted: with this W, the half-widths of
 #: neighbouring first-order resonances j:(j-1) and (j+1):j add up to their
 #: separation ~1/j^2 exactly at the Deck et al. (2013) overlap boundary,
-#: ratio - 1 = (3/2) * 1.46 eps^(2/7), in the large-j limit.  W = 3.12.
+#: ratio - 1 = (3/2) * 1.46 eps^(2/7), in the large-j limit.  W = 3.11.
 RES_WIDTH_COEFF = 0.5 * (1.5 * DECK2013_COEFF) ** (7.0 / 3.0)
 #: A pair is "near" resonance when |Delta| is below this many half-widths.
 #: 3 is a choice: it reaches the observed Kepler near-resonant peak 1-2 %
@@ -206,7 +206,7 @@ def resonance_width(j, k, mu_sum, e=0.0):
 
     Notes
     -----
-    First order (k = 1), with ``W =`` :data:`RES_WIDTH_COEFF` ``= 3.12``:
+    First order (k = 1), with ``W =`` :data:`RES_WIDTH_COEFF` ``= 3.11``:
 
     .. math:: \\delta_w = W \\max\\left[ (\\mu^2 j)^{1/3}, (\\mu j e)^{1/2} \\right]
 
@@ -393,6 +393,13 @@ def in_overlap_zone(ratio, mu1, mu2, criterion="deck2013"):
 # Gap complexity (Gilbert & Fabrycky 2020) and spacing uniformity
 # ---------------------------------------------------------------------------
 
+def _sorted_periods(periods):
+    P = np.asarray(periods, dtype=float)
+    if P.ndim == 0:
+        raise ValueError("periods must have a planet axis (last axis); got a scalar")
+    return np.sort(P, axis=-1)
+
+
 def _lmc(p):
     """LMC complexity H * D of distributions p along the last axis (natural log)."""
     n = p.shape[-1]
@@ -486,10 +493,10 @@ def gap_complexity(periods):
     .. [1] Gilbert, G. J. & Fabrycky, D. C. 2020, AJ 159, 281
     .. [2] Lopez-Ruiz, R., Mancini, H. L. & Calbet, X. 1995, Phys. Lett. A 209, 321
     """
-    P = np.sort(np.asarray(periods, dtype=float), axis=-1)  # (..., N)
-    N = P.shape[-1] if P.ndim else 0
+    P = _sorted_periods(periods)  # (..., N)
+    N = P.shape[-1]
     if N < 3:
-        return np.full(P.shape[:-1] if P.ndim else (), np.nan)
+        return np.full(P.shape[:-1], np.nan)
     logr = np.log(period_ratios(P))  # (..., n)
     p_star = logr / logr.sum(axis=-1, keepdims=True)  # sum of logs = log(Pmax/Pmin)
     return _lmc(p_star) / c_max(N - 1)
@@ -501,7 +508,7 @@ def spacing_uniformity(periods):
     Parameters
     ----------
     periods : array_like, shape (..., n_planets)
-        Positive periods sorted by period.
+        Positive periods; sorted internally along the last axis.
 
     Returns
     -------
@@ -515,8 +522,8 @@ def spacing_uniformity(periods):
     ----------
     .. [1] Weiss, L. M. et al. 2018, AJ 155, 48 (correlated adjacent period ratios)
     """
-    P = np.asarray(periods, dtype=float)
-    if P.ndim == 0 or P.shape[-1] < 3:
-        return np.full(P.shape[:-1] if P.ndim else (), np.nan)
+    P = _sorted_periods(periods)  # (..., N)
+    if P.shape[-1] < 3:
+        return np.full(P.shape[:-1], np.nan)
     logr = np.log(period_ratios(P))  # (..., n_pairs)
     return logr.std(axis=-1) / logr.mean(axis=-1)

@@ -1,0 +1,330 @@
+"""Posterior sampling with emcee's ensemble sampler.
+
+* vectorised log-probability (all walkers in one call);
+* initialisation from the direct Monte Carlo draws of the summaries, keeping
+  only points the joint constraints allow;
+* runs in blocks until the chain is at least ``N_TAU`` integrated
+  autocorrelation times long (or until ``max_steps``, with a warning);
+* burn-in of ``BURN_TAU`` autocorrelation times, thinning by half of one;
+* effective sample size per parameter reported.
+
+When no joint constraint binds the posterior is drawn directly
+(:mod:`archsys.inference.draws`); :func:`needs_mcmc` decides, and the report
+says which path ran.
+"""
+from __future__ import annotations
+
+import math
+import sys
+import time
+import warnings
+
+import emcee
+import numpy as np
+
+from ..errors import ConvergenceWarning
+from ..physics.constants import MEARTH_MSUN
+from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
+from .draws import direct_draws
+from .model import SystemModel
+from .posterior import Posterior
+from .priors import default_prior, load_prior
+
+__all__ = ["needs_mcmc", "sample_system", "N_TAU", "BURN_TAU"]
+
+#: Required chain length in integrated autocorrelation times (issue: >= 50).
+N_TAU = 50
+#: Burn-in, in autocorrelation times.
+BURN_TAU = 3
+_BLOCK = 500
+
+
+def _priors(system, opts):
+    ep = load_prior(opts.ecc_prior) if opts.ecc_prior else default_prior("eccentricity")
+    sp = load_prior(opts.incl_prior) if opts.incl_prior else default_prior("mutual_inclination_sigma")
+    if ep.quantity != "eccentricity":
+        from ..errors import InputError
+        raise InputError(f"--prior {opts.ecc_prior}: is a prior on {ep.quantity}, not eccentricity")
+    if sp.quantity != "mutual_inclination_sigma":
+        from ..errors import InputError
+        raise InputError(f"--incl-prior {opts.incl_prior}: is a prior on {sp.quantity}, not mutual_inclination_sigma")
+    return ep, sp
+
+
+def needs_mcmc(system, opts) -> bool:
+    """True when a joint constraint binds, so that direct draws would be wrong.
+
+    Binding constraints: two or more transiting planets (their inclinations are
+    coupled through the dispersion sigma), a non-transiting planet beside
+    transiting ones, a population prior other than flat, the stability prior,
+    astrometric orientations, or orbits that cross in some direct draws.
+    """
+    if opts.require_stable or opts.ecc_prior not in (None, "ecc-uniform"):
+        return True
+    tr = [p for p in system.planets if p.transiting or "b" in p.quantities]
+    if len(tr) >= 2:
+        return True
+    if tr and any(p.transiting is False for p in system.planets):
+        return True
+    if any("ascending_node" in p.quantities for p in system.planets):
+        return True
+    if system.n_planets >= 2:
+        d = direct_draws(system, n=512, seed=opts.seed)
+        a, e = d["a"], d["ecc"]
+        crossing = np.any(a[:, :-1] * (1 + e[:, :-1]) >= a[:, 1:] * (1 - e[:, 1:]), axis=1)
+        if crossing.mean() > 0.001:
+            return True
+    return False
+
+
+def _initial(model, system, rng, nwalkers, seed):
+    """Walker start positions drawn from the summaries, filtered by the joint constraints."""
+    cand = []
+    n_try = 4096
+    for attempt in range(12):
+        d = direct_draws(system, n=n_try, seed=seed + 7919 * (attempt + 1))
+        th = np.empty((n_try, model.ndim))
+        ix = model.ix
+        e = np.clip(np.where(np.isfinite(d["ecc"]), d["ecc"], 0.0), 0.0, 0.95)
+        # planets without eccentricity information start from the prior
+        for j, p in enumerate(system.planets):
+            if not any(k in p.quantities for k in ("ecc", "secosw", "ecosw")):
+                e[:, j] = np.clip(model.ecc_prior.sample(rng, n_try), 0.0, 0.3)
+        w = d["omega"]
+        for j in range(model.np_):
+            th[:, ix[f"x{j}"]] = np.sqrt(e[:, j]) * np.cos(w[:, j])
+            th[:, ix[f"y{j}"]] = np.sqrt(e[:, j]) * np.sin(w[:, j])
+        # orientation: reference plane and dispersion, then normals from the hierarchy;
+        # planets with a sky inclination from the summaries start there
+        inc = d["inc"]
+        known = np.isfinite(inc)
+        if known.any():
+            ci = np.nanmedian(np.where(known, np.abs(np.cos(inc)), np.nan), axis=1)
+            ci = np.where(np.isfinite(ci), ci, rng.uniform(0, 1, n_try))
+            sig = np.radians(rng.uniform(0.1, 2.0, n_try))
+        else:
+            ci = rng.uniform(0.0, 1.0, n_try)
+            sig = np.radians(np.clip(model.sigma_prior.sample(rng, n_try), 0.1, 30.0))
+        th[:, ix["cosI"]] = np.clip(ci, 0.0, 1.0)
+        th[:, ix["logsigma"]] = np.log(sig)
+        if model.node_ref_free:
+            th[:, ix["node_ref"]] = 0.0
+        sinI = np.sqrt(1.0 - ci * ci)
+        for j in range(model.np_):
+            psi = sig * np.sqrt(-2.0 * np.log(rng.uniform(1e-12, 1.0, n_try)))
+            phi = rng.uniform(-np.pi, np.pi, n_try)
+            # rotate the tilted normal from the reference frame to the sky frame
+            nx = np.sin(psi) * np.cos(phi)
+            ny_ref = np.sin(psi) * np.sin(phi)
+            nz_ref = np.cos(psi)
+            nz = ci * nz_ref + sinI * ny_ref
+            ny = ci * ny_ref - sinI * nz_ref
+            cos_i = nz
+            node = np.arctan2(nx, -ny)
+            if known[:, j].any():
+                cos_i = np.where(known[:, j], np.cos(inc[:, j]), cos_i)
+            th[:, ix[f"cosi{j}"]] = cos_i if model.signed[j] else np.abs(cos_i)
+            th[:, ix[f"node{j}"]] = node
+        for j in model.mass_planets:
+            m = d["mass"][:, j]
+            ms = d["msini"][:, j]
+            base = np.where(np.isfinite(ms), ms, m)
+            th[:, ix[f"logmsini{j}"]] = np.log(np.clip(base, 1e-12, 0.07))
+        for j in model.free_periods:
+            th[:, ix[f"P{j}"]] = d["period"][:, j]
+        if model.star_mass_free:
+            th[:, ix["mstar"]] = d["m_star"]
+        if model.star_scale_free:
+            th[:, ix["rstar"]] = d["r_star"] if model.star_scale == "radius" else d["rho_star"]
+        lp = model.log_prob(th)
+        good = np.isfinite(lp)
+        if good.any():
+            cand.append((th[good], lp[good]))
+        if sum(len(c[0]) for c in cand) >= 4 * nwalkers:
+            break
+    if not cand:
+        return None
+    th = np.concatenate([c[0] for c in cand])
+    lp = np.concatenate([c[1] for c in cand])
+    order = np.argsort(-lp)[: max(4 * nwalkers, nwalkers)]
+    if len(order) < nwalkers:
+        pick = rng.choice(order, nwalkers, replace=True)
+        jitter = 1e-6 * rng.standard_normal((nwalkers, model.ndim))
+        return th[pick] + jitter * np.maximum(np.abs(th[pick]), 1e-3)
+    return th[rng.choice(order, nwalkers, replace=False)]
+
+
+class _Progress:
+    def __init__(self, enabled, name):
+        self.enabled = enabled and sys.stderr.isatty()
+        self.name = name
+        self.t0 = time.perf_counter()
+
+    def update(self, steps, target, tau):
+        if not self.enabled:
+            return
+        frac = min(1.0, steps / max(target, 1))
+        bar = "#" * int(24 * frac)
+        sys.stderr.write(f"\r{self.name}: [{bar:<24}] {steps} steps, tau {tau:.0f}, "
+                         f"{time.perf_counter() - self.t0:.0f} s ")
+        sys.stderr.flush()
+
+    def close(self):
+        if self.enabled:
+            sys.stderr.write("\n")
+
+
+def sample_system(system, opts) -> Posterior:
+    """MCMC posterior of ``system`` under ``opts`` (see module docstring)."""
+    t0 = time.perf_counter()
+    ep, sp = _priors(system, opts)
+    model = SystemModel(system, ep, sp, require_stable=opts.require_stable)
+    rng = np.random.default_rng(opts.seed)
+    fast = opts.mode == "fast"
+    nwalkers = max(2 * model.ndim + 2, 32 if not fast else 24)
+    nwalkers += nwalkers % 2
+    max_steps = opts.max_steps or (4000 if fast else 60000)
+    n_tau = 20 if fast else N_TAU
+    p0 = _initial(model, system, rng, nwalkers, opts.seed)
+    if p0 is None:
+        from ..errors import InputError
+        raise InputError(f"{system.source}: no parameter set satisfies the joint constraints "
+                         "(transits, non-transits, non-crossing orbits"
+                         + (", stability" if opts.require_stable else "") + "); check the inputs")
+    moves = [(emcee.moves.DEMove(), 0.8), (emcee.moves.DESnookerMove(), 0.2)]
+    sampler = emcee.EnsembleSampler(nwalkers, model.ndim, model.log_prob, vectorize=True, moves=moves)
+    # emcee draws from numpy's legacy global state through its own RandomState; seed it explicitly
+    sampler._random = np.random.RandomState(int(rng.integers(2**31)))
+    prog = _Progress(not opts.quiet, system.name)
+    state = p0
+    tau = np.full(model.ndim, np.inf)
+    converged = False
+    steps = 0
+    while steps < max_steps:
+        n = min(_BLOCK if steps < 4000 else 2 * _BLOCK, max_steps - steps)
+        state = sampler.run_mcmc(state, n, progress=False, skip_initial_state_check=True)
+        steps += n
+        chain = sampler.get_chain()
+        tau = emcee.autocorr.integrated_time(chain[steps // 3:], tol=0, quiet=True)
+        tmax = float(np.max(tau))
+        prog.update(steps, n_tau * tmax, tmax)
+        usable = steps - BURN_TAU * tmax
+        enough = usable >= n_tau * tmax and (fast or steps >= 1000)
+        if np.all(np.isfinite(tau)) and enough:
+            converged = True
+            break
+    prog.close()
+    tmax = float(np.max(tau)) if np.all(np.isfinite(tau)) else steps / 10
+    burn = int(min(BURN_TAU * tmax, steps // 2))
+    thin = max(1, int(tmax / 2))
+    flat = sampler.get_chain(discard=burn, thin=thin, flat=True)
+    lpf = sampler.get_log_prob(discard=burn, thin=thin, flat=True)
+    flat = flat[np.isfinite(lpf)]
+    n_after = (steps - burn) * nwalkers
+    neff = {name: float(n_after / t) for name, t in zip(model.names, tau)}
+    if not converged:
+        warnings.warn(f"{system.name}: chain stopped at the cap of {max_steps} steps, "
+                      f"{steps / tmax:.0f} autocorrelation times (< {n_tau}); intervals are rough",
+                      ConvergenceWarning, stacklevel=2)
+    # keep at most n_draws (evenly spaced, deterministic)
+    if len(flat) > opts.n_draws:
+        flat = flat[np.linspace(0, len(flat) - 1, opts.n_draws).round().astype(int)]
+    post = _to_posterior(model, system, flat, opts, rng)
+    post.sampler = {
+        "method": "MCMC (emcee ensemble sampler, DE + snooker moves)",
+        "why": _why(system, opts),
+        "walkers": nwalkers,
+        "steps": steps,
+        "burn_in": burn,
+        "thin": thin,
+        "autocorrelation_time": {k: round(float(v), 2) for k, v in zip(model.names, tau)},
+        "max_autocorrelation_time": round(tmax, 2),
+        "chain_length_in_tau": round(steps / tmax, 1),
+        "n_eff": {k: round(v, 1) for k, v in neff.items()},
+        "min_n_eff": round(min(neff.values()), 1),
+        "converged": converged,
+        "target_tau_multiple": n_tau,
+        "acceptance_fraction": round(float(np.mean(sampler.acceptance_fraction)), 3),
+        "log_prob_evaluations": int(steps * nwalkers),
+        "wall_seconds": round(time.perf_counter() - t0, 2),
+        "parameters": model.names,
+    }
+    post.prior = {"eccentricity": {"name": ep.name, "citation": ep.citation, "from_memory": ep.from_memory},
+                  "mutual_inclination_sigma": {"name": sp.name, "citation": sp.citation,
+                                               "from_memory": sp.from_memory}}
+    return post
+
+
+def _why(system, opts):
+    if opts.mode == "mcmc":
+        return "requested (--mode mcmc)"
+    reasons = []
+    if opts.require_stable:
+        reasons.append("stability prior")
+    if opts.ecc_prior not in (None, "ecc-uniform"):
+        reasons.append("population eccentricity prior")
+    tr = [p for p in system.planets if p.transiting or "b" in p.quantities]
+    if len(tr) >= 2:
+        reasons.append("several transiting planets share one inclination dispersion")
+    if tr and any(p.transiting is False for p in system.planets):
+        reasons.append("a non-transiting planet constrains the geometry")
+    if any("ascending_node" in p.quantities for p in system.planets):
+        reasons.append("astrometric orientation")
+    return "; ".join(reasons) or "orbits cross in some direct draws"
+
+
+def _to_posterior(model, system, flat, opts, rng):
+    c = model.unpack(flat)
+    n = flat.shape[0]
+    npl = system.n_planets
+    # draw the sign of cos i for each planet from its conditional probability
+    terms = model.orientation_terms(c)                             # (n, np, 2)
+    p_plus = 1.0 / (1.0 + np.exp(np.clip(terms[..., 1] - terms[..., 0], -700, 700)))
+    sign = np.where(rng.uniform(size=p_plus.shape) < p_plus, 1.0, -1.0)
+    sign = np.where(np.asarray(model.signed)[None, :], 1.0, sign)
+    cos_i = sign * c["cos_i"]
+    from .model import _normal
+    normals = _normal(cos_i, c["node"])                            # (n, np, 3)
+    nref = model.ref_normal(c)
+    psi = np.arccos(np.clip(np.sum(normals * nref[:, None, :], axis=-1), -1.0, 1.0))
+    # independent quantities drawn from their summaries
+    period = c["period"].copy()
+    for j, p in enumerate(system.planets):
+        if j not in model.free_periods:
+            period[:, j] = p.period.sample(rng, n)
+    m_star = c["m_star"]
+    mass = np.full((n, npl), np.nan)
+    msini = np.full((n, npl), np.nan)
+    notes = {}
+    for j, p in enumerate(system.planets):
+        note = {}
+        q = p.quantities
+        if j in model.mass_planets:
+            mass[:, j] = c["mass"][:, j]
+            msini[:, j] = mass[:, j] * np.sin(c["inc"][:, j])
+            if "mass" in q:
+                note["mass"] = "true"
+            elif model.has_transits and (p.transiting or "b" in q):
+                note["mass"] = "true (m sin i / sin i, transit geometry)"
+            else:
+                note["mass"] = "true (posterior over inclination)"
+        elif "radius" in q:
+            r = q["radius"].sample(rng, n)
+            mass[:, j] = mass_from_radius_mearth(r) * 10 ** (SCATTER_DEX * rng.standard_normal(n)) * MEARTH_MSUN
+            note["mass"] = "from radius (mass-radius relation)"
+        if any(k in q for k in ("ecc", "secosw", "ecosw")):
+            note["ecc"] = "posterior (summary x prior)"
+        else:
+            note["ecc"] = "prior only (no eccentricity data)"
+        note["inc"] = "posterior (hierarchical orientation model)"
+        notes[p.name] = note
+    from ..physics import kepler
+    a = kepler.a_au(period, m_star[:, None] + np.nan_to_num(mass))
+    rs = c.get("star_scale") if model.star_scale == "radius" else None
+    rho = c.get("star_scale") if model.star_scale == "density" else None
+    draws = dict(m_star=m_star, r_star=rs if rs is not None else np.full(n, np.nan),
+                 rho_star=rho if rho is not None else np.full(n, np.nan),
+                 period=period, a=a, ecc=c["ecc"], omega=c["omega"], msini=msini, mass=mass,
+                 inc=np.arccos(np.clip(cos_i, -1, 1)), node=c["node"], psi=psi,
+                 sigma_mutual=c["sigma"], ref_inc=np.arccos(c["cosI"]))
+    return Posterior(system, draws, "mcmc", seed=opts.seed, notes=notes)
