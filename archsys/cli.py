@@ -151,14 +151,20 @@ def build_parser():
     return ap
 
 
+def _one_line_warnings(message, category, filename, lineno, file=None, line=None):
+    sys.stderr.write(f"archsys: warning: {' '.join(str(message).split())}\n")
+
+
 def main(argv=None):
     parser = build_parser()
     args = parser.parse_args(argv)
     debug = getattr(args, "debug", False)
     try:
-        if not debug:
-            warnings.filterwarnings("ignore", category=RuntimeWarning)
-        return args.func(args)
+        with warnings.catch_warnings():
+            if not debug:
+                warnings.simplefilter("ignore", RuntimeWarning)
+                warnings.showwarning = _one_line_warnings
+            return args.func(args)
     except InputError as exc:
         if debug:
             raise

@@ -201,3 +201,5 @@ def test_input_validation():
         critical_amd(1.2, 1.0)
     with pytest.raises(ValueError, match="e must be"):
         amd([1e-5], [1.0], [1.0], [0.0], 1.0)
+    with pytest.raises(ValueError, match="batch shape"):
+        amd_beta(np.full((3, 2), 1e-5), [[1.0, 2.0]] * 3, 0.0, 0.0, np.ones((3, 1)))

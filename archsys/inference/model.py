@@ -75,6 +75,22 @@ PERIOD_FREE_REL = 1e-3
 _NEG = -np.inf
 
 
+#: Width given to exact (bare-number) summaries inside the MCMC likelihood:
+#: EXACT_REL times max(|value|, floor).  Fixing them exactly would leave a
+#: sampled parameter without a constraint; a 0.1 % Gaussian keeps them fixed
+#: for all practical purposes while the sampler can still move.
+EXACT_REL = 1e-3
+_EXACT_FLOOR = {"ecc": 1.0, "secosw": 1.0, "sesinw": 1.0, "ecosw": 1.0, "esinw": 1.0, "b": 1.0,
+                "inclination": 10.0}
+
+
+def _term(meas, fld):
+    if meas.kind == "exact":
+        w = EXACT_REL * max(abs(meas.value), _EXACT_FLOOR.get(fld, 0.0), 1e-300)
+        return (float(meas.value), w, w)
+    return meas.gauss_params()
+
+
 def _normal(cos_i, node):
     """Unit orbit normals (..., 3) in the sky frame from cos i and the node."""
     sin_i = np.sqrt(np.clip(1.0 - cos_i * cos_i, 0.0, 1.0))
@@ -118,9 +134,12 @@ class SystemModel:
             add(f"x{j}")
             add(f"y{j}")
         self.signed = [("inclination" in p.quantities) for p in s.planets]
+        #: one planet: no reference plane or dispersion; its orientation is isotropic
+        self.hier = self.np_ >= 2
         for j in range(self.np_):
             add(f"cosi{j}")
-            add(f"node{j}")
+            if self.hier or self.signed[j]:
+                add(f"node{j}")
         self.mass_planets = []
         for j, p in enumerate(s.planets):
             if any(k in p.quantities for k in ("k", "msini", "mass")):
@@ -132,9 +151,10 @@ class SystemModel:
             if per.kind != "exact" and per.sigma / per.center > PERIOD_FREE_REL:
                 add(f"P{j}")
                 self.free_periods.append(j)
-        add("logsigma")
-        add("cosI")
-        self.node_ref_free = any("ascending_node" in p.quantities for p in s.planets)
+        if self.hier:
+            add("logsigma")
+            add("cosI")
+        self.node_ref_free = self.hier and any("ascending_node" in p.quantities for p in s.planets)
         if self.node_ref_free:
             add("node_ref")
         self.star_mass_free = s.star.mass.kind != "exact"
@@ -150,10 +170,10 @@ class SystemModel:
             add("rstar")
         self.ndim = idx
         self.has_transits = any(p.transiting or "b" in p.quantities for p in s.planets)
-        self._cols = {k: [self.ix[f"{k}{j}"] for j in range(self.np_)] for k in ("x", "y", "cosi", "node")}
+        self._cols = {k: [self.ix[f"{k}{j}"] for j in range(self.np_)] for k in ("x", "y", "cosi")}
         self._terms = {}
         for fld in ("ecc", "secosw", "sesinw", "ecosw", "esinw", "mass", "msini", "k", "inclination", "b"):
-            rows = [(j, p.quantities[fld].gauss_params()) for j, p in enumerate(s.planets) if fld in p.quantities]
+            rows = [(j, _term(p.quantities[fld], fld)) for j, p in enumerate(s.planets) if fld in p.quantities]
             rows = [(j, g) for j, g in rows if g is not None]
             if rows:
                 self._terms[fld] = (np.array([j for j, _ in rows]),
@@ -186,11 +206,20 @@ class SystemModel:
         c["ecc"] = x * x + y * y
         c["omega"] = np.arctan2(y, x)
         c["cos_i"] = th[:, self._cols["cosi"]]
-        c["node"] = th[:, self._cols["node"]]
+        node = np.zeros((nw, self.np_))
+        for j in range(self.np_):
+            if f"node{j}" in self.ix:
+                node[:, j] = th[:, self.ix[f"node{j}"]]
+        c["node"] = node
         c["inc"] = np.arccos(np.clip(c["cos_i"], -1.0, 1.0))
-        c["logsigma"] = th[:, self.ix["logsigma"]]
-        c["sigma"] = np.exp(c["logsigma"])
-        c["cosI"] = th[:, self.ix["cosI"]]
+        if self.hier:
+            c["logsigma"] = th[:, self.ix["logsigma"]]
+            c["sigma"] = np.exp(c["logsigma"])
+            c["cosI"] = th[:, self.ix["cosI"]]
+        else:
+            c["logsigma"] = np.zeros(nw)
+            c["sigma"] = np.full(nw, np.nan)
+            c["cosI"] = np.zeros(nw)
         c["node_ref"] = th[:, self.ix["node_ref"]] if self.node_ref_free else np.zeros(nw)
         c["m_star"] = th[:, self.ix["mstar"]] if self.star_mass_free else np.full(nw, s.star.mass.center)
         if self.star_scale is not None:
@@ -240,7 +269,8 @@ class SystemModel:
         lp = np.zeros(nw)
         e = c["ecc"]
         ok = np.all(e < 1.0, axis=1)
-        ok &= (c["cosI"] >= 0.0) & (c["cosI"] <= 1.0)
+        if self.hier:
+            ok &= (c["cosI"] >= 0.0) & (c["cosI"] <= 1.0)
         ok &= np.all(c["mass"] < MASS_CAP, axis=1) if self.mass_planets else True
         ok &= (c["m_star"] > 0)
         if self.star_scale is not None:
@@ -248,15 +278,17 @@ class SystemModel:
         if self.free_periods:
             ok &= np.all(c["period"] > 0, axis=1)
         ok &= np.all((c["cos_i"] >= np.where(self.signed, -1.0, 0.0)) & (c["cos_i"] <= 1.0), axis=1)
-        # hierarchical orientation prior, summed over the unobservable sign of cos i
-        terms = self.orientation_terms(c)
-        signed = np.asarray(self.signed)
-        orient = np.where(signed, terms[..., 0], np.logaddexp(terms[..., 0], terms[..., 1]))
-        lp += np.sum(orient, axis=1)
-        # prior on sigma (the prior file is in degrees) with the Jacobian of log sigma
-        sig_deg = np.degrees(c["sigma"])
         with np.errstate(divide="ignore", invalid="ignore"):
-            lp += np.where(ok, self.sigma_prior.logpdf(np.where(ok, sig_deg, 1.0)), 0.0) + c["logsigma"]
+            if self.hier:
+                # hierarchical orientation prior, summed over the unobservable sign of cos i
+                terms = self.orientation_terms(c)
+                signed = np.asarray(self.signed)
+                orient = np.where(signed, terms[..., 0], np.logaddexp(terms[..., 0], terms[..., 1]))
+                lp += np.sum(orient, axis=1)
+                # prior on sigma (the prior file is in degrees) with the Jacobian of log sigma
+                sig_deg = np.degrees(c["sigma"])
+                lp += np.where(ok, self.sigma_prior.logpdf(np.where(ok, sig_deg, 1.0)), 0.0) + c["logsigma"]
+            # (one planet: isotropic orientation, flat in cos i and node -> constant)
             # eccentricity prior (flat in (x, y) is flat in e; add the prior density in e)
             lp += np.sum(self.ecc_prior.logpdf_e(np.where(e < 1.0, e, 0.5)), axis=1)
         # mass prior: flat in m; the parameter is log(m sin i) -> Jacobian dm/dparam = m

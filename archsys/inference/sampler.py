@@ -105,8 +105,11 @@ def _initial(model, system, rng, nwalkers, seed):
         else:
             ci = rng.uniform(0.0, 1.0, n_try)
             sig = np.radians(np.clip(model.sigma_prior.sample(rng, n_try), 0.1, 30.0))
-        th[:, ix["cosI"]] = np.clip(ci, 0.0, 1.0)
-        th[:, ix["logsigma"]] = np.log(sig)
+        if model.hier:
+            th[:, ix["cosI"]] = np.clip(ci, 0.0, 1.0)
+            th[:, ix["logsigma"]] = np.log(sig)
+        else:
+            sig = np.zeros(n_try)
         if model.node_ref_free:
             th[:, ix["node_ref"]] = 0.0
         sinI = np.sqrt(1.0 - ci * ci)
@@ -124,7 +127,8 @@ def _initial(model, system, rng, nwalkers, seed):
             if known[:, j].any():
                 cos_i = np.where(known[:, j], np.cos(inc[:, j]), cos_i)
             th[:, ix[f"cosi{j}"]] = cos_i if model.signed[j] else np.abs(cos_i)
-            th[:, ix[f"node{j}"]] = node
+            if f"node{j}" in ix:
+                th[:, ix[f"node{j}"]] = node
         for j in model.mass_planets:
             m = d["mass"][:, j]
             ms = d["msini"][:, j]
@@ -277,16 +281,19 @@ def _to_posterior(model, system, flat, opts, rng):
     c = model.unpack(flat)
     n = flat.shape[0]
     npl = system.n_planets
-    # draw the sign of cos i for each planet from its conditional probability
-    terms = model.orientation_terms(c)                             # (n, np, 2)
-    p_plus = 1.0 / (1.0 + np.exp(np.clip(terms[..., 1] - terms[..., 0], -700, 700)))
-    sign = np.where(rng.uniform(size=p_plus.shape) < p_plus, 1.0, -1.0)
-    sign = np.where(np.asarray(model.signed)[None, :], 1.0, sign)
-    cos_i = sign * c["cos_i"]
-    from .model import _normal
-    normals = _normal(cos_i, c["node"])                            # (n, np, 3)
-    nref = model.ref_normal(c)
-    psi = np.arccos(np.clip(np.sum(normals * nref[:, None, :], axis=-1), -1.0, 1.0))
+    cos_i = c["cos_i"]
+    psi = None
+    if model.hier:
+        # draw the sign of cos i for each planet from its conditional probability
+        terms = model.orientation_terms(c)                         # (n, np, 2)
+        p_plus = 1.0 / (1.0 + np.exp(np.clip(terms[..., 1] - terms[..., 0], -700, 700)))
+        sign = np.where(rng.uniform(size=p_plus.shape) < p_plus, 1.0, -1.0)
+        sign = np.where(np.asarray(model.signed)[None, :], 1.0, sign)
+        cos_i = sign * c["cos_i"]
+        from .model import _normal
+        normals = _normal(cos_i, c["node"])                        # (n, np, 3)
+        nref = model.ref_normal(c)
+        psi = np.arccos(np.clip(np.sum(normals * nref[:, None, :], axis=-1), -1.0, 1.0))
     # independent quantities drawn from their summaries
     period = c["period"].copy()
     for j, p in enumerate(system.planets):
@@ -316,7 +323,11 @@ def _to_posterior(model, system, flat, opts, rng):
             note["ecc"] = "posterior (summary x prior)"
         else:
             note["ecc"] = "prior only (no eccentricity data)"
-        note["inc"] = "posterior (hierarchical orientation model)"
+        has_geom = any(k in q for k in ("b", "inclination")) or p.transiting is not None
+        if model.hier:
+            note["inc"] = "posterior (hierarchical orientation model)"
+        else:
+            note["inc"] = "posterior" if has_geom else "prior only (isotropic orientation)"
         notes[p.name] = note
     from ..physics import kepler
     a = kepler.a_au(period, m_star[:, None] + np.nan_to_num(mass))
@@ -325,6 +336,8 @@ def _to_posterior(model, system, flat, opts, rng):
     draws = dict(m_star=m_star, r_star=rs if rs is not None else np.full(n, np.nan),
                  rho_star=rho if rho is not None else np.full(n, np.nan),
                  period=period, a=a, ecc=c["ecc"], omega=c["omega"], msini=msini, mass=mass,
-                 inc=np.arccos(np.clip(cos_i, -1, 1)), node=c["node"], psi=psi,
-                 sigma_mutual=c["sigma"], ref_inc=np.arccos(c["cosI"]))
+                 inc=np.arccos(np.clip(cos_i, -1, 1)),
+                 node=c["node"] if model.hier else np.full((n, npl), np.nan))
+    if model.hier:
+        draws.update(psi=psi, sigma_mutual=c["sigma"], ref_inc=np.arccos(c["cosI"]))
     return Posterior(system, draws, "mcmc", seed=opts.seed, notes=notes)

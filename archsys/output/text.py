@@ -103,10 +103,16 @@ def render_text(doc, colour=False) -> str:
             row.append(_pct(q.get("hill_stable_probability")))
             if "amd_stable_probability" in q:
                 row.append(_pct(q.get("amd_stable_probability")))
+            if "mutual_inclination_deg" in q:
+                row.append(fmt_summary(q["mutual_inclination_deg"]))
+            elif "mutual_inclination_lower_bound_deg" in q:
+                row.append("≥ " + fmt_summary(q["mutual_inclination_lower_bound_deg"]))
             rows.append(row)
         header = ["pair", "P_out/P_in", "nearest MMR (offset)", "Δ [R_H,mutual]", "P(Hill stable)"]
         if any("amd_stable_probability" in q for q in doc["pairs"]):
             header.append("P(AMD stable)")
+        if any("mutual_inclination_deg" in q or "mutual_inclination_lower_bound_deg" in q for q in doc["pairs"]):
+            header.append("mutual incl. [deg]")
         L += _table(rows, header, st)
     L += ["", st.head("Verdicts")]
     p_all = doc.get("all_pairs_hill_stable_probability")
@@ -114,6 +120,14 @@ def render_text(doc, colour=False) -> str:
         L.append(f"  Every adjacent pair Hill stable (Gladman 1993): {_verdict(p_all, st)} ({_pct(p_all)} of draws)")
     else:
         L.append("  Single planet: no pair scores.")
+    fl = doc.get("flatness")
+    if fl and "mutual_inclination_sigma_deg" in fl:
+        L.append(f"  Mutual-inclination dispersion sigma = {fmt_summary(fl['mutual_inclination_sigma_deg'])} deg; "
+                 f"largest mutual inclination {fmt_summary(fl['max_mutual_inclination_deg'])} deg")
+    elif fl:
+        L.append(st.dim("  Flatness: " + fl["basis"]))
+    if "gap_complexity" in doc:
+        L.append(f"  Gap complexity (Gilbert & Fabrycky 2020): {fmt_summary(doc['gap_complexity'])}")
     if any(p["mass_basis"].startswith("minimum") for p in doc["planets"]):
         L.append(st.dim("  Planets with only m sin i use it as their mass: their Hill spacings are upper limits."))
     for extra in doc.get("verdicts", []):

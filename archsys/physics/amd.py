@@ -95,7 +95,11 @@ def amd(m, a, e, inc, m_star):
     """
     e = _check("e", e, 0.0, 1.0)
     inc = _check("inc", inc)
-    m_star = np.asarray(m_star, dtype=float)[..., None]
+    m_star = np.asarray(m_star, dtype=float)
+    if m_star.ndim > 0 and m_star.ndim >= max(np.ndim(m), np.ndim(a), e.ndim, inc.ndim):
+        raise ValueError(f"m_star must have the batch shape (...) without the planet axis; "
+                         f"got shape {m_star.shape}")
+    m_star = m_star[..., None]
     lam = lambda_circ(m, a, m_star)
     sqrt_1me2 = np.sqrt(1.0 - e**2)
     return lam * (_one_minus_sqrt_one_minus(e**2) + 2.0 * sqrt_1me2 * np.sin(0.5 * inc) ** 2)

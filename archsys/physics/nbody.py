@@ -68,7 +68,8 @@ class MegnoResult:
     chaotic : ndarray of bool
         ``megno > MEGNO_CHAOS``, non-finite MEGNO, an encounter or an escape.
     encounter : ndarray of bool
-        Two planets came closer than the encounter distance.
+        Two planets came closer than the encounter distance (or a planet
+        reached the star); see ``encounter_factor`` of :func:`megno_draws`.
     escape : ndarray of bool
         A body went farther than ``ESCAPE_FACTOR`` times the largest a.
     t_stop_orbits : ndarray of float
@@ -144,8 +145,13 @@ def megno_draws(m_star, m, a, e, inc, omega, Omega, M0, n_orbits=1000, jobs=1,
     steps_per_orbit : int
         WHFast time step is ``P_inner / steps_per_orbit`` (common practice: 20).
     encounter_factor : float
-        Close encounter when two planets are closer than this times the
-        smallest mutual Hill radius of adjacent pairs (``sim.exit_min_distance``).
+        Close encounter when two planets pass closer than this times the mean
+        of their single-planet Hill radii, ``a (m / 3 M_star)^(1/3)`` (default
+        1: about 0.8 mutual Hill radii for equal masses), or a planet comes
+        within ``encounter_factor * r_H / 2`` of the star's centre.  Detected with rebound's
+        ``"line"`` collision search (planet radius ``encounter_factor * r_H / 2``,
+        ``collision_resolve = "halt"``), which checks the straight path of each
+        step, so fast eccentric passes between two steps are not missed.
     megno_threshold : float
         Draws with MEGNO above it are chaotic; default :data:`MEGNO_CHAOS`
         (common practice: <Y> -> 2 for quasi-periodic orbits).

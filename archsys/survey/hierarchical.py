@@ -53,7 +53,10 @@ class HMBData:
     """Samples (N, K) and interim log-prior values (N, K), clipped into the support.
 
     Objects with different numbers of samples are brought to the smallest
-    ``K`` by even, deterministic thinning.
+    ``K`` by even, deterministic thinning.  Both models have a log density
+    that is linear in fixed features of the sample, ``log f = base(x) +
+    sum_j c_j(theta) phi_j(x) + d(theta)``, so all walkers are evaluated with
+    one matrix product and one ``exp`` over the samples.
     """
 
     def __init__(self, samples, log_p0, upper):
@@ -61,42 +64,51 @@ class HMBData:
         if k < 2:
             raise ValueError("every object needs at least 2 posterior samples")
         take = [np.linspace(0, len(s) - 1, k).round().astype(int) for s in samples]
-        self.x = np.stack([np.asarray(s, dtype=float)[t] for s, t in zip(samples, take)])  # (N, K)
-        self.log_p0 = np.stack([np.asarray(l, dtype=float)[t] for l, t in zip(log_p0, take)])  # (N, K)
-        self.upper = upper
-        self.x = np.clip(self.x, _E_EPS, upper - _E_EPS * upper)
-        self.log_x = np.log(self.x)
-        self.log_1mx = np.log1p(-self.x / upper)
-        self.x2 = self.x ** 2
+        x = np.stack([np.asarray(s, dtype=float)[t] for s, t in zip(samples, take)])   # (N, K)
+        lp0 = np.stack([np.asarray(l, dtype=float)[t] for l, t in zip(log_p0, take)])  # (N, K)
+        if not np.all(np.isfinite(lp0)):
+            raise ValueError("the interim prior must be positive at every sample")
+        self.upper = float(upper)
+        self.x = np.clip(x, _E_EPS * upper, upper * (1.0 - _E_EPS))
         self.n, self.k = self.x.shape
+        # a per-object shift keeps exp() in range; it cancels in the likelihood ratio
+        self.shift = (-lp0).max(axis=1, keepdims=True)                                  # (N, 1)
+        self.neg_lp0 = (-lp0 - self.shift).ravel()                                      # (N*K,)
+        self.log_u = np.log(self.x / upper).ravel()
+        self.log_1mu = np.log1p(-self.x / upper).ravel()
+        self.log_x = np.log(self.x).ravel()
+        self.x2 = (self.x ** 2).ravel()
 
-    def log_ratio_beta(self, a, b):
-        """log f/p0 for Beta on [0, upper); a, b shaped (W,); returns (W, N, K)."""
-        a = np.asarray(a, dtype=float)[:, None, None]
-        b = np.asarray(b, dtype=float)[:, None, None]
-        # a Beta on [0, upper): the Beta density of x / upper, divided by upper
-        logf = ((a - 1.0) * (self.log_x - math.log(self.upper)) + (b - 1.0) * self.log_1mx
-                - special.betaln(a, b) - math.log(self.upper))
-        return logf - self.log_p0
-
-    def log_ratio_rayleigh(self, s):
-        """log f/p0 for a Rayleigh(s) truncated to [0, upper); s shaped (W,)."""
-        s = np.asarray(s, dtype=float)[:, None, None]
-        log_norm = np.log(-np.expm1(-self.upper ** 2 / (2.0 * s ** 2)))   # mass inside [0, upper)
-        logf = self.log_x - 2.0 * np.log(s) - self.x2 / (2.0 * s ** 2) - log_norm
-        return logf - self.log_p0
-
-    def log_like(self, log_ratio):
-        """Sum over objects of log (1/K) sum_k r_nk; log_ratio (W, N, K) -> (W,)."""
-        per = special.logsumexp(log_ratio, axis=-1) - math.log(self.k)   # (W, N)
+    def _log_like(self, coef, feats, const, base):
+        """sum_n log (1/K) sum_k exp(base + coef . feats + const) for each walker (W,)."""
+        expo = coef @ feats + (base + self.neg_lp0)[None, :] + const[:, None]     # (W, N*K)
+        r = np.exp(np.minimum(expo, 700.0)).reshape(len(coef), self.n, self.k)  # (W, N, K)
+        with np.errstate(divide="ignore"):
+            per = np.log(r.sum(axis=-1)) - math.log(self.k) + self.shift[:, 0]   # (W, N)
         out = per.sum(axis=-1)
-        return np.where(np.isfinite(out), out, -np.inf)
+        return np.where(np.isfinite(out), out, -np.inf), r
 
-    def ess(self, log_ratio):
-        """Importance-sampling effective sample size per object, (N,), for one theta."""
-        lr = log_ratio[0]
-        w = np.exp(lr - lr.max(axis=-1, keepdims=True))
-        return w.sum(axis=-1) ** 2 / (w ** 2).sum(axis=-1)
+    def beta(self, a, b):
+        """(log L, ratios) of Beta(a, b) on [0, upper) for walkers a, b shaped (W,)."""
+        a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
+        coef = np.stack([a - 1.0, b - 1.0], axis=1)                               # (W, 2)
+        feats = np.stack([self.log_u, self.log_1mu])                              # (2, N*K)
+        const = -special.betaln(a, b) - math.log(self.upper)
+        return self._log_like(coef, feats, const, 0.0)
+
+    def rayleigh(self, s):
+        """(log L, ratios) of a Rayleigh(s) truncated to [0, upper); s shaped (W,)."""
+        s = np.asarray(s, dtype=float)
+        log_mass = np.log(-np.expm1(-self.upper ** 2 / (2.0 * s ** 2)))         # mass inside [0, upper)
+        coef = (-0.5 / s ** 2)[:, None]                                           # (W, 1)
+        const = -2.0 * np.log(s) - log_mass
+        return self._log_like(coef, self.x2[None, :], const, self.log_x)
+
+    @staticmethod
+    def ess(ratios):
+        """Importance-sampling effective sample size per object, (N,), first walker."""
+        w = ratios[0]
+        return w.sum(axis=-1) ** 2 / np.maximum((w ** 2).sum(axis=-1), 1e-300)
 
 
 def _run_emcee(log_prob, start, seed, n_walkers, n_steps, n_burn):
@@ -126,7 +138,7 @@ def _fit(data, kind, seed, n_walkers, n_steps, n_burn, sigma_range=None):
             out = np.full(len(theta), -np.inf)
             if ok.any():
                 a, b = np.exp(theta[ok, 0]), np.exp(theta[ok, 1])
-                out[ok] = data.log_like(data.log_ratio_beta(a, b))
+                out[ok] = data.beta(a, b)[0]
             return out
         start0 = np.array([0.0, math.log(3.0)])
     else:
@@ -137,21 +149,23 @@ def _fit(data, kind, seed, n_walkers, n_steps, n_burn, sigma_range=None):
             ok = (theta[:, 0] > lo_s) & (theta[:, 0] < hi_s)
             out = np.full(len(theta), -np.inf)
             if ok.any():
-                out[ok] = data.log_like(data.log_ratio_rayleigh(np.exp(theta[ok, 0])))
+                out[ok] = data.rayleigh(np.exp(theta[ok, 0]))[0]
             return out
         med = float(np.median(data.x))
         start0 = np.array([math.log(min(max(med / math.sqrt(2 * math.log(2)), sigma_range[0] * 2),
                                         sigma_range[1] / 2))])
     # start the walkers at the maximum of L (deterministic Nelder-Mead)
-    res = optimize.minimize(lambda t: -log_prob(t)[0] if np.isfinite(log_prob(t)[0]) else 1e300,
-                            start0, method="Nelder-Mead", options={"xatol": 1e-4, "fatol": 1e-6})
+    def nll(t):
+        v = log_prob(t)[0]
+        return -v if np.isfinite(v) else 1e300
+
+    res = optimize.minimize(nll, start0, method="Nelder-Mead", options={"xatol": 1e-3, "fatol": 1e-3})
     start = res.x if np.isfinite(log_prob(res.x)[0]) else start0
     chain, tau, acc = _run_emcee(log_prob, start, seed, n_walkers, n_steps, n_burn)
     params = np.exp(chain)
     med = np.median(params, axis=0)
-    lr = (data.log_ratio_beta([med[0]], [med[1]]) if kind == "beta"
-          else data.log_ratio_rayleigh([med[0]]))
-    ess = data.ess(lr)
+    _, ratios = data.beta([med[0]], [med[1]]) if kind == "beta" else data.rayleigh([med[0]])
+    ess = data.ess(ratios)
     diag = {"walkers": n_walkers, "steps": n_steps, "burn_in": n_burn,
             "acceptance_fraction": acc, "autocorrelation_time": tau,
             "ess_min": float(ess.min()), "ess_median": float(np.median(ess)),
@@ -159,7 +173,7 @@ def _fit(data, kind, seed, n_walkers, n_steps, n_burn, sigma_range=None):
     return params, diag
 
 
-def fit_beta(data: HMBData, seed=0, n_walkers=16, n_steps=1500, n_burn=500):
+def fit_beta(data: HMBData, seed=0, n_walkers=16, n_steps=1000, n_burn=300):
     """Beta(alpha, beta) population fit: {"alpha", "beta"} intervals and diagnostics."""
     params, diag = _fit(data, "beta", seed, n_walkers, n_steps, n_burn)
     return {"alpha": interval(params[:, 0]), "beta": interval(params[:, 1]),
@@ -167,7 +181,7 @@ def fit_beta(data: HMBData, seed=0, n_walkers=16, n_steps=1500, n_burn=500):
             "diagnostics": diag}
 
 
-def fit_rayleigh(data: HMBData, seed=0, n_walkers=12, n_steps=1500, n_burn=500, sigma_range=None):
+def fit_rayleigh(data: HMBData, seed=0, n_walkers=12, n_steps=1000, n_burn=300, sigma_range=None):
     """Rayleigh(sigma) population fit, truncated to [0, upper)."""
     sr = sigma_range or (SIGMA_RANGE_ECC if data.upper <= 1.0 else SIGMA_RANGE_PSI)
     params, diag = _fit(data, "rayleigh", seed, n_walkers, n_steps, n_burn, sigma_range=sr)
@@ -176,7 +190,7 @@ def fit_rayleigh(data: HMBData, seed=0, n_walkers=12, n_steps=1500, n_burn=500, 
             "diagnostics": diag}
 
 
-def eccentricity_population(samples, log_p0, seed=0, interim_prior="", n_steps=1500, n_burn=500,
+def eccentricity_population(samples, log_p0, seed=0, interim_prior="", n_steps=1000, n_burn=300,
                             min_objects=5):
     """Beta and Rayleigh eccentricity populations from per-planet samples.
 
@@ -210,7 +224,7 @@ def eccentricity_population(samples, log_p0, seed=0, interim_prior="", n_steps=1
     return out
 
 
-def tilt_population(samples, log_p0, seed=0, interim_prior="", n_steps=1500, n_burn=500,
+def tilt_population(samples, log_p0, seed=0, interim_prior="", n_steps=1000, n_burn=300,
                     min_objects=5):
     """Rayleigh(sigma) dispersion of planet tilts psi [rad] about their system planes.
 

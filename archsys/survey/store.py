@@ -258,3 +258,71 @@ def csv_text(header, rows):
 def write_csv(path, header, rows):
     """Write a CSV file atomically (never a partial file)."""
     return atomic_write(path, csv_text(header, rows))
+
+
+# --------------------------------------------------------------------------
+# Table rows from a report document
+# --------------------------------------------------------------------------
+
+_DOC_SKIP = ("schema_version", "system", "star", "planets", "pairs", "sampler", "disclaimer", "provenance")
+SUMMARY_KEYS = ("median", "lo", "hi")
+
+
+def flatten(prefix, value, out, depth=0):
+    """Flatten a document value into CSV columns: summaries become _median/_lo/_hi."""
+    if value is None or isinstance(value, (bool, int, float, str)):
+        out[prefix] = value
+    elif isinstance(value, dict):
+        if "median" in value:
+            for k in SUMMARY_KEYS:
+                out[f"{prefix}_{k}"] = value.get(k)
+        elif depth < 2:
+            for k, v in value.items():
+                flatten(f"{prefix}_{k}", v, out, depth + 1)
+    # lists are left to the JSON document
+    return out
+
+
+def system_row(doc, extra=None):
+    """One row of systems.csv from a report document (plus survey-side extras)."""
+    planets = doc.get("planets", [])
+    row = {"system": doc["system"], "n_planets": len(planets), "n_pairs": len(doc.get("pairs", [])),
+           "n_transiting": sum(1 for p in planets if p.get("transiting") is True),
+           "sampler": (doc.get("sampler") or {}).get("method")}
+    for k, v in (doc.get("star") or {}).items():
+        flatten(f"star_{k}", v, row)
+    for k, v in doc.items():
+        if k not in _DOC_SKIP:
+            flatten(k, v, row)
+    for k, v in (extra or {}).items():
+        flatten(k, v, row)
+    return row
+
+
+def planet_row(system, entry):
+    row = {"system": system, "planet": entry.get("name")}
+    for k, v in entry.items():
+        if k != "name":
+            flatten(k, v, row)
+    return row
+
+
+def pair_row(system, entry, extra=None):
+    row = {"system": system, "inner": entry.get("inner"), "outer": entry.get("outer")}
+    for k, v in entry.items():
+        if k not in ("inner", "outer"):
+            flatten(k, v, row)
+    for k, v in (extra or {}).items():
+        if k not in entry:
+            flatten(k, v, row)
+    return row
+
+
+def header_of(rows, first=()):
+    """Column order: ``first`` (those present), then every other key in first-seen order."""
+    seen = {}
+    for r in rows:
+        for k in r:
+            seen.setdefault(k, None)
+    head = [k for k in first if k in seen]
+    return head + [k for k in seen if k not in head]
