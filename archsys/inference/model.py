@@ -34,6 +34,22 @@ per system
         [0, 1] (isotropic orientation; the mirror image is equivalent); its
         node on the sky is the zero of Omega (a free ``Omega_ref`` is added
         only when some planet has an astrometric node).
+
+cos i parametrisation (COS_I_PARAMETRISATION)
+    Planets with transit data use |cos i| (folded, see above); planets with an
+    astrometric inclination use a signed cos i; planets without orientation
+    data in a multi-planet system use ``z_j`` with
+    ``cos i_j = tanh(atanh(cos I_ref) + sigma z_j)`` (non-centred: z_j is of
+    order one whatever sigma is; Jacobian sigma (1 - cos^2 i) included), which
+    avoids the funnel between sigma and a prior-dominated orientation.
+
+Node scaling (NODE_SCALING)
+    With several planets the node parameter is ``w_j`` with
+    ``Omega_j = Omega_ref + 2 arctan(sigma w_j)`` (a bijection onto
+    (-pi, pi) for every sigma; its Jacobian is in the log-posterior).  For
+    nearly edge-on systems the node offsets are of order sigma, so w_j is of
+    order one whatever sigma is: this removes the funnel between sigma and the
+    nodes that a direct node parameter has.
     ``M*``, ``R*`` (or ``rho*``) when uncertain; their summaries are priors.
 
 Orbit normals in the sky frame (z towards the observer):
@@ -130,12 +146,30 @@ class SystemModel:
             self.names.append(name)
             idx += 1
 
-        for j in range(self.np_):
+        #: planets whose eccentricity is given as an exact number are held fixed
+        self.fixed_ecc = {}
+        for j, p in enumerate(s.planets):
+            q = p.quantities
+            if "ecc" in q and q["ecc"].kind == "exact" and ("omega" not in q or q["omega"].kind == "exact"):
+                om = math.radians(q["omega"].value) if "omega" in q else math.pi / 2
+                self.fixed_ecc[j] = (q["ecc"].value, om)
+        self.free_ecc = [j for j in range(self.np_) if j not in self.fixed_ecc]
+        for j in self.free_ecc:
             add(f"x{j}")
             add(f"y{j}")
-        self.signed = [("inclination" in p.quantities) for p in s.planets]
         #: one planet: no reference plane or dispersion; its orientation is isotropic
         self.hier = self.np_ >= 2
+        #: how cos i is parametrised per planet (see COS_I_PARAMETRISATION)
+        self.cos_kind = []
+        for p in s.planets:
+            if "inclination" in p.quantities:
+                self.cos_kind.append("signed")
+            elif ("b" in p.quantities or p.transiting) or not self.hier:
+                self.cos_kind.append("folded")
+            else:
+                self.cos_kind.append("tanh")
+        self.signed = [k != "folded" for k in self.cos_kind]
+        self.tanh_planets = [j for j, k in enumerate(self.cos_kind) if k == "tanh"]
         for j in range(self.np_):
             add(f"cosi{j}")
             if self.hier or self.signed[j]:
@@ -170,10 +204,13 @@ class SystemModel:
             add("rstar")
         self.ndim = idx
         self.has_transits = any(p.transiting or "b" in p.quantities for p in s.planets)
-        self._cols = {k: [self.ix[f"{k}{j}"] for j in range(self.np_)] for k in ("x", "y", "cosi")}
+        self._cols = {"cosi": [self.ix[f"cosi{j}"] for j in range(self.np_)],
+                      "x": [self.ix[f"x{j}"] for j in self.free_ecc],
+                      "y": [self.ix[f"y{j}"] for j in self.free_ecc]}
         self._terms = {}
         for fld in ("ecc", "secosw", "sesinw", "ecosw", "esinw", "mass", "msini", "k", "inclination", "b"):
-            rows = [(j, _term(p.quantities[fld], fld)) for j, p in enumerate(s.planets) if fld in p.quantities]
+            rows = [(j, _term(p.quantities[fld], fld)) for j, p in enumerate(s.planets)
+                    if fld in p.quantities and not (fld == "ecc" and j in self.fixed_ecc)]
             rows = [(j, g) for j, g in rows if g is not None]
             if rows:
                 self._terms[fld] = (np.array([j for j, _ in rows]),
@@ -182,6 +219,8 @@ class SystemModel:
         for fld, key in (("omega", "omega"), ("ascending_node", "node")):
             for j, p in enumerate(s.planets):
                 q = p.quantities.get(fld)
+                if fld == "omega" and j in self.fixed_ecc:
+                    continue
                 if q is not None and q.kind != "exact" and q.sigma > 0:
                     self._angles.append((key, j, math.radians(q.value), math.radians(q.sigma)))
         # transit geometry: which planets must (not) transit
@@ -201,26 +240,44 @@ class SystemModel:
         nw = th.shape[0]
         s = self.system
         c = {}
-        x, y = th[:, self._cols["x"]], th[:, self._cols["y"]]
+        x = np.empty((nw, self.np_))
+        y = np.empty((nw, self.np_))
+        x[:, self.free_ecc] = th[:, self._cols["x"]]
+        y[:, self.free_ecc] = th[:, self._cols["y"]]
+        for j, (e0, w0) in self.fixed_ecc.items():
+            x[:, j] = math.sqrt(e0) * math.cos(w0)
+            y[:, j] = math.sqrt(e0) * math.sin(w0)
         c["x"], c["y"] = x, y
         c["ecc"] = x * x + y * y
         c["omega"] = np.arctan2(y, x)
-        c["cos_i"] = th[:, self._cols["cosi"]]
+        c["cos_i"] = th[:, self._cols["cosi"]].copy()
         node = np.zeros((nw, self.np_))
         for j in range(self.np_):
             if f"node{j}" in self.ix:
                 node[:, j] = th[:, self.ix[f"node{j}"]]
-        c["node"] = node
         c["inc"] = np.arccos(np.clip(c["cos_i"], -1.0, 1.0))
+        c["node_ref"] = th[:, self.ix["node_ref"]] if self.node_ref_free else np.zeros(nw)
         if self.hier:
             c["logsigma"] = th[:, self.ix["logsigma"]]
             c["sigma"] = np.exp(c["logsigma"])
             c["cosI"] = th[:, self.ix["cosI"]]
+            if self.tanh_planets:
+                t = self.tanh_planets
+                A = np.arctanh(np.clip(c["cosI"], 0.0, 1.0 - 1e-12))[:, None]
+                ci = np.tanh(A + c["sigma"][:, None] * th[:, [self._cols["cosi"][j] for j in t]])
+                c["cos_i"][:, t] = ci
+                c["log_jac_cos"] = np.sum(np.log(c["sigma"][:, None] * np.maximum(1.0 - ci * ci, 1e-300)), axis=1)
+                c["inc"] = np.arccos(np.clip(c["cos_i"], -1.0, 1.0))
+            # node parameters are scaled by sigma (see NODE_SCALING); keep the Jacobian
+            sw = c["sigma"][:, None] * node
+            c["node"] = c["node_ref"][:, None] + 2.0 * np.arctan(sw)
+            c["log_jac_node"] = np.sum(np.log(2.0 * c["sigma"][:, None] / (1.0 + sw * sw)), axis=1)
+            c["node_w"] = node
         else:
+            c["node"] = node
             c["logsigma"] = np.zeros(nw)
             c["sigma"] = np.full(nw, np.nan)
             c["cosI"] = np.zeros(nw)
-        c["node_ref"] = th[:, self.ix["node_ref"]] if self.node_ref_free else np.zeros(nw)
         c["m_star"] = th[:, self.ix["mstar"]] if self.star_mass_free else np.full(nw, s.star.mass.center)
         if self.star_scale is not None:
             meas = getattr(s.star, self.star_scale)
@@ -277,20 +334,24 @@ class SystemModel:
             ok &= c["star_scale"] > 0
         if self.free_periods:
             ok &= np.all(c["period"] > 0, axis=1)
-        ok &= np.all((c["cos_i"] >= np.where(self.signed, -1.0, 0.0)) & (c["cos_i"] <= 1.0), axis=1)
+        raw_c = theta[:, self._cols["cosi"]]
+        folded = ~np.asarray(self.signed)
+        ok &= np.all(np.where(folded, (raw_c >= 0.0) & (raw_c <= 1.0), True), axis=1)
+        ok &= np.all(np.abs(c["cos_i"]) <= 1.0, axis=1)
         with np.errstate(divide="ignore", invalid="ignore"):
             if self.hier:
                 # hierarchical orientation prior, summed over the unobservable sign of cos i
                 terms = self.orientation_terms(c)
                 signed = np.asarray(self.signed)
                 orient = np.where(signed, terms[..., 0], np.logaddexp(terms[..., 0], terms[..., 1]))
-                lp += np.sum(orient, axis=1)
+                lp += np.sum(orient, axis=1) + c["log_jac_node"] + c.get("log_jac_cos", 0.0)
                 # prior on sigma (the prior file is in degrees) with the Jacobian of log sigma
                 sig_deg = np.degrees(c["sigma"])
                 lp += np.where(ok, self.sigma_prior.logpdf(np.where(ok, sig_deg, 1.0)), 0.0) + c["logsigma"]
             # (one planet: isotropic orientation, flat in cos i and node -> constant)
             # eccentricity prior (flat in (x, y) is flat in e; add the prior density in e)
-            lp += np.sum(self.ecc_prior.logpdf_e(np.where(e < 1.0, e, 0.5)), axis=1)
+            ef = e[:, self.free_ecc]
+            lp += np.sum(self.ecc_prior.logpdf_e(np.where(ef < 1.0, ef, 0.5)), axis=1)
         # mass prior: flat in m; the parameter is log(m sin i) -> Jacobian dm/dparam = m
         for j in self.mass_planets:
             with np.errstate(divide="ignore"):

@@ -91,7 +91,7 @@ def _initial(model, system, rng, nwalkers, seed):
             if not any(k in p.quantities for k in ("ecc", "secosw", "ecosw")):
                 e[:, j] = np.clip(model.ecc_prior.sample(rng, n_try), 0.0, 0.3)
         w = d["omega"]
-        for j in range(model.np_):
+        for j in model.free_ecc:
             th[:, ix[f"x{j}"]] = np.sqrt(e[:, j]) * np.cos(w[:, j])
             th[:, ix[f"y{j}"]] = np.sqrt(e[:, j]) * np.sin(w[:, j])
         # orientation: reference plane and dispersion, then normals from the hierarchy;
@@ -126,9 +126,14 @@ def _initial(model, system, rng, nwalkers, seed):
             node = np.arctan2(nx, -ny)
             if known[:, j].any():
                 cos_i = np.where(known[:, j], np.cos(inc[:, j]), cos_i)
-            th[:, ix[f"cosi{j}"]] = cos_i if model.signed[j] else np.abs(cos_i)
+            if model.cos_kind[j] == "tanh":
+                A = np.arctanh(np.clip(ci, 0.0, 1.0 - 1e-12))
+                th[:, ix[f"cosi{j}"]] = (np.arctanh(np.clip(cos_i, -1 + 1e-12, 1 - 1e-12)) - A) / sig
+            else:
+                th[:, ix[f"cosi{j}"]] = cos_i if model.signed[j] else np.abs(cos_i)
             if f"node{j}" in ix:
-                th[:, ix[f"node{j}"]] = node
+                # invert Omega = Omega_ref + 2 arctan(sigma w) for the hierarchical model
+                th[:, ix[f"node{j}"]] = np.tan(np.clip(node, -3.1, 3.1) / 2.0) / sig if model.hier else node
         for j in model.mass_planets:
             m = d["mass"][:, j]
             ms = d["msini"][:, j]
@@ -195,7 +200,7 @@ def sample_system(system, opts) -> Posterior:
         raise InputError(f"{system.source}: no parameter set satisfies the joint constraints "
                          "(transits, non-transits, non-crossing orbits"
                          + (", stability" if opts.require_stable else "") + "); check the inputs")
-    moves = [(emcee.moves.DEMove(), 0.8), (emcee.moves.DESnookerMove(), 0.2)]
+    moves = [(emcee.moves.DEMove(), 0.8), (emcee.moves.StretchMove(), 0.2)]
     sampler = emcee.EnsembleSampler(nwalkers, model.ndim, model.log_prob, vectorize=True, moves=moves)
     # emcee draws from numpy's legacy global state through its own RandomState; seed it explicitly
     sampler._random = np.random.RandomState(int(rng.integers(2**31)))
@@ -235,7 +240,7 @@ def sample_system(system, opts) -> Posterior:
         flat = flat[np.linspace(0, len(flat) - 1, opts.n_draws).round().astype(int)]
     post = _to_posterior(model, system, flat, opts, rng)
     post.sampler = {
-        "method": "MCMC (emcee ensemble sampler, DE + snooker moves)",
+        "method": "MCMC (emcee ensemble sampler, differential-evolution + stretch moves)",
         "why": _why(system, opts),
         "walkers": nwalkers,
         "steps": steps,
@@ -319,7 +324,9 @@ def _to_posterior(model, system, flat, opts, rng):
             r = q["radius"].sample(rng, n)
             mass[:, j] = mass_from_radius_mearth(r) * 10 ** (SCATTER_DEX * rng.standard_normal(n)) * MEARTH_MSUN
             note["mass"] = "from radius (mass-radius relation)"
-        if any(k in q for k in ("ecc", "secosw", "ecosw")):
+        if j in model.fixed_ecc:
+            note["ecc"] = "fixed (exact value given)"
+        elif any(k in q for k in ("ecc", "secosw", "ecosw")):
             note["ecc"] = "posterior (summary x prior)"
         else:
             note["ecc"] = "prior only (no eccentricity data)"

@@ -52,11 +52,21 @@ def _is_number(x):
     return isinstance(x, (int, float)) and not isinstance(x, bool)
 
 
+def _is_finite(x):
+    """math.isfinite that also copes with TOML integers beyond the float range."""
+    try:
+        return math.isfinite(x)
+    except OverflowError:
+        return False
+
+
 def _convert(x, unit_str, fld: Field):
     """Convert number x from unit_str to the field's canonical unit."""
     if unit_str is None or unit_str == fld.unit:
         return float(x)
     src = u.Unit(unit_str)
+    if not isinstance(src, u.UnitBase):  # logarithmic units such as dex(m/s) are not linear
+        raise u.UnitsError(f"'{unit_str}' is not a linear unit")
     dst = u.Unit(fld.unit) if fld.unit else u.dimensionless_unscaled
     return float((x * src).to_value(dst))
 
@@ -83,7 +93,7 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
             return None
         try:
             _convert(1.0, unit_str, fld)
-        except (ValueError, u.UnitsError, TypeError):
+        except (ValueError, u.UnitsError, TypeError, ArithmeticError):
             want = fld.unit or "a dimensionless unit"
             problems.add(loc, f"unit '{unit_str}' does not convert to {want}")
             return None
@@ -91,8 +101,8 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
         if not _is_number(v):
             problems.add(loc, f"'{k}' must be a number; got {v!r:.40}")
             return None
-        if not math.isfinite(v):
-            problems.add(loc, f"'{k}' must be finite; got {v}")
+        if not _is_finite(v):
+            problems.add(loc, f"'{k}' must be finite; got {v if isinstance(v, float) else 'an integer beyond the float range'}")
             return None
     has_val = "value" in spec
     lims = [k for k in ("upper", "lower") if k in spec]
@@ -147,12 +157,18 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
             kind = "exact"
         if kind != "exact" and minus == 0 and plus == 0:
             kind = "exact"
+        if not all(math.isfinite(x) for x in (value, minus, plus)):
+            problems.add(loc, f"value or error overflows when converted from '{unit_str}' to {fld.unit}")
+            return None
         if not _in_support(value, fld, problems, loc, "value"):
             return None
         return Measurement(kind, value=value, minus=minus, plus=plus,
                            support=fld.support, unit=fld.unit)
     kind = lims[0]
     limit = conv(spec[kind])
+    if not math.isfinite(limit):
+        problems.add(loc, f"limit overflows when converted from '{unit_str}' to {fld.unit}")
+        return None
     if not _in_support(limit, fld, problems, loc, kind):
         return None
     if kind == "upper" and limit <= lo and math.isfinite(lo):
@@ -211,6 +227,9 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
                 sq[k] = m
         if "mass" not in star_raw:
             P.add("star", "missing required field 'mass' (solar masses)")
+        sname = star_raw.get("name")
+        if sname is not None and not isinstance(sname, str):
+            P.add("star", f"field 'name' must be a string; got {sname!r:.40}")
         if "mass" in sq:
             star = Star(mass=sq["mass"], radius=sq.get("radius"), density=sq.get("density"),
                         name=star_raw.get("name"))
@@ -223,6 +242,8 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
     elif not isinstance(praw, list):
         P.add("", "'planet' must be an array of tables [[planet]]")
         praw = []
+    elif not praw:
+        P.add("", "no planets: add at least one [[planet]] table")
     if len(praw) > MAX_PLANETS:
         P.add("", f"{len(praw)} planets in one system; archsys accepts at most {MAX_PLANETS}")
         P.raise_if_any()
@@ -312,7 +333,7 @@ def read_system(path) -> System:
     if not blob.strip():
         raise InputError(f"{src}: file is empty")
     try:
-        text = blob.decode("utf-8")
+        text = blob.decode("utf-8-sig")  # tolerate a UTF-8 byte-order mark
     except UnicodeDecodeError as exc:
         raise InputError(f"{src}: not UTF-8 text (byte {exc.start}); save the file as UTF-8") from None
     if "\x00" in text:

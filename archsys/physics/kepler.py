@@ -63,13 +63,19 @@ def mass_from_k_msun(period_day_, k_ms, m_star_msun, ecc=0.0, sin_i=1.0, n_iter=
     M = np.asarray(m_star_msun, dtype=float)
     s3 = np.asarray(sin_i, dtype=float) ** 3
     f, M, s3 = np.broadcast_arrays(f, M, s3)
-    x = np.cbrt(f * M * M / s3)  # m << M* solution as starting point
+    # Start above the root, where g is increasing and convex, so that Newton
+    # descends monotonically onto the one positive root.  The root x obeys
+    # x <= cbrt(4 f M*^2 / sin^3 i) if x <= M*, and x <= 4 f / sin^3 i if
+    # x >= M*, since (M* + x)^2 <= 4 max(M*, x)^2.  (Starting from the
+    # m << M* solution instead diverges to a negative root once f ~ M*.)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        x = np.maximum(np.cbrt(4.0 * f * M * M / s3), 4.0 * f / s3)
     for _ in range(n_iter):
         g = s3 * x**3 - f * (M + x) ** 2
         dg = 3.0 * s3 * x * x - 2.0 * f * (M + x)
         step = g / dg
         x = x - step
-        if np.all(np.abs(step) <= 1e-15 * np.abs(x)):
+        if np.all(~(np.abs(step) > 1e-15 * np.abs(x))):   # converged (NaN rows stop too)
             break
     return x
 

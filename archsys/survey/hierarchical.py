@@ -72,19 +72,26 @@ class HMBData:
         self.x = np.clip(x, _E_EPS * upper, upper * (1.0 - _E_EPS))
         self.n, self.k = self.x.shape
         # a per-object shift keeps exp() in range; it cancels in the likelihood ratio
-        self.shift = (-lp0).max(axis=1, keepdims=True)                                  # (N, 1)
-        self.neg_lp0 = (-lp0 - self.shift).ravel()                                      # (N*K,)
-        self.log_u = np.log(self.x / upper).ravel()
-        self.log_1mu = np.log1p(-self.x / upper).ravel()
-        self.log_x = np.log(self.x).ravel()
-        self.x2 = (self.x ** 2).ravel()
+        self.shift = (-lp0).max(axis=1)                                                # (N,)
+        neg_lp0 = (-lp0 - self.shift[:, None]).ravel()                                # (N*K,)
+        # features in float32: the sums need ~1e-7 relative precision, not 1e-16
+        f32 = np.float32
+        self._beta_feats = np.stack([np.log(self.x / upper).ravel(),
+                                     np.log1p(-self.x / upper).ravel()]).astype(f32)   # (2, N*K)
+        self._beta_base = neg_lp0.astype(f32)
+        self._ray_feats = (self.x ** 2).ravel()[None, :].astype(f32)                  # (1, N*K)
+        self._ray_base = (np.log(self.x).ravel() + neg_lp0).astype(f32)
 
     def _log_like(self, coef, feats, const, base):
         """sum_n log (1/K) sum_k exp(base + coef . feats + const) for each walker (W,)."""
-        expo = coef @ feats + (base + self.neg_lp0)[None, :] + const[:, None]     # (W, N*K)
-        r = np.exp(np.minimum(expo, 700.0)).reshape(len(coef), self.n, self.k)  # (W, N, K)
+        expo = coef.astype(np.float32) @ feats                                    # (W, N*K)
+        expo += base[None, :]
+        expo += const.astype(np.float32)[:, None]
+        np.minimum(expo, 80.0, out=expo)                                          # exp(80) fits float32
+        np.exp(expo, out=expo)
+        r = expo.reshape(len(coef), self.n, self.k)                               # (W, N, K)
         with np.errstate(divide="ignore"):
-            per = np.log(r.sum(axis=-1)) - math.log(self.k) + self.shift[:, 0]   # (W, N)
+            per = np.log(r.sum(axis=-1, dtype=np.float64)) - math.log(self.k) + self.shift  # (W, N)
         out = per.sum(axis=-1)
         return np.where(np.isfinite(out), out, -np.inf), r
 
@@ -92,9 +99,8 @@ class HMBData:
         """(log L, ratios) of Beta(a, b) on [0, upper) for walkers a, b shaped (W,)."""
         a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
         coef = np.stack([a - 1.0, b - 1.0], axis=1)                               # (W, 2)
-        feats = np.stack([self.log_u, self.log_1mu])                              # (2, N*K)
         const = -special.betaln(a, b) - math.log(self.upper)
-        return self._log_like(coef, feats, const, 0.0)
+        return self._log_like(coef, self._beta_feats, const, self._beta_base)
 
     def rayleigh(self, s):
         """(log L, ratios) of a Rayleigh(s) truncated to [0, upper); s shaped (W,)."""
@@ -102,12 +108,12 @@ class HMBData:
         log_mass = np.log(-np.expm1(-self.upper ** 2 / (2.0 * s ** 2)))         # mass inside [0, upper)
         coef = (-0.5 / s ** 2)[:, None]                                           # (W, 1)
         const = -2.0 * np.log(s) - log_mass
-        return self._log_like(coef, self.x2[None, :], const, self.log_x)
+        return self._log_like(coef, self._ray_feats, const, self._ray_base)
 
     @staticmethod
     def ess(ratios):
         """Importance-sampling effective sample size per object, (N,), first walker."""
-        w = ratios[0]
+        w = ratios[0].astype(np.float64)
         return w.sum(axis=-1) ** 2 / np.maximum((w ** 2).sum(axis=-1), 1e-300)
 
 

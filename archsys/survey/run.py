@@ -132,8 +132,28 @@ def _survey_extras(res):
     return extra, pair_extra
 
 
+def _prior_name(post, key, default):
+    v = (post.prior or {}).get(key)
+    v = v.get("name") if isinstance(v, dict) else v
+    return v or default
+
+
+def _finite_json(x):
+    """The document with NaN/inf replaced by None (JSON has no such numbers)."""
+    if isinstance(x, float):
+        return x if math.isfinite(x) else None
+    if isinstance(x, dict):
+        return {k: _finite_json(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_finite_json(v) for v in x]
+    if isinstance(x, np.generic):
+        return _finite_json(x.item())
+    return x
+
+
 def _summarise(sid, res):
-    doc = res.document
+    doc = _finite_json(res.document)
+    res.document = doc
     post = res.posterior
     extra, pair_extra = _survey_extras(res)
     planets = []
@@ -144,20 +164,20 @@ def _summarise(sid, res):
     take = np.linspace(0, n - 1, min(SAMPLES_PER_PLANET, n)).round().astype(int)
     for j, (entry, pl) in enumerate(zip(doc["planets"], res.system.planets)):
         basis, interim = _measured_ecc(pl)
-        rec = {"row": planet_row(sid, entry), "ecc_basis": basis}
-        if basis is not None and post.method == "mcmc":
-            name = (post.prior or {}).get("ecc")
-            name = name.get("name") if isinstance(name, dict) else name
-            interim = name or res.options.ecc_prior or "ecc-uniform"
+        row = planet_row(sid, entry)
+        row["ecc_measured"] = basis is not None
+        rec = {"row": row, "ecc_basis": basis}
         if basis is not None:
+            if post.method == "mcmc":     # sampled under the run's eccentricity prior
+                interim = _prior_name(post, "eccentricity", res.options.ecc_prior or "ecc-uniform")
             rec["ecc_interim"] = interim
             rec["ecc_samples"] = ecc[take, j]
         if psi is not None:
             x = np.asarray(psi, dtype=float)[take, j]
             if np.all(np.isfinite(x)):
                 rec["psi_samples"] = x
-                rec["psi_interim"] = (f"rayleigh-marginal:{res.options.incl_prior or 'incl-loguniform'}"
-                                      if has_sigma else "uniform-psi")
+                sp = _prior_name(post, "mutual_inclination_sigma", res.options.incl_prior or "incl-loguniform")
+                rec["psi_interim"] = f"rayleigh-marginal:{sp}" if has_sigma else "uniform-psi"
         planets.append(rec)
     return {"system": sid, "status": "ok", "n_planets": res.system.n_planets, "document": doc,
             "system_row": system_row(doc, extra),
@@ -190,9 +210,10 @@ def process_system(task):
     except Exception as exc:  # noqa: BLE001 - logged as a reject that names the exception type
         if debug:
             raise
-        where = traceback.extract_tb(exc.__traceback__)[-1]
-        reason = (f"analysis failed: {type(exc).__name__}: {' '.join(str(exc).split())} "
-                  f"(at {pathlib.Path(where.filename).name}:{where.lineno})")
+        frames = traceback.extract_tb(exc.__traceback__)[-2:]
+        at = " <- ".join(f"{pathlib.Path(f.filename).parent.name}/{pathlib.Path(f.filename).name}:{f.lineno}"
+                         for f in reversed(frames))
+        reason = f"analysis failed: {type(exc).__name__}: {' '.join(str(exc).split())} (at {at})"
         return _rejected(sid, n, [{"planet": "", "row": rows_of.get(""), "field": "", "column": "",
                                    "reason": reason}], "analysis")
 
@@ -337,9 +358,9 @@ def run_survey(catalog, out, *, columns=None, where=(), resume=False, scheduler=
         raise InputError(f"--out {out}: exists and is not a directory")
     if limit is not None and limit < 1:
         raise InputError(f"--limit must be at least 1; got {limit}")
-    jobs = os.cpu_count() or 1 if not jobs else int(jobs)
-    if jobs < 0:
+    if jobs is not None and int(jobs) < 0:
         raise InputError(f"--jobs must be >= 0 (0 = one per core); got {jobs}")
+    jobs = (os.cpu_count() or 1) if not jobs else int(jobs)
     cat = read_catalog(catalog)
     cmap = bind(load_column_map(columns) if columns else canonical_map(cat.columns), cat)
     names = where_names(cmap, cat.columns)
@@ -412,6 +433,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, w
            "seeds": "per system: SeedSequence([seed, crc32(system id)])", "counts": counts}
     pop.update(population_statistics(ok_rows, pairs, seed=seed))
     ecc_samples, ecc_lp0, psi_samples, psi_lp0, ecc_info = _hier_inputs(store, ids, ok_rows)
+    psi_interims = ecc_info.pop("psi_interims")
     ecc_pop = eccentricity_population(ecc_samples, ecc_lp0, seed=int(seed) + 11,
                                       interim_prior=ecc_info["interim"])
     ecc_pop.update({k: v for k, v in ecc_info.items() if k != "interim"})
@@ -419,7 +441,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, w
     if psi_samples:
         pop["mutual_inclination_population"] = tilt_population(
             psi_samples, psi_lp0, seed=int(seed) + 13,
-            interim_prior="; ".join(sorted(set(ecc_info.pop("psi_interims", [])))) or "")
+            interim_prior="; ".join(sorted(set(psi_interims))))
     else:
         pop["mutual_inclination_population"] = {
             "rayleigh": None, "n_planets": 0,

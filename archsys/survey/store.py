@@ -324,5 +324,9 @@ def header_of(rows, first=()):
     for r in rows:
         for k in r:
             seen.setdefault(k, None)
+    # a key that is a summary in some rows and null in others keeps only its _median/_lo/_hi columns
+    for k in list(seen):
+        if f"{k}_median" in seen:
+            del seen[k]
     head = [k for k in first if k in seen]
     return head + [k for k in seen if k not in head]
