@@ -186,8 +186,8 @@ def canonical_map(columns) -> ColumnMap:
                     if f"{base}_{k}" in cols}
             if base in cols:
                 spec["value"] = base
-            if not spec:
-                continue
+            if not any(k in spec for k in ("value", "upper", "lower")):
+                continue                  # errors without a value column carry nothing
             zero = "unmeasured" if name == "ecc" else "keep"
             out.append(FieldMap(name=name, scope=scope, zero_without_errors=zero, **spec))
     return ColumnMap(source="canonical columns", sha256="", system="system",
