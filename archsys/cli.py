@@ -75,7 +75,7 @@ def _cmd_report(args):
     fmt = "json" if args.json else args.format
     if fmt == "json":
         docs = [r.document for r in results]
-        sys.stdout.write(json.dumps(docs[0] if len(docs) == 1 else docs, indent=2, sort_keys=False) + "\n")
+        sys.stdout.write(json.dumps(docs[0] if len(docs) == 1 else docs, indent=2, allow_nan=False) + "\n")
     elif fmt == "text":
         colour = sys.stdout.isatty() and not args.no_colour
         sys.stdout.write("\n".join(render_text(r.document, colour=colour) for r in results))

@@ -189,8 +189,8 @@ def test_resume_with_other_options_is_refused(tmp_path):
 def test_bad_rows_become_rejects_and_counts_reconcile(tmp_path):
     rows = _rows(6)
     rows.append(dict(rows[0]))                       # duplicated row of Sys-00
-    rows[2]["period"] = "12.x"                        # non-numeric cell (mixed types) in Sys-00 c? no: Sys-01 b
-    rows[5]["ecc"] = "1.7"                            # impossible eccentricity
+    rows[2]["period"] = "12.x"                        # row 3 (Sys-01 b): a non-numeric cell (mixed types)
+    rows[5]["ecc"] = "1.7"                            # row 6 (Sys-02 b): an impossible eccentricity
     rows.append({**rows[3], "system": "", "planet": "orphan"})   # row without a system id
     path = _write_csv(tmp_path / "bad.csv", rows)
     pop, out = _survey(tmp_path, path)
@@ -267,3 +267,25 @@ def test_system_seed_depends_on_seed_and_id_only():
     assert system_seed(0, "Kepler-11") == system_seed(0, "Kepler-11")
     assert system_seed(0, "Kepler-11") != system_seed(1, "Kepler-11")
     assert system_seed(0, "Kepler-11") != system_seed(0, "Kepler-12")
+
+
+def test_progress_line(tmp_path):
+    from archsys.survey.run import Progress
+
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+    tty = Tty()
+    p = Progress(3, stream=tty)
+    for ok in (True, False, True):
+        p.update(ok)
+    p.close()
+    text = tty.getvalue()
+    assert text.startswith("\r") and text.endswith("\n")
+    assert "3/3 systems, 1 rejected" in text and "ETA" in text
+    quiet = Tty()
+    q = Progress(2, quiet=True, stream=quiet)
+    q.update(True)
+    q.close()
+    assert quiet.getvalue() == ""

@@ -21,9 +21,15 @@ per planet j
         (cos i, Omega are uniform coordinates on the sphere), truncated to
         psi <= pi.
     ``log (m sin i)_j``  (only planets with K, m sin i or a true mass)
-        m = exp(param) / sin i; prior flat in m (Jacobian m added) below
-        ``MASS_CAP`` M_sun.  Sampling m sin i rather than m removes the
-        banana-shaped m-i degeneracy of RV planets.
+        m = exp(param) / sin i; prior flat in m sin i (Jacobian added), with
+        m below ``MASS_CAP`` M_sun.  This is the prior implied by a Gaussian K
+        summary, so the MCMC and the direct path agree for RV planets; sampling
+        m sin i rather than m removes the m-i degeneracy of RV planets.
+    (ORIENTATION_FREE) when no planet has transit or astrometric data and no
+        stability prior is asked for, orientations do not enter the
+        likelihood; they are not sampled but drawn afterwards from the
+        hierarchical prior (sigma, reference plane, Rayleigh tilts), which is
+        exact and mixes perfectly.
     ``P_j``  (only planets whose period is uncertain by more than 0.1 %)
         Other periods enter as independent draws afterwards; their coupling to
         a (P^(2/3)) and K (P^(1/3)) is below 0.1 %.
@@ -157,8 +163,14 @@ class SystemModel:
         for j in self.free_ecc:
             add(f"x{j}")
             add(f"y{j}")
+        self.has_transits = any(p.transiting or "b" in p.quantities for p in s.planets)
+        #: ORIENTATION_FREE: no transit, astrometric or stability information -> the likelihood
+        #: does not depend on the orientations (masses are sampled as m sin i), so they are
+        #: drawn afterwards from the hierarchical prior instead of being sampled
+        self.orient_free = not self.require_stable and not self.has_transits and not any(
+            k in p.quantities for p in s.planets for k in ("inclination", "ascending_node"))
         #: one planet: no reference plane or dispersion; its orientation is isotropic
-        self.hier = self.np_ >= 2
+        self.hier = self.np_ >= 2 and not self.orient_free
         #: how cos i is parametrised per planet (see COS_I_PARAMETRISATION)
         self.cos_kind = []
         for p in s.planets:
@@ -171,6 +183,8 @@ class SystemModel:
         self.signed = [k != "folded" for k in self.cos_kind]
         self.tanh_planets = [j for j, k in enumerate(self.cos_kind) if k == "tanh"]
         for j in range(self.np_):
+            if self.orient_free:
+                continue
             add(f"cosi{j}")
             if self.hier or self.signed[j]:
                 add(f"node{j}")
@@ -203,8 +217,7 @@ class SystemModel:
         if self.star_scale_free:
             add("rstar")
         self.ndim = idx
-        self.has_transits = any(p.transiting or "b" in p.quantities for p in s.planets)
-        self._cols = {"cosi": [self.ix[f"cosi{j}"] for j in range(self.np_)],
+        self._cols = {"cosi": [self.ix[f"cosi{j}"] for j in range(self.np_) if f"cosi{j}" in self.ix],
                       "x": [self.ix[f"x{j}"] for j in self.free_ecc],
                       "y": [self.ix[f"y{j}"] for j in self.free_ecc]}
         self._terms = {}
@@ -250,7 +263,7 @@ class SystemModel:
         c["x"], c["y"] = x, y
         c["ecc"] = x * x + y * y
         c["omega"] = np.arctan2(y, x)
-        c["cos_i"] = th[:, self._cols["cosi"]].copy()
+        c["cos_i"] = th[:, self._cols["cosi"]].copy() if not self.orient_free else np.zeros((nw, self.np_))
         node = np.zeros((nw, self.np_))
         for j in range(self.np_):
             if f"node{j}" in self.ix:
@@ -334,9 +347,10 @@ class SystemModel:
             ok &= c["star_scale"] > 0
         if self.free_periods:
             ok &= np.all(c["period"] > 0, axis=1)
-        raw_c = theta[:, self._cols["cosi"]]
-        folded = ~np.asarray(self.signed)
-        ok &= np.all(np.where(folded, (raw_c >= 0.0) & (raw_c <= 1.0), True), axis=1)
+        if not self.orient_free:
+            raw_c = theta[:, self._cols["cosi"]]
+            folded = ~np.asarray(self.signed)
+            ok &= np.all(np.where(folded, (raw_c >= 0.0) & (raw_c <= 1.0), True), axis=1)
         ok &= np.all(np.abs(c["cos_i"]) <= 1.0, axis=1)
         with np.errstate(divide="ignore", invalid="ignore"):
             if self.hier:
@@ -352,10 +366,9 @@ class SystemModel:
             # eccentricity prior (flat in (x, y) is flat in e; add the prior density in e)
             ef = e[:, self.free_ecc]
             lp += np.sum(self.ecc_prior.logpdf_e(np.where(ef < 1.0, ef, 0.5)), axis=1)
-        # mass prior: flat in m; the parameter is log(m sin i) -> Jacobian dm/dparam = m
+        # mass prior: flat in m sin i; the parameter is log(m sin i) -> Jacobian m sin i
         for j in self.mass_planets:
-            with np.errstate(divide="ignore"):
-                lp += np.log(c["mass"][:, j])
+            lp += theta[:, self.ix[f"logmsini{j}"]]
         # star and period summaries act as priors
         if self.star_mass_free:
             lp += s.star.mass.log_likelihood(c["m_star"])

@@ -113,7 +113,7 @@ def _initial(model, system, rng, nwalkers, seed):
         if model.node_ref_free:
             th[:, ix["node_ref"]] = 0.0
         sinI = np.sqrt(1.0 - ci * ci)
-        for j in range(model.np_):
+        for j in range(model.np_ if not model.orient_free else 0):
             psi = sig * np.sqrt(-2.0 * np.log(rng.uniform(1e-12, 1.0, n_try)))
             phi = rng.uniform(-np.pi, np.pi, n_try)
             # rotate the tilted normal from the reference frame to the sky frame
@@ -282,13 +282,55 @@ def _why(system, opts):
     return "; ".join(reasons) or "orbits cross in some direct draws"
 
 
+def _prior_orientations(model, c, rng, max_rounds=50):
+    """Orientations drawn from the hierarchical prior (ORIENTATION_FREE systems).
+
+    Rows whose true mass m sin i / sin i would exceed MASS_CAP are redrawn
+    (the mass prior is truncated there).
+    """
+    from .model import MASS_CAP
+    n, npl = c["ecc"].shape
+    msini = c["mass"]
+
+    def draw(m):
+        cosI = rng.uniform(0.0, 1.0, m)
+        if npl == 1:
+            return {"cos_i": cosI[:, None], "node": np.zeros((m, 1)), "cosI": cosI, "sigma": np.full(m, np.nan)}
+        sig = np.radians(model.sigma_prior.sample(rng, m))
+        psi = sig[:, None] * np.sqrt(-2.0 * np.log(rng.uniform(1e-300, 1.0, (m, npl))))
+        phi = rng.uniform(-np.pi, np.pi, (m, npl))
+        sinI = np.sqrt(1.0 - cosI ** 2)[:, None]
+        nx = np.sin(psi) * np.cos(phi)
+        ny_r, nz_r = np.sin(psi) * np.sin(phi), np.cos(psi)
+        nz = cosI[:, None] * nz_r + sinI * ny_r
+        ny = cosI[:, None] * ny_r - sinI * nz_r
+        return {"cos_i": nz, "node": np.arctan2(nx, -ny), "cosI": cosI, "sigma": sig, "psi": psi}
+
+    out = draw(n)
+    for _ in range(max_rounds):
+        sini = np.sqrt(np.clip(1.0 - out["cos_i"] ** 2, 0.0, 1.0))
+        bad = np.any(msini > MASS_CAP * sini, axis=1)
+        if not bad.any():
+            break
+        new = draw(int(bad.sum()))
+        for k in out:
+            out[k][bad] = new[k]
+    return out
+
+
 def _to_posterior(model, system, flat, opts, rng):
     c = model.unpack(flat)
     n = flat.shape[0]
     npl = system.n_planets
     cos_i = c["cos_i"]
     psi = None
-    if model.hier:
+    prior_orient = None
+    if model.orient_free:
+        prior_orient = _prior_orientations(model, c, rng)
+        cos_i = prior_orient["cos_i"]
+        c["node"] = prior_orient["node"]
+        psi = prior_orient.get("psi")
+    elif model.hier:
         # draw the sign of cos i for each planet from its conditional probability
         terms = model.orientation_terms(c)                         # (n, np, 2)
         p_plus = 1.0 / (1.0 + np.exp(np.clip(terms[..., 1] - terms[..., 0], -700, 700)))
@@ -312,8 +354,12 @@ def _to_posterior(model, system, flat, opts, rng):
         note = {}
         q = p.quantities
         if j in model.mass_planets:
-            mass[:, j] = c["mass"][:, j]
-            msini[:, j] = mass[:, j] * np.sin(c["inc"][:, j])
+            if model.orient_free:
+                msini[:, j] = c["mass"][:, j]          # sampled as m sin i (sin i = 1 inside)
+                mass[:, j] = msini[:, j] / np.sqrt(1.0 - cos_i[:, j] ** 2)
+            else:
+                mass[:, j] = c["mass"][:, j]
+                msini[:, j] = mass[:, j] * np.sin(c["inc"][:, j])
             if "mass" in q:
                 note["mass"] = "true"
             elif model.has_transits and (p.transiting or "b" in q):
@@ -331,7 +377,10 @@ def _to_posterior(model, system, flat, opts, rng):
         else:
             note["ecc"] = "prior only (no eccentricity data)"
         has_geom = any(k in q for k in ("b", "inclination")) or p.transiting is not None
-        if model.hier:
+        if model.orient_free:
+            note["inc"] = ("prior only (isotropic reference plane, Rayleigh tilts)" if npl > 1
+                           else "prior only (isotropic orientation)")
+        elif model.hier:
             note["inc"] = "posterior (hierarchical orientation model)"
         else:
             note["inc"] = "posterior" if has_geom else "prior only (isotropic orientation)"
@@ -344,7 +393,9 @@ def _to_posterior(model, system, flat, opts, rng):
                  rho_star=rho if rho is not None else np.full(n, np.nan),
                  period=period, a=a, ecc=c["ecc"], omega=c["omega"], msini=msini, mass=mass,
                  inc=np.arccos(np.clip(cos_i, -1, 1)),
-                 node=c["node"] if model.hier else np.full((n, npl), np.nan))
+                 node=c["node"] if (model.hier or prior_orient) else np.full((n, npl), np.nan))
     if model.hier:
         draws.update(psi=psi, sigma_mutual=c["sigma"], ref_inc=np.arccos(c["cosI"]))
+    elif prior_orient is not None and psi is not None:
+        draws.update(psi=psi, sigma_mutual=prior_orient["sigma"], ref_inc=np.arccos(prior_orient["cosI"]))
     return Posterior(system, draws, "mcmc", seed=opts.seed, notes=notes)

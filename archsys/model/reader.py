@@ -13,6 +13,7 @@ import pathlib
 import tomllib
 
 import astropy.units as u
+import numpy as np
 
 from ..errors import InputError
 from ..physics.constants import MEARTH_MSUN
@@ -68,7 +69,8 @@ def _convert(x, unit_str, fld: Field):
     if not isinstance(src, u.UnitBase):  # logarithmic units such as dex(m/s) are not linear
         raise u.UnitsError(f"'{unit_str}' is not a linear unit")
     dst = u.Unit(fld.unit) if fld.unit else u.dimensionless_unscaled
-    return float((x * src).to_value(dst))
+    with np.errstate(over="ignore", invalid="ignore"):   # overflow is reported by the caller
+        return float((x * src).to_value(dst))
 
 
 def parse_quantity(raw, fld: Field, where: str, problems: _Problems):

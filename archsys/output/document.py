@@ -86,4 +86,17 @@ def build_document(res) -> dict:
         "package_version": __version__,
         "versions": _versions(),
     }
-    return doc
+    return _finite(doc)
+
+
+def _finite(obj):
+    """Replace non-finite floats by None: a report never contains NaN or infinity."""
+    if isinstance(obj, float):
+        return obj if np.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: _finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_finite(v) for v in obj]
+    if isinstance(obj, np.generic):
+        return _finite(obj.item())
+    return obj

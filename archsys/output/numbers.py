@@ -22,7 +22,11 @@ def _fmt(x, dec):
     if dec is None:
         return f"{x:.4g}"
     if dec <= 0:
-        return f"{round(x, dec):.0f}"
+        if not math.isfinite(x):
+            return f"{x}"
+        # integer arithmetic: f"{5.97e24:.0f}" would print binary noise (5970000000000000281018368)
+        q = 10 ** (-dec)
+        return str(int(round(x / q)) * q)
     return f"{x:.{dec}f}"
 
 

@@ -67,8 +67,9 @@ the table's columns; where any holds, the value is m sin i, i.e. field
 
 Eccentricity default: with canonical columns as well, ``ecc`` uses
 ``zero_without_errors = "unmeasured"`` (catalogues write 0 for "fixed
-circular"); give ``ecc_err`` (even ``ecc_err = 0`` does not count; give a real
-error or an upper limit) to state a measured value near zero.
+circular").  "Without errors" means no positive error in the row (an error of
+0 counts as none); to state a measured value near zero give its error, or an
+upper limit.
 
 Every problem with the map is raised as one :class:`InputError` line naming
 the map file and the key; a mapped column that the table lacks is fatal
@@ -432,7 +433,7 @@ def _quantity(f, cells, rownum, planet, cat_units, problems):
     if not q:
         return None
     if (f.zero_without_errors == "unmeasured" and q.get("value") == 0.0
-            and not any(k in q for k in ("err", "minus", "plus"))):
+            and not any(q.get(k, 0.0) > 0 for k in ("err", "minus", "plus"))):
         return None                               # "fixed to 0" in the source: not measured
     if f.cl is not None and ("upper" in q or "lower" in q):
         q["cl"] = f.cl

@@ -45,20 +45,21 @@ def plot_period_ratios(pairs, fig=None, max_ratio=5.0):
     ax.hist(r[r <= max_ratio], bins=edges, color=PALETTE["sky_blue"], edgecolor=PALETTE["blue"], linewidth=0.4)
     done = set()
     for j, k, ratio in MMR_TABLE:
-        if k > 2 or ratio > max_ratio:
+        # first order to 5:4, second order to 7:5: finer resonances crowd near 1
+        if k > 2 or ratio > max_ratio or j > (5 if k == 1 else 7):
             continue
         st = dict(ORDER_STYLES[int(k)])
         label = st.pop("label")
         label = label if int(k) not in done else None
         done.add(int(k))
-        ax.axvline(ratio, label=label, zorder=0, **st)
+        ax.axvline(ratio, label=label, zorder=3, alpha=0.8, **st)
     ax.set_xscale("log")
     ax.set_xlim(1.0, max_ratio)
     ticks = [1, 1.25, 1.5, 2, 3, 4, 5]
     ax.set_xticks(ticks, [f"{t:g}" for t in ticks])
     ax.set_xlabel(r"period ratio $P_{i+1}/P_i$ (adjacent pairs)")
     ax.set_ylabel("pairs")
-    ax.legend(loc="upper right")
+    ax.legend(loc="upper right", frameon=True, framealpha=0.9, edgecolor="none")
     return fig
 
 
@@ -72,11 +73,11 @@ def plot_hill_separations(pairs, fig=None):
         ax.hist(h, bins=edges, color=PALETTE["sky_blue"], edgecolor=PALETTE["blue"], linewidth=0.4)
     ax.axvline(2 * math.sqrt(3), color=PALETTE["vermillion"], linestyle=(0, (1, 1)),
                label=r"$2\sqrt{3}$ (Gladman 1993)")
-    ax.axvline(10.0, color=PALETTE["black"], linestyle=(0, (4, 2)), label="10")
+    ax.axvline(10.0, color=PALETTE["black"], linestyle=(0, (4, 2)), label=r"$\Delta = 10$")
     ax.set_xscale("log")
     ax.set_xlabel(r"separation $\Delta$ [mutual Hill radii]")
     ax.set_ylabel("pairs")
-    ax.legend(loc="upper right")
+    ax.legend(loc="upper left")
     return fig
 
 

@@ -122,6 +122,13 @@ def _run_emcee(log_prob, start, seed, n_walkers, n_steps, n_burn):
     rng = np.random.default_rng(seed)
     ndim = len(start)
     p0 = np.asarray(start)[None, :] + 1e-3 * rng.standard_normal((n_walkers, ndim))
+    for _ in range(50):                       # every walker must start where the posterior is > 0
+        bad = ~np.isfinite(log_prob(p0))
+        if not bad.any():
+            break
+        p0[bad] = start + 0.5 * (p0[bad] - start)
+    else:
+        p0[~np.isfinite(log_prob(p0))] = start
     sampler = emcee.EnsembleSampler(n_walkers, ndim, log_prob, vectorize=True)
     sampler.random_state = np.random.RandomState(int(rng.integers(2 ** 31))).get_state()
     sampler.run_mcmc(p0, n_steps, progress=False)
@@ -167,6 +174,10 @@ def _fit(data, kind, seed, n_walkers, n_steps, n_burn, sigma_range=None):
 
     res = optimize.minimize(nll, start0, method="Nelder-Mead", options={"xatol": 1e-3, "fatol": 1e-3})
     start = res.x if np.isfinite(log_prob(res.x)[0]) else start0
+    # keep the start strictly inside the hyperprior box so the walker ball is valid
+    box = (lo_b, hi_b) if kind == "beta" else (lo_s, hi_s)
+    margin = 1e-2 * (box[1] - box[0])
+    start = np.clip(start, box[0] + margin, box[1] - margin)
     chain, tau, acc = _run_emcee(log_prob, start, seed, n_walkers, n_steps, n_burn)
     params = np.exp(chain)
     med = np.median(params, axis=0)

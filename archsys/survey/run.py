@@ -13,6 +13,11 @@ be able to import archsys).  Each system's seed is derived from the global seed
 and the system id only, ``SeedSequence([seed, crc32(id)])``, so serial, local
 and Dask runs give identical numbers.
 
+Local processes are started with the "spawn" method (no inherited store
+handle, the same start as Dask's workers), so a script that calls
+:func:`run_survey` with ``jobs != 1`` needs the usual ``if __name__ ==
+"__main__":`` guard.
+
 Results are stored per system as they finish (:mod:`.store`); ``--resume``
 skips stored systems.  The final tables (``systems.csv``, ``planets.csv``,
 ``pairs.csv``, ``rejects.csv``), ``population.json`` and the figures are built
@@ -28,6 +33,7 @@ import json
 import math
 import os
 import pathlib
+import re
 import sys
 import time
 import traceback
@@ -38,7 +44,7 @@ from dataclasses import replace
 import numpy as np
 
 from .. import __version__
-from ..errors import InputError
+from ..errors import ConvergenceWarning, InputError
 from .catalog import group_systems, parse_where, read_catalog, select
 from .columns import bind, canonical_map, load_column_map, system_mapping, where_names
 from .store import (SurveyStore, header_of, pair_row, planet_row, system_row, write_csv)
@@ -50,7 +56,7 @@ __all__ = ["run_survey", "run_survey_cli", "survey_benchmark", "system_seed", "p
 FAST_DRAWS = 1000
 #: Posterior samples per planet kept for the hierarchical inference.
 SAMPLES_PER_PLANET = 100
-_FIRST_SYSTEM_COLS = ("system", "n_planets", "n_pairs", "n_transiting", "sampler")
+_FIRST_SYSTEM_COLS = ("system", "n_planets", "n_pairs", "n_transiting", "sampler", "warnings")
 _FIRST_PAIR_COLS = ("system", "inner", "outer", "period_ratio_median", "period_ratio_lo", "period_ratio_hi",
                     "nearest_mmr", "mmr_offset_median", "mmr_offset_lo", "mmr_offset_hi",
                     "hill_separation_median", "hill_separation_lo", "hill_separation_hi",
@@ -75,7 +81,6 @@ def _rejected(sid, n, problems, kind):
 
 def _problems_from_error(exc, source, rows_of, cmap):
     """Reject lines from build_system's InputError (one per problem line)."""
-    import re
     out = []
     for line in getattr(exc, "problems", None) or [str(exc)]:
         msg = line[len(source) + 2:] if line.startswith(source + ": ") else line
@@ -201,10 +206,16 @@ def process_system(task):
     except InputError as exc:
         return _rejected(sid, n, _problems_from_error(exc, source, rows_of, cmap), "input")
     try:
-        with warnings.catch_warnings():
+        with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("ignore", RuntimeWarning)
+            warnings.simplefilter("always", ConvergenceWarning)
             res = analyze(system, options)
-            return _summarise(sid, res)
+            out = _summarise(sid, res)
+        notes = sorted({" ".join(str(w.message).split()) for w in caught
+                        if issubclass(w.category, ConvergenceWarning)})
+        if notes:     # kept with the system instead of interrupting the progress line
+            out["system_row"]["warnings"] = "; ".join(notes)
+        return out
     except InputError as exc:
         return _rejected(sid, n, _problems_from_error(exc, source, rows_of, cmap), "input")
     except Exception as exc:  # noqa: BLE001 - logged as a reject that names the exception type
@@ -302,8 +313,9 @@ def _run_dask(tasks, sink, address):
     except ImportError:
         raise InputError("--scheduler needs Dask distributed, the optional extra 'dask' "
                          "(pip install 'archsys[dask]')") from None
+    import dask
     try:
-        client = Client(address, timeout="20s")
+        client = Client(address, timeout=dask.config.get("distributed.comm.timeouts.connect", "30s"))
     except (OSError, TimeoutError) as exc:
         raise InputError(f"--scheduler {address}: cannot connect to the Dask scheduler ({exc})") from None
     try:
@@ -343,9 +355,12 @@ def _manifest(cat, cmap, opts, seed):
 
 def run_survey(catalog, out, *, columns=None, where=(), resume=False, scheduler=None, limit=None,
                figures=True, seed=0, draws=None, mode="auto", ecc_prior=None, incl_prior=None,
-               require_stable=False, max_steps=None, nbody=0, jobs=1, quiet=True, debug=False,
+               require_stable=False, max_steps=None, nbody=0, jobs=0, quiet=True, debug=False,
                stream=None):
     """Run a survey of ``catalog`` into directory ``out``; returns the population document.
+
+    ``jobs``: 1 = serial, N = N local processes, 0 = one process per core
+    (the default); ignored when ``scheduler`` (a Dask address) is given.
 
     Raises
     ------
@@ -421,8 +436,10 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, w
         "rows_selected": sum(g.n_planets for g in selected),
         "planets_analysed": sum(r["n_planets"] for r in ok_rows), "pairs_analysed": len(pairs),
         "reject_lines": len(rejects),
+        "systems_with_warnings": sum(1 for r in ok_rows if r.get("warnings")),
     }
-    assert counts["systems_selected"] == counts["systems_analysed"] + counts["systems_rejected"]
+    if counts["systems_selected"] != counts["systems_analysed"] + counts["systems_rejected"]:  # pragma: no cover
+        raise RuntimeError(f"survey counts do not reconcile: {counts}")
 
     pop = {"schema_version": 1, "archsys_version": __version__,
            "catalog": {"file": cat.name, "sha256": cat.sha256},

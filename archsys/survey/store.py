@@ -103,7 +103,7 @@ class SurveyStore:
         """Start a new store, or accept a matching one on --resume (else InputError)."""
         old = self.manifest()
         n_done = self.db.execute("SELECT COUNT(*) FROM systems").fetchone()[0]
-        if old is None and n_done == 0:
+        if n_done == 0:              # nothing stored yet (e.g. a run that failed to start): start afresh
             self.set_manifest(manifest)
             return
         if not resume:

@@ -1,0 +1,88 @@
+"""Markdown report (GitHub-flavoured pipe tables), rendered from the report document."""
+from __future__ import annotations
+
+from .formats import (document_tables, intro_line, provenance_items, sampler_items,
+                      verdict_lines)
+
+__all__ = ["render_markdown", "md_cell"]
+
+
+def _esc(s):
+    return str(s).replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ")
+
+
+def md_cell(cell):
+    """Markdown text of a format-neutral cell (see :func:`archsys.output.formats.format_cell`)."""
+    kind = cell[0]
+    if kind == "none":
+        return "—"
+    if kind == "pm":
+        v, m, p = cell[1:]
+        return f"{v} ± {p}" if m == p else f"{v} +{p}/−{m}"
+    return _esc(cell[1])
+
+
+def _head(col):
+    return _esc(col.label + (f" [{col.unit}]" if col.unit else ""))
+
+
+def _table(table):
+    cols = table.columns
+    out = ["| " + " | ".join(_head(c) for c in cols) + " |",
+           "|" + "|".join([":--"] + ["--:"] * (len(cols) - 1)) + "|"]
+    for row in table.rows:
+        out.append("| " + " | ".join(md_cell(c) for c in row) + " |")
+    return out
+
+
+def _kv(rows):
+    out = ["| quantity | value | unit |", "|:--|--:|:--|"]
+    for col, cell in rows:
+        out.append(f"| {_esc(col.label)} | {md_cell(cell)} | {_esc(col.unit)} |")
+    return out
+
+
+def render_markdown(doc, figures=None) -> str:
+    """Markdown report of ``doc``.
+
+    ``figures``: optional list of ``(caption, relative_path)`` pairs, linked as images.
+    """
+    t = document_tables(doc)
+    name = doc.get("system", "system")
+    prov = doc.get("provenance") or {}
+    L = [f"# {_esc(name)} — system architecture", ""]
+    meta = [f"archsys {prov.get('package_version', '?')}", intro_line(doc)]
+    if prov.get("input_file"):
+        meta.append(f"input `{prov['input_file']}`")
+    L += ["*" + " · ".join(m for m in meta if m) + "*", "",
+          "Values are medians with the central 68.3 % interval of the posterior draws, rounded to "
+          "two significant figures of the larger error.", ""]
+    smp = doc.get("sampler") or {}
+    if smp.get("converged") is False:
+        L += ["> **Warning.** The chain did not reach the convergence criterion; treat intervals as rough.", ""]
+    if t.star:
+        L += ["## Star", ""] + _kv(t.star) + [""]
+    L += ["## Planets", ""] + _table(t.planets) + [""]
+    if t.notes:
+        L += [f"- {_esc(n)}" for n in t.notes] + [""]
+    if t.pairs is not None:
+        L += ["## Adjacent pairs", ""] + _table(t.pairs) + [""]
+        L += ["Δ: separation in mutual Hill radii; offset: fractional distance from the nearest "
+              "mean-motion resonance; probabilities are fractions of the draws.", ""]
+    if t.system:
+        L += ["## System", ""] + _kv(t.system) + [""]
+    L += ["## Verdicts", ""] + [f"- {_esc(v)}" for v in verdict_lines(doc)] + [""]
+    if figures:
+        L += ["## Figures", ""]
+        for caption, path in figures:
+            if path:
+                L += [f"![{_esc(caption)}]({path})", "", f"*{_esc(caption)}*", ""]
+    items = sampler_items(doc)
+    if items:
+        L += ["## Sampling", ""] + [f"- **{_esc(k)}**: {_esc(v)}" for k, v in items] + [""]
+    items = provenance_items(doc)
+    if items:
+        L += ["## Provenance", ""] + [f"- **{_esc(k)}**: {_esc(v)}" for k, v in items] + [""]
+    if doc.get("disclaimer"):
+        L += [f"> **Note.** {_esc(doc['disclaimer'])}", ""]
+    return "\n".join(L)
