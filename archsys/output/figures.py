@@ -253,7 +253,7 @@ def usable_parameters(params):
 def _value_line(p, x):
     lo, med, hi = np.quantile(x, QUANTILES)
     v, m, s = round_uncertain(med, med - lo, hi - med)
-    unit = "{}^{\\circ}" if p.unit == "^\\circ" else (f"\\,{p.unit}" if p.unit else "")
+    unit = "\\,\\mathrm{deg}" if p.unit == "^\\circ" else (f"\\,{p.unit}" if p.unit else "")
     err = f"\\pm{s}" if m == s else f"^{{+{s}}}_{{-{m}}}"
     return f"${p.symbol} = {v}{err}{unit}$"
 
@@ -345,10 +345,20 @@ def corner_figure(params, truths=None, priors=None, preset=None, fig=None, title
     return fig
 
 
+class _InnerTicks(matplotlib.ticker.MaxNLocator):
+    """MaxNLocator without ticks in the outer 7 % of the axis, so labels of
+    neighbouring corner panels never touch."""
+
+    def __call__(self):
+        lo, hi = sorted(self.axis.get_view_interval())
+        m = 0.07 * (hi - lo)
+        return [t for t in super().__call__() if lo + m <= t <= hi - m]
+
+
 def _layout_corner(fig, axes, p, K, kept_log):
     """Margins, tick density and label positions sized for the preset (corner's own assume 2 in panels)."""
     w = fig.get_size_inches()[0]
-    left = (0.55 if K > 1 else 0.30) * p.font_pt / 8.0
+    left = (0.62 if K > 1 else 0.30) * p.font_pt / 8.0
     bottom = 0.55 * p.font_pt / 8.0
     fig.subplots_adjust(left=left / w, bottom=bottom / w, right=1 - 0.08 / w, top=1 - 0.08 / w,
                         wspace=0.06, hspace=0.06)
@@ -357,9 +367,9 @@ def _layout_corner(fig, axes, p, K, kept_log):
         if kept_log[k]:
             continue
         for r in range(k, K):               # column k shares parameter k on x
-            axes[r, k].xaxis.set_major_locator(matplotlib.ticker.MaxNLocator(n_ticks, prune="both"))
+            axes[r, k].xaxis.set_major_locator(_InnerTicks(n_ticks))
         for c in range(k):                  # row k shows parameter k on y
-            axes[k, c].yaxis.set_major_locator(matplotlib.ticker.MaxNLocator(n_ticks, prune="both"))
+            axes[k, c].yaxis.set_major_locator(_InnerTicks(n_ticks))
     for ax in fig.axes:
         ax.tick_params(labelsize=p.small_pt - (1 if K > 3 else 0), length=2.0, width=p.axes_width,
                        pad=1.5, direction="in", top=True, right=True)
@@ -374,8 +384,8 @@ def _layout_corner(fig, axes, p, K, kept_log):
         if k > 0:
             axes[k, 0].yaxis.set_label_coords(off, 0.5)
             for lab in axes[k, 0].get_yticklabels():
-                lab.set_rotation(45)
-                lab.set_verticalalignment("bottom")
+                lab.set_rotation(0)
+                lab.set_verticalalignment("center")
 
 
 def _corner_legend(fig, axes, kept, data, skipped, p, title, truths, priors):
