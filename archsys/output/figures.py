@@ -458,6 +458,7 @@ def architecture_figure(results, preset=None, fig=None):
         ax = fig.add_subplot(111)
         xs = []
         used = set()
+        masses = []
         for i, doc in enumerate(docs):
             y = n - 1 - i
             mstar = _median((doc.get("star") or {}).get("mass_msun")) or 1.0
@@ -488,6 +489,8 @@ def architecture_figure(results, preset=None, fig=None):
                 ax.plot([a], [y], marker="o", ms=d, mfc=face, mec=edge, mew=0.9 * p.line_width,
                         ls="none", zorder=4)
                 used.add(basis)
+                if m is not None:
+                    masses.append(m)
                 ax.annotate(_letter(pl["name"], doc.get("system")), (a, y), xytext=(0, 0.5 * d + 1.5),
                             textcoords="offset points", ha="center", va="bottom", fontsize=p.small_pt - 1,
                             zorder=5)
@@ -496,7 +499,9 @@ def architecture_figure(results, preset=None, fig=None):
                     continue
                 key = verdict_style(q.get("hill_stable_probability"))
                 st = VERDICT_STYLES[key]
-                ax.plot([pos[q_i], pos[q_i + 1]], [y - 0.30, y - 0.30], color=st["color"], ls=st["linestyle"],
+                x1, x2 = pos[q_i], pos[q_i + 1]
+                gap = (x2 / x1) ** 0.08            # leave a visible gap between neighbouring pairs
+                ax.plot([x1 * gap, x2 / gap], [y - 0.30, y - 0.30], color=st["color"], ls=st["linestyle"],
                         lw=1.5 * p.line_width, solid_capstyle="butt", zorder=3)
                 used.add(key)
         xs = np.array([x for x in xs if x > 0])
@@ -510,17 +515,34 @@ def architecture_figure(results, preset=None, fig=None):
         ax.tick_params(axis="y", which="both", length=0, right=False)
         ax.minorticks_on()
         ax.yaxis.set_minor_locator(matplotlib.ticker.NullLocator())
+        ax.xaxis.set_major_formatter(matplotlib.ticker.FuncFormatter(_plain_tick))
+        if hi / lo < 30:
+            ax.xaxis.set_minor_formatter(matplotlib.ticker.FuncFormatter(_minor_tick))
         ax.set_xlabel(r"semi-major axis $a$ [au]")
         for yy in np.arange(0.5, n - 0.5):
             ax.axhline(yy, color="#bbbbbb", lw=0.5, zorder=0)
-        _architecture_legend(fig, ax, p, used, height)
+        _architecture_legend(fig, ax, p, used, height, masses)
     return fig
 
 
 GREY_EDGE = "#777777"
 
 
-def _architecture_legend(fig, ax, p, used, height):
+def _plain_tick(v, _pos=None):
+    """0.04, 0.1, 1, 10: plain decimals instead of 4x10^-2 on log axes."""
+    if v <= 0:
+        return ""
+    dec = max(0, -int(math.floor(math.log10(v) + 1e-9)))
+    return f"{v:.{dec}f}"
+
+
+def _minor_tick(v, _pos=None):
+    """Label minor ticks 2x and 5x a power of ten (narrow log ranges)."""
+    mant = v / 10 ** math.floor(math.log10(v) + 1e-9)
+    return _plain_tick(v) if round(mant) in (2, 5) and abs(mant - round(mant)) < 1e-6 else ""
+
+
+def _architecture_legend(fig, ax, p, used, height, used_masses=()):
     h = []
     if "true" in used:
         h.append(Line2D([], [], marker="o", ls="none", mfc=PALETTE["blue"], mec=PALETTE["blue"], ms=5,
@@ -539,7 +561,8 @@ def _architecture_legend(fig, ax, p, used, height):
             st = VERDICT_STYLES[key]
             h.append(Line2D([], [], color=st["color"], ls=st["linestyle"], lw=1.5 * p.line_width,
                             label=st["label"]))
-    sizes = [1, 10, 100, 1000]
+    masses = sorted(used_masses) or [1.0]
+    sizes = [m for m in (1, 10, 100, 1000, 10000) if masses[0] / 4 <= m <= masses[-1] * 4] or [1]
     for m in sizes:
         h.append(Line2D([], [], marker="o", ls="none", mfc="#bbbbbb", mec="#bbbbbb", ms=_marker_pt(m, p),
                         label=f"{m:g} $M_\\oplus$"))
@@ -588,7 +611,7 @@ def period_ratio_figure(results, preset=None, fig=None, max_order=3):
         raise InputError("period-ratio figure: no adjacent pairs with a period ratio")
     p = get_preset(preset)
     n = len(rows)
-    height = max(1.9, 0.9 + n * 0.17 * p.font_pt / 8.0 + 0.35) * p.font_pt / 8.0
+    height = (0.95 + max(n, 3) * 0.19) * p.font_pt / 8.0
     lo = min(r[3] for r in rows)
     hi = max(r[4] for r in rows)
     logx = hi / lo > 2.5
@@ -600,7 +623,7 @@ def period_ratio_figure(results, preset=None, fig=None, max_order=3):
     with matplotlib.rc_context(rc_params(p)):
         fig = _new_figure(p, height, fig)
         top_in = 0.42 * p.font_pt / 8.0
-        bottom_in = 0.62 * p.font_pt / 8.0
+        bottom_in = 0.40 * p.font_pt / 8.0
         multi = len(docs) > 1
         left_in = (1.15 if multi else 0.55) * p.font_pt / 8.0
         fig.subplots_adjust(left=left_in / p.width_in, right=1 - 0.1 / p.width_in,
