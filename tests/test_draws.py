@@ -5,6 +5,7 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, stats
 
+from archsys.errors import InputError
 from archsys.inference.draws import direct_draws
 from archsys.inference.summary import QUANTILES, summarize
 from archsys.model.reader import build_system
@@ -189,3 +190,37 @@ def test_radius_only_planet_mass_is_flagged():
     d = draws({"period": 10.0, "radius": 2.0}, n=200)
     assert d.notes["T b"]["mass"].startswith("from radius")
     assert np.all(np.isfinite(d["mass"])) and np.all(np.isnan(d["msini"]))
+
+
+# ------------------------------------------------------------------ period order
+def test_overlapping_periods_keep_the_planet_order():
+    # Planets are labelled by period order, so draws with P_c < P_b are rejected whole
+    # (regression: such draws gave period ratios < 1 and a traceback in the scores).
+    # Reference: brute-force rejection of independent normal pairs (numpy), KS test.
+    sysm = build_system({"name": "T", "star": {"mass": 1.0},
+                         "planet": [{"name": "b", "period": {"value": 10.0, "err": 1.0}, "msini": 5.0},
+                                    {"name": "c", "period": {"value": 10.5, "err": 1.0}, "msini": 5.0}]})
+    P = direct_draws(sysm, n=8000, seed=4)["period"]
+    assert np.all(P[:, 1] >= P[:, 0])
+    rng = np.random.default_rng(99)
+    ref = np.stack([rng.normal(10.0, 1.0, 40000), rng.normal(10.5, 1.0, 40000)], axis=1)
+    ref = ref[ref[:, 1] >= ref[:, 0]]
+    for j in (0, 1):
+        assert stats.ks_2samp(P[:, j], ref[:, j]).pvalue > 1e-3
+
+
+def test_overlapping_periods_through_the_pipeline():
+    from archsys.pipeline import AnalysisOptions, analyze
+    sysm = build_system({"name": "T", "star": {"mass": 1.0},
+                         "planet": [{"name": "b", "period": {"value": 10.0, "err": 0.1}, "msini": 5.0},
+                                    {"name": "c", "period": {"value": 10.45, "err": 0.1}, "msini": 5.0}]})
+    doc = analyze(sysm, AnalysisOptions(n_draws=4000, mode="direct")).document
+    assert doc["pairs"][0]["period_ratio"]["lo"] >= 1.0
+
+
+def test_undetermined_period_order_is_an_input_error():
+    sysm = build_system({"name": "T", "star": {"mass": 1.0},
+                         "planet": [{"name": f"p{i}", "period": {"value": 10.0 + 0.01 * i, "err": 1.0}}
+                                    for i in range(8)]}, source="eight.toml")
+    with pytest.raises(InputError, match=r"eight.toml: periods of planets 'p\d' and 'p\d' overlap"):
+        direct_draws(sysm, n=500, seed=0)

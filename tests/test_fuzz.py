@@ -69,7 +69,7 @@ plausible = st.one_of(
     st.fixed_dictionaries({"lower": st.floats(0.01, 0.99)}, optional={"cl": st.floats(0.5, 0.999)}),
     st.fixed_dictionaries({"value": st.floats(0.01, 0.99), "unit": units}),
 )
-field_value = st.one_of(plausible, plausible, plausible, quantity)
+field_value = st.one_of(plausible, plausible, plausible, plausible, plausible, plausible, quantity)
 core_planet = st.fixed_dictionaries(
     {"name": st.sampled_from(["b", "c", "d", "e"]),
      "period": st.one_of(st.floats(0.1, 1e4), plausible, quantity)},

@@ -193,10 +193,13 @@ def test_bad_rows_become_rejects_and_counts_reconcile(tmp_path):
     rows[5]["ecc"] = "1.7"                            # row 6 (Sys-02 b): an impossible eccentricity
     rows.append({**rows[3], "system": "", "planet": "orphan"})   # row without a system id
     path = _write_csv(tmp_path / "bad.csv", rows)
+    with open(path, "a") as fh:                       # a row with more cells than the header
+        fh.write("Sys-09,Sys-09 b,1,2,3,4,5,6,7,8,9,10,11,12\n")
     pop, out = _survey(tmp_path, path)
     c = pop["counts"]
     assert c["systems_selected"] == c["systems_analysed"] + c["systems_rejected"] == 6
-    assert c["rows_without_system"] == 1
+    assert c["rows_without_system"] == 1 and c["rows_malformed"] == 1
+    assert c["rows"] == len(rows) + 1
     rej = list(csv.DictReader(io.StringIO((out / "rejects.csv").read_text())))
     reasons = {(r["system"], r["field"]): r for r in rej}
     dup = [r for r in rej if "duplicated row" in r["reason"]]
@@ -206,6 +209,8 @@ def test_bad_rows_become_rejects_and_counts_reconcile(tmp_path):
     ecc = [r for r in rej if r["field"] == "ecc"]
     assert ecc and "must be in [0, 1); got 1.7" in ecc[0]["reason"] and ecc[0]["row"] == "6"
     assert ("", "system") in reasons
+    bad = [r for r in rej if "cells but the header has" in r["reason"]]
+    assert bad and bad[0]["row"] == str(len(rows) + 1)
     # rejected systems do not appear in systems.csv, analysed ones do
     sys_ids = [r["system"] for r in csv.DictReader(io.StringIO((out / "systems.csv").read_text()))]
     assert len(sys_ids) == c["systems_analysed"]

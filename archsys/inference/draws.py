@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..errors import InputError
 from ..physics import kepler, transit
 from ..physics.constants import MEARTH_MSUN
 from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
@@ -62,9 +63,47 @@ def eccentricity_draws(planet, rng, n):
     return np.zeros(n), w, "assumed circular"
 
 
+#: Rounds of redrawing rows whose periods break the planets' period order.
+MAX_ORDER_ROUNDS = 100
+
+
 def direct_draws(system, n=DEFAULT_DRAWS, seed=0) -> Posterior:
-    """Propagate every summary of ``system`` by ``n`` seeded Monte Carlo draws."""
+    """Propagate every summary of ``system`` by ``n`` seeded Monte Carlo draws.
+
+    Planets are labelled by period order (the reader sorts them), so a draw in
+    which an outer planet's period falls below an inner one's is rejected and the
+    whole row redrawn: the draws follow the product of the summaries truncated to
+    ordered periods.  Rows are redrawn only when needed, so systems whose period
+    summaries do not overlap get exactly the draws of a single pass.
+    """
     rng = np.random.default_rng(seed)
+    draws, notes = _draw_rows(system, rng, n)
+    bad = _order_broken(draws["period"])
+    rounds = 0
+    while bad.any() and rounds < MAX_ORDER_ROUNDS:
+        sub, _ = _draw_rows(system, rng, int(bad.sum()))
+        for k, v in draws.items():
+            v[bad] = sub[k]
+        bad = _order_broken(draws["period"])
+        rounds += 1
+    if bad.any():
+        j = int(np.argmax(np.any(np.diff(draws["period"][bad], axis=1) < 0, axis=0)))
+        names = system.planet_names
+        raise InputError(f"periods of planets '{names[j]}' and '{names[j + 1]}' overlap so much that "
+                         f"their order is undetermined; check the period uncertainties",
+                         source=system.source)
+    return Posterior(system, draws, "direct", seed=seed, notes=notes,
+                     sampler={"method": "direct Monte Carlo", "draws": n,
+                              "why": "no joint constraint binds: summaries are independent"})
+
+
+def _order_broken(P):
+    """Rows (draws) where the periods are not in the planets' order, shape (n,)."""
+    return np.any(np.diff(P, axis=1) < 0, axis=1)
+
+
+def _draw_rows(system, rng, n):
+    """One pass of draws for every quantity: (draws dict, notes per planet)."""
     st = system.star
     npl = system.n_planets
     m_star = st.mass.sample(rng, n)
@@ -130,10 +169,12 @@ def direct_draws(system, n=DEFAULT_DRAWS, seed=0) -> Posterior:
             else:
                 mass[:, j] = msini[:, j] / sini
             note["mass"] = "true (m sin i / sin i)"
-            a[:, j] = kepler.a_au(P[:, j], m_star + np.nan_to_num(mass[:, j]))
+            # face-on draws (sin i = 0) have no finite true mass: leave them unknown
+            # and keep the m sin i semi-major axis there
+            mass[:, j] = np.where(np.isfinite(mass[:, j]) & (mass[:, j] > 0), mass[:, j], np.nan)
+            a[:, j] = np.where(np.isfinite(mass[:, j]), kepler.a_au(P[:, j], m_star + np.nan_to_num(mass[:, j])),
+                               a[:, j])
         notes[pl.name] = note
     draws = dict(m_star=m_star, r_star=r_star, rho_star=rho, period=P, a=a, ecc=e, omega=w,
                  msini=msini, mass=mass, inc=inc, node=node)
-    return Posterior(system, draws, "direct", seed=seed, notes=notes,
-                     sampler={"method": "direct Monte Carlo", "draws": n,
-                              "why": "no joint constraint binds: summaries are independent"})
+    return draws, notes

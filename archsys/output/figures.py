@@ -58,7 +58,23 @@ class CornerParam:
 
     @property
     def label(self):
-        return f"${self.symbol}$" if not self.unit else f"${self.symbol}\\,[{self.unit}]$"
+        sym = f"\\log_{{10}}\\,{self.symbol}" if self.log else self.symbol
+        return f"${sym}$" if not self.unit else f"${sym}\\,[{self.unit}]$"
+
+    def axis_label(self, two_lines=False):
+        """The label, optionally with the unit on a second line (narrow corner panels)."""
+        if not (two_lines and self.unit):
+            return self.label
+        sym = f"\\log_{{10}}\\,{self.symbol}" if self.log else self.symbol
+        return f"${sym}$\n$[{self.unit}]$"
+
+    def plotted(self):
+        """Values on the plot axis: log10 of the values for a log parameter."""
+        v = np.asarray(self.values, dtype=float)
+        if not self.log:
+            return v
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(v > 0, np.log10(np.where(v > 0, v, 1.0)), np.nan)
 
 
 @dataclass
@@ -137,6 +153,10 @@ def _col(draws, key, j=None):
     return a[:, j] if a.ndim == 2 and j < a.shape[1] else None
 
 
+#: A positive parameter whose 84th/16th percentile ratio exceeds this is shown as log10.
+LOG_SPREAD = 5.0
+
+
 def _spread(x):
     x = x[np.isfinite(x) & (x > 0)]
     if x.size < 10:
@@ -174,17 +194,19 @@ def planet_parameters(draws, document, j):
         out.append(CornerParam(f"omega_{j}", f"\\omega_{{{x}}}", "^\\circ", _compact_angle(np.degrees(w))))
     inc = _col(draws, "inc", j)
     if "inclination_deg" in pl and inc is not None:
-        out.append(CornerParam(f"inc_{j}", f"i_{{{x}}}", "^\\circ", np.degrees(inc)))
+        v = np.degrees(inc)
+        out.append(CornerParam(f"inc_{j}", f"i_{{{x}}}", "^\\circ", v, log=_spread(v) > LOG_SPREAD))
     psi = _col(draws, "psi", j)
     if psi is not None and np.isfinite(psi).any():
-        out.append(CornerParam(f"psi_{j}", f"\\psi_{{{x}}}", "^\\circ", np.degrees(psi)))
+        v = np.degrees(psi)
+        out.append(CornerParam(f"psi_{j}", f"\\psi_{{{x}}}", "^\\circ", v, log=_spread(v) > LOG_SPREAD))
     m, ms = _col(draws, "mass", j), _col(draws, "msini", j)
     if "mass_mearth" in pl and m is not None:
         v = m / MEARTH_MSUN
-        out.append(CornerParam(f"mass_{j}", f"m_{{{x}}}", "M_\\oplus", v, log=_spread(v) > 3.0))
+        out.append(CornerParam(f"mass_{j}", f"m_{{{x}}}", "M_\\oplus", v, log=_spread(v) > LOG_SPREAD))
     elif "msini_mearth" in pl and ms is not None:
         v = ms / MEARTH_MSUN
-        out.append(CornerParam(f"msini_{j}", f"m_{{{x}}}\\sin i", "M_\\oplus", v, log=_spread(v) > 3.0))
+        out.append(CornerParam(f"msini_{j}", f"m_{{{x}}}\\sin i", "M_\\oplus", v, log=_spread(v) > LOG_SPREAD))
     return out
 
 
@@ -196,15 +218,14 @@ def _mutual_inclination(i1, i2, n1, n2):
 
 def system_parameters(draws, document):
     """System corner parameters: σ (mutual-inclination dispersion), adjacent mutual
-    inclinations (where sky inclinations and nodes are both known) and masses."""
+    inclinations Φ (where sky inclinations and nodes are both known) and masses."""
     out = []
     sig = _col(draws, "sigma_mutual")
     if sig is not None and np.isfinite(sig).any():
         out.append(CornerParam("sigma_mutual", "\\sigma_\\mathrm{mut}", "^\\circ", np.degrees(sig),
-                               log=_spread(np.degrees(sig)) > 3.0))
+                               log=_spread(np.degrees(sig)) > LOG_SPREAD))
     planets = document.get("planets", [])
     sysname = document.get("system")
-    inc, node = _col(draws, "inc", 0), _col(draws, "node", 0)
     for j in range(len(planets) - 1):
         i1, i2 = _col(draws, "inc", j), _col(draws, "inc", j + 1)
         n1, n2 = _col(draws, "node", j), _col(draws, "node", j + 1)
@@ -217,9 +238,8 @@ def system_parameters(draws, document):
         phi[ok] = np.degrees(_mutual_inclination(i1[ok], i2[ok], n1[ok], n2[ok]))
         x1 = _letter(planets[j]["name"], sysname)
         x2 = _letter(planets[j + 1]["name"], sysname)
-        out.append(CornerParam(f"imut_{j}", f"i_{{{_mathrm(x1 + x2)}}}", "^\\circ", phi,
-                               log=_spread(phi) > 3.0))
-    del inc, node
+        out.append(CornerParam(f"imut_{j}", f"\\Phi_{{{_mathrm(x1 + x2)}}}", "^\\circ", phi,
+                               log=_spread(phi) > LOG_SPREAD))
     for j, pl in enumerate(planets):
         for p in planet_parameters(draws, document, j):
             if p.name.startswith(("mass_", "msini_")):
@@ -258,16 +278,30 @@ def _value_line(p, x):
     return f"${p.symbol} = {v}{err}{unit}$"
 
 
-def _prior_curve(prior, lo, hi):
-    x = np.linspace(lo, hi, 400)
+def _to_axis(v, log):
+    if v is None:
+        return None
+    return math.log10(v) if log and v > 0 else (None if log else v)
+
+
+def _prior_curve(prior, lo, hi, log=False):
+    """(x, density) of a prior on the plotted axis [lo, hi]; log axes carry log10 of the value.
+
+    The density of u = log10 x is p(x) x ln 10.
+    """
+    u = np.linspace(lo, hi, 400)
+    x = 10.0 ** u if log else u
+    jac = x * math.log(10.0) if log else 1.0
     if hasattr(prior, "logpdf"):
-        return x, np.exp(np.asarray(prior.logpdf(x), dtype=float))
+        return u, np.exp(np.asarray(prior.logpdf(x), dtype=float)) * jac
     if callable(prior):
-        return x, np.asarray(prior(x), dtype=float)
+        return u, np.asarray(prior(x), dtype=float) * jac
     s = np.asarray(prior, dtype=float)
     s = s[np.isfinite(s)]
-    dens, edges = np.histogram(s, bins=40, range=(lo, hi), density=False)
-    dens = dens / (s.size * np.diff(edges))
+    if log:
+        s = np.log10(s[s > 0])
+    dens, edges = np.histogram(s, bins=40, range=(lo, hi))
+    dens = dens / (max(s.size, 1) * np.diff(edges))
     return np.repeat(edges, 2)[1:-1], np.repeat(dens, 2)
 
 
@@ -299,8 +333,10 @@ def corner_figure(params, truths=None, priors=None, preset=None, fig=None, title
                          + (f" (skipped: {', '.join(f'{a} {b}' for a, b in skipped)})" if skipped else ""))
     p = get_preset(preset)
     K = len(kept)
-    data = np.column_stack([np.asarray(q.values, dtype=float) for q in kept])
-    data = data[np.all(np.isfinite(data), axis=1)]
+    data = np.column_stack([q.plotted() for q in kept])
+    ok = np.all(np.isfinite(data), axis=1)
+    data = data[ok]
+    linear = np.column_stack([np.asarray(q.values, dtype=float) for q in kept])[ok]
     if data.shape[0] < 10:
         raise InputError(f"corner plot: only {data.shape[0]} draws have every parameter defined")
     rng_ = []
@@ -308,40 +344,42 @@ def corner_figure(params, truths=None, priors=None, preset=None, fig=None, title
         lo, hi = np.quantile(data[:, k], (0.001, 0.999))
         if hi <= lo:
             lo, hi = data[:, k].min(), data[:, k].max()
-        pad = 0.02 * (hi - lo) if not q.log else 0.0
+        pad = 0.02 * (hi - lo)
         rng_.append((lo - pad, hi + pad))
     bins = int(np.clip(np.sqrt(data.shape[0]) / 2.2, 10, 30))
+    panel_in = p.width_in / K
+    two = panel_in < 1.0 and any(q.unit for q in kept)      # unit on its own line in narrow panels
+    label_pt = p.font_pt if panel_in >= 0.8 else max(p.small_pt - 0.5, p.font_pt - 1.5)
     with matplotlib.rc_context(rc_params(p)):
         rc_minor = {"xtick.minor.visible": False, "ytick.minor.visible": False}
         with matplotlib.rc_context(rc_minor):
             fig = _new_figure(p, p.width_in, fig)
             tv = None
             if truths:
-                tv = [truths.get(q.name) for q in kept]
+                tv = [_to_axis(truths.get(q.name), q.log) for q in kept]
             corner.corner(
-                data, fig=fig, labels=[q.label for q in kept], range=rng_, bins=bins,
-                axes_scale=["log" if q.log else "linear" for q in kept],
+                data, fig=fig, labels=[q.axis_label(two) for q in kept], range=rng_, bins=bins,
                 levels=CONTOUR_LEVELS, quantiles=list(QUANTILES), color=PALETTE["blue"],
                 truths=tv, truth_color=PALETTE["vermillion"], max_n_ticks=3, plot_datapoints=True,
                 data_kwargs={"ms": 1.0, "alpha": 0.25, "color": "#555555"},
                 pcolor_kwargs={"rasterized": True},
                 contour_kwargs={"linewidths": 0.8 * p.line_width},
                 hist_kwargs={"density": True, "linewidth": 0.9 * p.line_width},
-                label_kwargs={"fontsize": p.font_pt}, labelpad=0.0, use_math_text=True)
+                label_kwargs={"fontsize": label_pt, "linespacing": 1.1}, labelpad=0.0, use_math_text=True)
         axes = np.array(fig.axes).reshape(K, K)
-        _layout_corner(fig, axes, p, K, [q.log for q in kept])
+        _layout_corner(fig, axes, p, K, two)
         if priors:
             for k, q in enumerate(kept):
                 if q.name in priors and priors[q.name] is not None:
                     ax = axes[k, k]
                     lo, hi = ax.get_xlim()
-                    xs, ys = _prior_curve(priors[q.name], lo, hi)
+                    xs, ys = _prior_curve(priors[q.name], lo, hi, q.log)
                     ok = np.isfinite(ys)
                     ax.plot(xs[ok], ys[ok], color=PALETTE["orange"], ls=(0, (3, 1.5)), lw=0.9 * p.line_width)
                     top = ax.get_ylim()[1]
                     peak = np.nanmax(ys[ok]) if ok.any() else 0.0
                     ax.set_ylim(0, max(top, min(1.05 * peak, 3 * top)))
-        _corner_legend(fig, axes, kept, data, skipped, p, title, bool(truths), bool(priors))
+        _corner_legend(fig, axes, kept, linear, skipped, p, title, bool(truths), bool(priors))
     return fig
 
 
@@ -355,17 +393,16 @@ class _InnerTicks(matplotlib.ticker.MaxNLocator):
         return [t for t in super().__call__() if lo + m <= t <= hi - m]
 
 
-def _layout_corner(fig, axes, p, K, kept_log):
+def _layout_corner(fig, axes, p, K, two_lines=False):
     """Margins, tick density and label positions sized for the preset (corner's own assume 2 in panels)."""
     w = fig.get_size_inches()[0]
-    left = (0.62 if K > 1 else 0.30) * p.font_pt / 8.0
-    bottom = 0.55 * p.font_pt / 8.0
+    extra = 0.09 if two_lines else 0.0
+    left = ((0.62 + extra) if K > 1 else 0.30) * p.font_pt / 8.0
+    bottom = (0.55 + extra) * p.font_pt / 8.0
     fig.subplots_adjust(left=left / w, bottom=bottom / w, right=1 - 0.08 / w, top=1 - 0.08 / w,
                         wspace=0.06, hspace=0.06)
     n_ticks = 3 if K > 2 else 4
     for k in range(K):
-        if kept_log[k]:
-            continue
         for r in range(k, K):               # column k shares parameter k on x
             axes[r, k].xaxis.set_major_locator(_InnerTicks(n_ticks))
         for c in range(k):                  # row k shows parameter k on y
@@ -451,10 +488,13 @@ def architecture_figure(results, preset=None, fig=None):
         raise InputError("architecture figure: no systems given")
     p = get_preset(preset)
     n = len(docs)
-    row_in = 0.50 * p.font_pt / 8.0
-    height = n * row_in + 1.25 * p.font_pt / 8.0
+    row_in = 0.55 * p.font_pt / 8.0
+    height = n * row_in + 0.55 * p.font_pt / 8.0
     with matplotlib.rc_context(rc_params(p)):
+        resize = fig is None
         fig = _new_figure(p, height, fig)
+        if not resize:
+            height = fig.get_size_inches()[1]
         ax = fig.add_subplot(111)
         xs = []
         used = set()
@@ -475,8 +515,9 @@ def architecture_figure(results, preset=None, fig=None):
                 xs += [a * (1 - e), a * (1 + e)]
                 if m is not None:
                     rh = a * (m * MEARTH_MSUN / (3.0 * mstar)) ** (1.0 / 3.0)
-                    ax.add_patch(matplotlib.patches.Rectangle((a - rh, y - 0.13), 2 * rh, 0.26, lw=0,
-                                                              facecolor="#d9d9d9", zorder=1))
+                    yh = y - 0.17
+                    ax.plot([a - rh, a - rh, a + rh, a + rh], [yh + 0.05, yh, yh, yh + 0.05], color=HILL_GREY,
+                            lw=0.8 * p.line_width, solid_joinstyle="miter", zorder=3)
                     xs += [a - rh, a + rh]
                     used.add("hill")
                 if e > 0:
@@ -501,7 +542,7 @@ def architecture_figure(results, preset=None, fig=None):
                 st = VERDICT_STYLES[key]
                 x1, x2 = pos[q_i], pos[q_i + 1]
                 gap = (x2 / x1) ** 0.08            # leave a visible gap between neighbouring pairs
-                ax.plot([x1 * gap, x2 / gap], [y - 0.30, y - 0.30], color=st["color"], ls=st["linestyle"],
+                ax.plot([x1 * gap, x2 / gap], [y - 0.34, y - 0.34], color=st["color"], ls=st["linestyle"],
                         lw=1.5 * p.line_width, solid_capstyle="butt", zorder=3)
                 used.add(key)
         xs = np.array([x for x in xs if x > 0])
@@ -509,7 +550,7 @@ def architecture_figure(results, preset=None, fig=None):
         span = max(np.log10(hi / lo), 0.3)
         ax.set_xscale("log")
         ax.set_xlim(lo / 10 ** (0.08 * span), hi * 10 ** (0.08 * span))
-        ax.set_ylim(-0.6, n - 0.35)
+        ax.set_ylim(-0.55, n - 0.5)
         ax.set_yticks(range(n))
         ax.set_yticklabels([d.get("system", "?") for d in docs][::-1])
         ax.tick_params(axis="y", which="both", length=0, right=False)
@@ -521,11 +562,12 @@ def architecture_figure(results, preset=None, fig=None):
         ax.set_xlabel(r"semi-major axis $a$ [au]")
         for yy in np.arange(0.5, n - 0.5):
             ax.axhline(yy, color="#bbbbbb", lw=0.5, zorder=0)
-        _architecture_legend(fig, ax, p, used, height, masses)
+        _architecture_legend(fig, ax, p, used, height, masses, resize)
     return fig
 
 
 GREY_EDGE = "#777777"
+HILL_GREY = "#4d4d4d"
 
 
 def _plain_tick(v, _pos=None):
@@ -542,7 +584,7 @@ def _minor_tick(v, _pos=None):
     return _plain_tick(v) if round(mant) in (2, 5) and abs(mant - round(mant)) < 1e-6 else ""
 
 
-def _architecture_legend(fig, ax, p, used, height, used_masses=()):
+def _architecture_legend(fig, ax, p, used, height, used_masses=(), resize=True):
     h = []
     if "true" in used:
         h.append(Line2D([], [], marker="o", ls="none", mfc=PALETTE["blue"], mec=PALETTE["blue"], ms=5,
@@ -555,7 +597,7 @@ def _architecture_legend(fig, ax, p, used, height, used_masses=()):
     if "orbit" in used:
         h.append(Line2D([], [], color=PALETTE["sky_blue"], lw=2.2 * p.line_width, label=r"$a(1\pm e)$"))
     if "hill" in used:
-        h.append(matplotlib.patches.Patch(facecolor="#d9d9d9", label=r"$a\pm R_\mathrm{H}$"))
+        h.append(Line2D([], [], color=HILL_GREY, lw=0.8 * p.line_width, label=r"$a\pm R_\mathrm{H}$"))
     for key in ("stable", "uncertain", "unstable", "unknown"):
         if key in used:
             st = VERDICT_STYLES[key]
@@ -563,18 +605,27 @@ def _architecture_legend(fig, ax, p, used, height, used_masses=()):
                             label=st["label"]))
     masses = sorted(used_masses) or [1.0]
     sizes = [m for m in (1, 10, 100, 1000, 10000) if masses[0] / 4 <= m <= masses[-1] * 4] or [1]
-    for m in sizes:
-        h.append(Line2D([], [], marker="o", ls="none", mfc="#bbbbbb", mec="#bbbbbb", ms=_marker_pt(m, p),
-                        label=f"{m:g} $M_\\oplus$"))
-    ncol = 4 if p.width_in < 5 else 7
-    leg_in = (math.ceil(len(h) / ncol) * 1.5 * p.small_pt) / 72.0 + 0.05
+    hs = [Line2D([], [], marker="o", ls="none", mfc="#bbbbbb", mec="#bbbbbb", ms=_marker_pt(m, p),
+                 label=f"{m:g} $M_\\oplus$") for m in sizes]
+    ncol = 3 if p.width_in < 5 else 6
+    row_pt = 1.45 * p.small_pt
+    size_pt = max(row_pt, 1.15 * _marker_pt(sizes[-1], p))
+    leg_in = (math.ceil(len(h) / ncol) * row_pt + size_pt) / 72.0 + 0.08
     bottom_in = 0.42 * p.font_pt / 8.0 + leg_in
     left_in = 0.78 * p.font_pt / 8.0
+    if resize:
+        height = height + leg_in
+        fig.set_size_inches(p.width_in, height)
     fig.subplots_adjust(left=left_in / p.width_in, right=1 - 0.1 / p.width_in,
                         bottom=bottom_in / height, top=1 - 0.08 / height)
-    fig.legend(handles=h, loc="lower center", ncol=ncol, fontsize=p.small_pt - 1, frameon=False,
-               handlelength=1.8, columnspacing=1.0, handletextpad=0.4, borderaxespad=0.1,
-               bbox_to_anchor=(0.5 + 0.5 * left_in / p.width_in - 0.05 / p.width_in, 0.0))
+    xc = 0.5 + 0.5 * left_in / p.width_in - 0.05 / p.width_in
+    common = dict(frameon=False, fontsize=p.small_pt - 1, handletextpad=0.4, borderaxespad=0.0,
+                  columnspacing=1.2)
+    leg = fig.legend(handles=h, loc="lower center", ncol=ncol, handlelength=1.8,
+                     bbox_to_anchor=(xc, (size_pt + 4) / 72.0 / height), **common)
+    fig.add_artist(leg)
+    fig.legend(handles=hs, loc="lower center", ncol=len(hs), handlelength=max(1.0, 0.8 * size_pt / p.small_pt),
+               bbox_to_anchor=(xc, 0.02 / height), title=None, **common)
 
 
 # --- period ratios ----------------------------------------------------------
@@ -621,7 +672,9 @@ def period_ratio_figure(results, preset=None, fig=None, max_order=3):
         pad = max(0.06 * (hi - lo), 0.03 * hi)
         x0, x1 = max(1.0, lo - pad), hi + pad
     with matplotlib.rc_context(rc_params(p)):
+        resize = fig is None
         fig = _new_figure(p, height, fig)
+        height = fig.get_size_inches()[1]
         top_in = 0.42 * p.font_pt / 8.0
         bottom_in = 0.40 * p.font_pt / 8.0
         multi = len(docs) > 1
@@ -633,13 +686,20 @@ def period_ratio_figure(results, preset=None, fig=None, max_order=3):
             ax.set_xscale("log")
         ax.set_xlim(x0, x1)
         ax.set_ylim(-0.7, n - 0.3)
-        res = resonances_between(x0, x1, max_order=max_order)
+        res = _thin_resonances(fig, ax, resonances_between(x0, x1, max_order=max_order), p)
         used_orders = set()
         for num, den, k in res:
             st = ORDER_STYLES[k]
             ax.axvline(num / den, color=st["color"], ls=st["linestyle"], lw=st["linewidth"], zorder=1)
             used_orders.add(k)
-        _label_resonances(fig, ax, res, p)
+        tiers = _label_resonances(fig, ax, res, p, [r[2] for r in rows])
+        if tiers > 1:                        # room for the second tier of labels
+            extra = 1.25 * (p.small_pt - 1) / 72.0
+            if resize:
+                height += extra
+                fig.set_size_inches(p.width_in, height)
+            top_in += extra
+            fig.subplots_adjust(bottom=bottom_in / height, top=1 - top_in / height)
         for y, (si, name, med, rlo, rhi) in zip(range(n - 1, -1, -1), rows):
             c = CYCLE[si % len(CYCLE)]
             mk = "osD^v<>"[si % 7]
@@ -651,35 +711,66 @@ def period_ratio_figure(results, preset=None, fig=None, max_order=3):
         ax.tick_params(axis="y", which="both", length=0, right=False, left=False)
         ax.yaxis.set_minor_locator(matplotlib.ticker.NullLocator())
         if logx:
+            nice = [v for v in (1, 1.5, 2, 3, 5, 10, 20, 30, 50, 100, 200, 500, 1000) if x0 <= v <= x1]
+            if len(nice) > 7:
+                nice = [v for v in nice if v in (1, 2, 5, 10, 20, 50, 100, 200, 500, 1000)]
+            ax.xaxis.set_major_locator(matplotlib.ticker.FixedLocator(nice))
             ax.xaxis.set_major_formatter(matplotlib.ticker.FuncFormatter(lambda v, _: f"{v:g}"))
             ax.xaxis.set_minor_formatter(matplotlib.ticker.NullFormatter())
         ax.set_xlabel(r"period ratio $P_\mathrm{out}/P_\mathrm{in}$")
         h = [Line2D([], [], color=ORDER_STYLES[k]["color"], ls=ORDER_STYLES[k]["linestyle"],
                     lw=ORDER_STYLES[k]["linewidth"], label=ORDER_STYLES[k]["label"]) for k in sorted(used_orders)]
         if h:
-            ax.legend(handles=h, loc="lower center", bbox_to_anchor=(0.5, 1.0 + 0.27 / (height * (1 - (top_in + bottom_in) / height))),
-                      ncol=len(h), fontsize=p.small_pt - 1, frameon=False, borderaxespad=0.0,
-                      handlelength=2.4, columnspacing=1.2)
+            fig.legend(handles=h, loc="upper center", bbox_to_anchor=(0.5, 1.0 - 0.02 / height),
+                       ncol=len(h), fontsize=p.small_pt - 1, frameon=False, borderaxespad=0.0,
+                       handlelength=2.4, columnspacing=1.2)
         else:
             ax.text(0.98, 0.04, f"no resonance of order ≤ {max_order} in range", transform=ax.transAxes,
                     ha="right", va="bottom", fontsize=p.small_pt - 1, color="#555555")
     return fig
 
 
-def _label_resonances(fig, ax, res, p):
-    """Labels 'p:q' above the axes; lower orders first, skipping labels that would overlap."""
-    fig.canvas.draw()
+def _thin_resonances(fig, ax, res, p):
+    """Drop second- and third-order lines closer than ~1 pt to a line already kept (wide log ranges)."""
     trans = ax.transData
-    placed = []
-    width_px = 0.9 * p.small_pt * 2.2 * fig.dpi / 72.0
-    for num, den, k in sorted(res, key=lambda r: (r[2], r[1])):
-        xpix = trans.transform((num / den, 0))[0]
-        if any(abs(xpix - x) < width_px for x in placed):
+    min_px = 1.2 * fig.dpi / 72.0
+    kept, xs = [], []
+    for r in sorted(res, key=lambda r: (r[2], r[1])):
+        xpix = trans.transform((r[0] / r[1], 0))[0]
+        if r[2] > 1 and any(abs(xpix - x) < min_px for x in xs):
             continue
-        placed.append(xpix)
-        ax.annotate(f"{num}:{den}", (num / den, 1.0), xycoords=("data", "axes fraction"), xytext=(0, 2),
+        kept.append(r)
+        xs.append(xpix)
+    return sorted(kept, key=lambda r: r[0] / r[1])
+
+
+def _label_resonances(fig, ax, res, p, medians=()):
+    """Labels 'p:q' above the axes, skipping labels that would overlap.
+
+    Priority: resonance order, then closeness to a measured period ratio, so the
+    resonances next to the data are the ones named.
+    """
+    trans = ax.transData
+    width_px = 0.55 * (p.small_pt - 1) * 3.2 * fig.dpi / 72.0       # about three characters wide
+
+    def near(r):
+        x = r[0] / r[1]
+        return min((abs(math.log(x / m)) for m in medians if m > 0), default=0.0)
+
+    placed = [[], []]                        # two tiers of labels
+    for num, den, k in sorted(res, key=lambda r: (r[2], near(r))):
+        xpix = trans.transform((num / den, 0))[0]
+        for tier in (0, 1):
+            if not any(abs(xpix - x) < 1.15 * width_px for x in placed[tier]):
+                break
+        else:
+            continue
+        placed[tier].append(xpix)
+        dy = 2 + tier * 1.25 * (p.small_pt - 1)
+        ax.annotate(f"{num}:{den}", (num / den, 1.0), xycoords=("data", "axes fraction"), xytext=(0, dy),
                     textcoords="offset points", ha="center", va="bottom", fontsize=p.small_pt - 1,
                     color=ORDER_STYLES[k]["color"] if k < 3 else "#555555")
+    return 2 if placed[1] else 1
 
 
 # --- the figure set of one analysis ------------------------------------------
@@ -692,8 +783,8 @@ def make_figures(draws, document, preset=None, truths=None, priors=None):
     p = get_preset(preset)
     name = document.get("system", "system")
     items = [FigureItem("architecture", architecture_figure([document], preset=p),
-                        f"Architecture of {name}: planets at their semi-major axes; bars a(1±e); grey boxes "
-                        "a ± R_H; marker size grows with mass (open: minimum mass); segments: Hill-stability "
+                        f"Architecture of {name}: planets at their semi-major axes; bars a(1±e); brackets "
+                        "a ± R_H (Hill radius); marker size grows with mass (open: minimum mass); segments: Hill-stability "
                         "verdict of each adjacent pair (Gladman 1993).", p)]
     if document.get("pairs"):
         items.append(FigureItem("period_ratios", period_ratio_figure([document], preset=p),
@@ -713,6 +804,10 @@ def make_figures(draws, document, preset=None, truths=None, priors=None):
         fig = corner_figure(kept, truths=truths, priors=priors, preset=p)
         fname = "corner_system" if key == "system" else key
         cap = (f"Posterior of {label}: " + ", ".join(_plain(q) for q in kept) + ". " + CONTOUR_NOTE + ".")
+        if any(q.name.startswith("imut_") for q in kept):
+            cap += " Φ: mutual inclination of adjacent orbits, from sky inclinations and nodes."
+        if any(q.log for q in kept):
+            cap += " Parameters spanning a wide range are shown as log10."
         if skipped:
             cap += " Skipped: " + ", ".join(f"{_plain_label(a)} ({b})" for a, b in skipped) + "."
         items.append(FigureItem(fname, fig, cap, p))
@@ -720,6 +815,7 @@ def make_figures(draws, document, preset=None, truths=None, priors=None):
 
 
 def _plain_label(label):
+    label = label.replace("M_\\oplus", "M⊕").replace("\\log_{10}\\,", "log10 ").replace("\\Phi", "Φ")
     label = label.replace("\\oplus", "⊕").replace("^\\circ", "°").replace("\\sigma", "σ").replace(
         "\\omega", "ω").replace("\\psi", "ψ").replace("\\sin", "sin")
     return (label.replace("$", "").replace("\\mathrm", "").replace("\\,", " ").replace("\\", "")

@@ -182,7 +182,7 @@ def format_cell(value, key="", scale=1.0):
     if isinstance(value, (int, float)):
         if isinstance(value, float) and not math.isfinite(value):
             return ("none",)
-        if key.endswith("probability"):
+        if "probability" in key:
             return ("percent", _pct(float(value)))
         if isinstance(value, int):
             return ("number", str(value * scale if scale != 1 else value))

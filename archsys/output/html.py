@@ -44,7 +44,10 @@ tbody tr:nth-child(odd) { background: var(--band); }
 .good { background: var(--good); } .mid { background: var(--mid); color: #1d232b; } .bad { background: var(--bad); }
 ul.verdicts { padding-left: 1.2rem; } ul.verdicts li { margin: .25rem 0; }
 ul.notes { color: var(--muted); font-size: .88rem; padding-left: 1.2rem; }
-.figs { display: grid; grid-template-columns: repeat(auto-fill, minmax(22rem, 1fr)); gap: 1.5rem; }
+.figs { display: grid; grid-template-columns: repeat(auto-fill, minmax(30rem, 1fr)); gap: 1.5rem; }
+table.kv td.text { white-space: normal; text-align: left; max-width: 34rem; }
+table.kv th { white-space: normal; max-width: 22rem; }
+table.kv th, table.kv td { vertical-align: top; }
 figure { margin: 0; } figure img { width: 100%%; height: auto; border: 1px solid var(--rule); }
 figcaption { font-size: .85rem; color: var(--muted); margin-top: .35rem; }
 dl { display: grid; grid-template-columns: max-content 1fr; gap: .2rem 1rem; font-size: .88rem; }
@@ -93,10 +96,11 @@ def _table(table, raw_rows, caption):
 
 
 def _kv_table(rows, raw):
-    out = ['<div class="scroll"><table>', "<thead><tr><th scope=\"col\">quantity</th><th scope=\"col\">value"
-           "</th><th scope=\"col\">unit</th></tr></thead>", "<tbody>"]
+    out = ['<div class="scroll"><table class="kv">', "<thead><tr><th scope=\"col\">quantity</th><th scope=\"col\">"
+           "value</th><th scope=\"col\">unit</th></tr></thead>", "<tbody>"]
     for col, cell in rows:
-        out.append(f"<tr><th scope=\"row\">{escape(col.label)}</th><td>{html_cell(cell, col.key, raw.get(col.key))}"
+        cls = ' class="text"' if cell[0] == "text" else ""
+        out.append(f"<tr><th scope=\"row\">{escape(col.label)}</th><td{cls}>{html_cell(cell, col.key, raw.get(col.key))}"
                    f"</td><td style=\"text-align:left\">{escape(col.unit)}</td></tr>")
     out.append("</tbody></table></div>")
     return out

@@ -91,17 +91,25 @@ def _tabular(table, caption, label, notes=()):
         L.append(" & ".join(latex_cell(c) for c in row) + " \\\\")
     L += ["\\hline", "\\end{tabular}"]
     if notes:
-        L += ["\\par\\smallskip", "{\\footnotesize " + " ".join(escape(n) for n in notes) + "}"]
+        L += ["\\par\\smallskip", "{\\footnotesize\\raggedright " + " ".join(escape(n) for n in notes) + "\\par}"]
     L.append(f"\\end{{{env}}}")
     return L
 
 
 def _kv_tabular(rows, caption, label):
-    L = ["\\begin{table}", "\\centering", f"\\caption{{{caption}}}", f"\\label{{{label}}}",
-         "\\begin{tabular}{lcc}", "\\hline", "Quantity & Value & Unit \\\\", "\\hline"]
+    """Quantity | value | unit; descriptive text values go to notes under the table."""
+    L = ["\\begin{table}", "\\centering", "\\renewcommand{\\arraystretch}{1.25}", f"\\caption{{{caption}}}",
+         f"\\label{{{label}}}", "\\begin{tabular}{lcc}", "\\hline", "Quantity & Value & Unit \\\\", "\\hline"]
+    notes = []
     for col, cell in rows:
+        if cell[0] == "text" and len(cell[1]) > 24:
+            notes.append(f"{col.latex}: {escape(cell[1])}.")
+            continue
         L.append(f"{col.latex} & {latex_cell(cell)} & {col.unit_latex} \\\\")
-    L += ["\\hline", "\\end{tabular}", "\\end{table}"]
+    L += ["\\hline", "\\end{tabular}"]
+    if notes:
+        L += ["\\par\\smallskip", "{\\footnotesize\\raggedright " + " ".join(notes) + "\\par}"]
+    L.append("\\end{table}")
     return L
 
 

@@ -59,7 +59,7 @@ def compute_scores(post, options=None) -> dict:
         }
         if amd_res is not None:
             beta = amd_res[0][:, j]
-            ok = np.isfinite(beta)
+            ok = ~np.isnan(beta)          # beta = inf (zero critical AMD) counts as unstable
             entry["amd_beta"] = summarize(beta)
             entry["amd_stable_probability"] = probability(beta[ok] < 1.0) if ok.any() else None
         if "mutual_inclination" in arr:
@@ -76,7 +76,7 @@ def compute_scores(post, options=None) -> dict:
             probability(np.all(margins[known] > 0, axis=1)) if known.any() else None)
         if amd_res is not None:
             beta, beta_star = amd_res
-            ok = np.isfinite(beta_star)
+            ok = ~np.isnan(beta_star)
             system["amd"] = {
                 "system_stable_probability": probability(np.all(beta[ok] < 1, axis=1) & (beta_star[ok] < 1))
                 if ok.any() else None,

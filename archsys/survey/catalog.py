@@ -10,6 +10,9 @@ system instead of the whole column ("mixed types").  Empty cells and the
 tokens ``nan``, ``NaN``, ``null``, ``NULL``, ``NA``, ``N/A``, ``--`` mean
 "unknown" (common practice).  ECSV and VOTable columns keep their units.
 
+A CSV line with more cells than the header is not guessed at: it is kept as a
+"malformed" row, reported in ``rejects.csv`` and belongs to no system.
+
 Row numbers are 1-based data rows (the header is not counted): row 1 is the
 first planet, which is line 2 of a CSV file with one header line.
 
@@ -71,6 +74,7 @@ class Catalog:
     columns: list
     cells: dict
     units: dict = field(default_factory=dict)   # column -> unit string (ECSV/VOTable)
+    malformed: list = field(default_factory=list)   # (row, reason) of rows that could not be read
 
     @property
     def n_rows(self) -> int:
@@ -132,16 +136,17 @@ def _read_csv(path: pathlib.Path, blob: bytes):
     except StopIteration:
         raise InputError(f"{path}: file is empty") from None
     header = [h.strip() for h in header]
-    rows = []
+    rows, malformed = [], []
     for lineno, rec in enumerate(reader, start=2):
         if not rec or all(not c.strip() for c in rec):
             continue
-        if len(rec) > len(header):
-            raise InputError(f"{path}: line {lineno} has {len(rec)} cells but the header has "
-                             f"{len(header)} columns; check the quoting of that line")
+        if len(rec) > len(header):      # a bad row is reported, never guessed at
+            malformed.append((lineno - 1, f"line {lineno} has {len(rec)} cells but the header has "
+                                          f"{len(header)} columns; check the quoting of that line"))
+            rec = [""] * len(header)
         rows.append(rec + [""] * (len(header) - len(rec)))
     cols = {h: [_clean(r[j]) for r in rows] for j, h in enumerate(header)}
-    return header, cols, {}
+    return header, cols, {}, malformed
 
 
 def _read_astropy(path: pathlib.Path, fmt: str):
@@ -162,7 +167,7 @@ def _read_astropy(path: pathlib.Path, fmt: str):
         cols[c] = [_clean(v) for v in vals]
         if col.unit is not None and str(col.unit):
             units[c] = col.unit.to_string()
-    return header, cols, units
+    return header, cols, units, []
 
 
 def _read_parquet(path: pathlib.Path):
@@ -175,7 +180,7 @@ def _read_parquet(path: pathlib.Path):
         raise InputError(f"{path}: cannot read as Parquet: {type(exc).__name__}: {exc}") from None
     header = [str(c) for c in df.columns]
     cols = {str(c): [_clean(v) for v in df[c].tolist()] for c in df.columns}
-    return header, cols, {}
+    return header, cols, {}, []
 
 
 def read_catalog(path) -> Catalog:
@@ -203,11 +208,11 @@ def read_catalog(path) -> Catalog:
     if not blob.strip():
         raise InputError(f"{path}: file is empty")
     if fmt == "csv":
-        header, cols, units = _read_csv(p, blob)
+        header, cols, units, malformed = _read_csv(p, blob)
     elif fmt == "parquet":
-        header, cols, units = _read_parquet(p)
+        header, cols, units, malformed = _read_parquet(p)
     else:
-        header, cols, units = _read_astropy(p, fmt)
+        header, cols, units, malformed = _read_astropy(p, fmt)
     seen = set()
     for j, h in enumerate(header, start=1):
         if not h:
@@ -216,7 +221,7 @@ def read_catalog(path) -> Catalog:
             raise InputError(f"{path}: column '{h}' appears twice in the header")
         seen.add(h)
     return Catalog(path=str(path), name=p.name, sha256=hashlib.sha256(blob).hexdigest(),
-                   columns=header, cells=cols, units=units)
+                   columns=header, cells=cols, units=units, malformed=malformed)
 
 
 def group_systems(cat: Catalog, system_col: str):
@@ -225,11 +230,14 @@ def group_systems(cat: Catalog, system_col: str):
     Returns
     -------
     systems : list of SystemRows, sorted by system id (rows in table order)
-    orphans : list of int, 1-based rows whose system cell is empty
+    orphans : list of int, 1-based rows whose system cell is empty (malformed rows excluded)
     """
     groups, orphans = {}, []
     ids = cat.cells[system_col]
+    bad = {r for r, _ in cat.malformed}
     for i, sid in enumerate(ids):
+        if i + 1 in bad:
+            continue
         if sid is None:
             orphans.append(i + 1)
             continue

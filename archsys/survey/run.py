@@ -426,10 +426,13 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, w
     planets = store.rows("planets", ids)
     rejects = [{"system": "", "planet": "", "row": r, "field": "system", "column": cmap.system,
                 "reason": f"row has no system id in column '{cmap.system}'"} for r in orphans]
+    rejects += [{"system": "", "planet": "", "row": r, "field": "", "column": "", "reason": why}
+                for r, why in cat.malformed]
     rejects += store.rejects(ids)
     kinds = [k for _, st, _, k, _ in status if st != "ok"]
     counts = {
         "rows": cat.n_rows, "systems_in_catalogue": len(groups), "rows_without_system": len(orphans),
+        "rows_malformed": len(cat.malformed),
         "systems_selected": len(selected), "systems_analysed": len(ok_rows),
         "systems_rejected": len(status) - len(ok_rows),
         "rejected_input": kinds.count("input"), "rejected_analysis_error": kinds.count("analysis"),
