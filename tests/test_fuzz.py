@@ -215,3 +215,45 @@ def test_fuzz_reaches_valid_systems():
     doc = {"name": "F", "star": {"mass": 1.0}, "planet": [{"name": "b", "period": 3.0, "ecc": {"upper": 0.3}}]}
     assert _parse(build_system, doc, "<fuzz>") is not None
     assert tomllib.loads(to_toml(doc)) == doc
+
+
+# ------------------------------------------------------------------ valid but wide systems, end to end
+wide = st.floats(1e-6, 1e6)
+wide_q = st.one_of(wide, st.fixed_dictionaries({"value": wide, "err": wide}),
+                   st.fixed_dictionaries({"upper": st.floats(1e-3, 0.99)}))
+wide_planet = st.fixed_dictionaries(
+    {"name": st.sampled_from("bcdef"), "period": st.one_of(wide, st.fixed_dictionaries({"value": wide, "err": wide}))},
+    optional={"k": wide_q, "msini": wide_q, "mass": wide_q, "radius": wide_q,
+              "ecc": st.one_of(st.floats(0.0, 0.999), st.fixed_dictionaries({"upper": st.floats(1e-3, 0.99)})),
+              "b": st.floats(0.0, 5.0), "inclination": st.floats(0.0, 180.0), "ror": st.floats(1e-4, 1.0),
+              "transiting": st.booleans()})
+wide_document = st.fixed_dictionaries({
+    "name": st.just("W"),
+    "star": st.fixed_dictionaries(
+        {"mass": st.one_of(st.floats(1e-3, 100.0),
+                           st.fixed_dictionaries({"value": st.floats(0.01, 10.0), "err": st.floats(0.0, 5.0)}))},
+        optional={"radius": st.floats(0.01, 100.0), "density": st.floats(1e-3, 100.0)}),
+    "planet": st.lists(wide_planet, min_size=1, max_size=3, unique_by=lambda p: p["name"]),
+})
+
+
+@settings(max_examples=60, deadline=None)
+@given(doc=wide_document)
+def test_wide_valid_systems_give_finite_json(doc):
+    # Regressions found by this strategy and fixed: face-on draws (i = 0) gave a = inf,
+    # overlapping period summaries gave period ratios < 1, denormal error bars gave M* = 0.
+    import json
+
+    from archsys.pipeline import AnalysisOptions, analyze
+    try:
+        system = build_system(doc, "<fuzz>")
+    except InputError:
+        return
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            res = analyze(system, AnalysisOptions(n_draws=50, mode="direct"))
+        except InputError:
+            return
+    text = json.dumps(res.document)
+    assert "NaN" not in text and "Infinity" not in text

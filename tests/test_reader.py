@@ -85,6 +85,9 @@ RULES = [
     ("star-not-table", 'name = "S"\nstar = 1.0\n' + planet(), ["'star'", "table"]),
     ("planet-not-array", STAR + "[planet]\nname = \"b\"\nperiod = 3.0\n", ["'planet'", "array"]),
     ("huge-integer", STAR + planet("period = 1" + "0" * 400), ["'period'", "finite"]),
+    # user text with a newline is escaped, so each problem stays on one line (found by fuzzing)
+    ("unit-with-newline", STAR + planet('period = {value = 3.0, unit = "d\\nay"}'), ["'period'", "d\\nay"]),
+    ("planet-name-with-newline", STAR + planet("perod = 3.0", "b\\nc"), ["planet 'b\\nc'", "'perod'"]),
 ]
 
 

@@ -57,8 +57,9 @@ def split_normal_ppf(u, mode, minus, plus):
     u = np.asarray(u, dtype=float)
     w = minus + plus
     p = minus / w
-    lo = mode + minus * _phi_inv(np.clip(u * w / (2.0 * minus), 1e-300, 1 - 1e-16))
-    hi = mode + plus * _phi_inv(np.clip(0.5 + (u - p) * w / (2.0 * plus), 1e-16, 1 - 1e-16))
+    # w / (2 minus) first: u * w underflows for denormal widths and sent draws to -inf
+    lo = mode + minus * _phi_inv(np.clip(u * (w / (2.0 * minus)), 1e-300, 1 - 1e-16))
+    hi = mode + plus * _phi_inv(np.clip(0.5 + (u - p) * (w / (2.0 * plus)), 1e-16, 1 - 1e-16))
     return np.where(u < p, lo, hi)
 
 

@@ -34,7 +34,9 @@ class _Problems:
         self.lines = []
 
     def add(self, where, msg):
-        self.lines.append(f"{self.source}: {where}: {msg}" if where else f"{self.source}: {msg}")
+        line = f"{self.source}: {where}: {msg}" if where else f"{self.source}: {msg}"
+        # user text (names, units, keys) may hold newlines: escape them to keep one line per problem
+        self.lines.append("".join(c if c.isprintable() else repr(c)[1:-1] for c in line))
 
     def raise_if_any(self):
         if self.lines:

@@ -22,7 +22,6 @@ import pathlib
 from dataclasses import dataclass, field
 
 import matplotlib
-import matplotlib.patches
 import matplotlib.ticker
 import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
@@ -399,7 +398,8 @@ def _layout_corner(fig, axes, p, K, two_lines=False):
     extra = 0.09 if two_lines else 0.0
     left = ((0.62 + extra) if K > 1 else 0.30) * p.font_pt / 8.0
     bottom = (0.55 + extra) * p.font_pt / 8.0
-    fig.subplots_adjust(left=left / w, bottom=bottom / w, right=1 - 0.08 / w, top=1 - 0.08 / w,
+    top = 0.08 if K > 1 else 0.40 * p.font_pt / 8.0          # K = 1: room for the title line
+    fig.subplots_adjust(left=left / w, bottom=bottom / w, right=1 - 0.08 / w, top=1 - top / w,
                         wspace=0.06, hspace=0.06)
     n_ticks = 3 if K > 2 else 4
     for k in range(K):
@@ -439,8 +439,8 @@ def _corner_legend(fig, axes, kept, data, skipped, p, title, truths, priors):
         note.append(f"skipped {lab}: {why}")
     if K == 1:
         ax = axes if not isinstance(axes, np.ndarray) else axes.flat[0]
-        ax.set_title(values[-1], fontsize=p.small_pt)
-        fig.text(0.98, 0.985, "\n".join(note[2:]), ha="right", va="top", fontsize=p.small_pt - 1)
+        ax.set_title(values[-1], fontsize=p.small_pt, loc="left")
+        ax.set_title("\n".join(note[2:]), fontsize=p.small_pt - 1, loc="right", color="#333333")
         return
     box = axes[0, K - 1].get_position()
     x0, y0 = box.x1, box.y1
@@ -604,7 +604,10 @@ def _architecture_legend(fig, ax, p, used, height, used_masses=(), resize=True):
             h.append(Line2D([], [], color=st["color"], ls=st["linestyle"], lw=1.5 * p.line_width,
                             label=st["label"]))
     masses = sorted(used_masses) or [1.0]
-    sizes = [m for m in (1, 10, 100, 1000, 10000) if masses[0] / 4 <= m <= masses[-1] * 4] or [1]
+    decades = (1, 10, 100, 1000, 10000)
+    sizes = [m for m in decades if masses[0] / 4 <= m <= masses[-1] * 4]
+    while len(sizes) < 3 and (not sizes or sizes[0] > 1):     # at least three references to compare with
+        sizes.insert(0, sizes[0] // 10 if sizes else 1)
     hs = [Line2D([], [], marker="o", ls="none", mfc="#bbbbbb", mec="#bbbbbb", ms=_marker_pt(m, p),
                  label=f"{m:g} $M_\\oplus$") for m in sizes]
     ncol = 3 if p.width_in < 5 else 6

@@ -423,22 +423,22 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None):
     ``<name>.chains.npz`` and ``<name>.provenance.json``; figures (PDF and PNG)
     into ``fig_dir`` (``out_dir/figures`` when only ``out_dir`` is given).
     Everything is rendered in memory first; each file is then written
-    atomically, so a failure while rendering writes nothing.
+    atomically, so a failure while rendering writes nothing.  The provenance
+    sidecar is written last: its presence marks a complete set.
 
     Returns
     -------
     written : dict
         file name -> :class:`pathlib.Path` of every file written.
     """
-    from .figures import make_figures, figure_files
+    from .figures import figure_files, make_figures
     from .files import atomic_write, safe_name
     from .provenance import build_provenance, provenance_json
+    from .style import get_preset
 
     if out_dir is None and fig_dir is None:
         return {}
-    preset_name = preset
-    from .style import get_preset
-    get_preset(preset_name)                                # validate before any work
+    preset_name = get_preset(preset).name                  # validate before any work
     doc = document_of(result)
     stem = safe_name(doc.get("system", "system"))
     out = _dir(out_dir, "output folder") if out_dir is not None else None
@@ -469,8 +469,11 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None):
         prov = build_provenance(doc, hashed, preset=preset_name)
         files[out / f"{stem}.provenance.json"] = (provenance_json(prov), "w")
     written = {}
-    for path, (data, mode) in files.items():
-        atomic_write(path, data, mode=mode)
+    for path, (data, mode) in files.items():         # the provenance sidecar comes last
+        try:
+            atomic_write(path, data, mode=mode)
+        except OSError as exc:
+            raise InputError(f"cannot write {path}: {exc.strerror or exc}") from None
         written[path.name] = path
     return written
 
