@@ -81,7 +81,7 @@ def _cmd_report(args):
         sys.stdout.write("\n".join(render_text(r.document, colour=colour) for r in results))
     else:
         from .output.formats import render
-        sys.stdout.write("\n".join(render(r, fmt) for r in results))
+        sys.stdout.write("\n".join(render(r, fmt, preset=args.preset) for r in results))
     return 0
 
 

@@ -224,3 +224,18 @@ def test_undetermined_period_order_is_an_input_error():
                                     for i in range(8)]}, source="eight.toml")
     with pytest.raises(InputError, match=r"eight.toml: periods of planets 'p\d' and 'p\d' overlap"):
         direct_draws(sysm, n=500, seed=0)
+
+
+# ------------------------------------------------------------------ regressions (fixed here)
+def test_denormal_error_bar_draws_stay_at_the_value():
+    # err = 5e-324 once sent split-normal draws to -inf, clipped to M* = 0.
+    d = draws({"period": {"value": 10.0, "err": 5e-324}}, star={"mass": {"value": 0.8, "err": 5e-324}}, n=500)
+    assert np.all(d["m_star"] == 0.8) and np.all(d["period"] == 10.0)
+
+
+def test_face_on_orbit_has_no_finite_true_mass():
+    # i = 0 (face-on) with an RV signal: m = m sin i / sin i is undefined; the draws
+    # leave the true mass unknown and keep the m sin i semi-major axis (was a = inf).
+    d = draws({"period": 10.0, "k": 5.0, "inclination": 0.0}, n=50)
+    assert np.all(np.isnan(d["mass"])) and np.all(np.isfinite(d["a"]))
+    np.testing.assert_allclose(d["a"][:, 0], kepler.a_au(10.0, 1.0 + d["msini"][:, 0]), rtol=1e-14)

@@ -5,7 +5,7 @@ import math
 
 import numpy as np
 
-__all__ = ["summarize", "QUANTILES", "probability"]
+__all__ = ["summarize", "summarize_angle", "QUANTILES", "probability"]
 
 #: Central 68.27 % interval, i.e. +/- 1 sigma for a Gaussian.
 QUANTILES = (0.158655, 0.5, 0.841345)
@@ -39,3 +39,15 @@ def probability(flags):
     """Fraction of draws where a boolean verdict holds (NaN-free input)."""
     f = np.asarray(flags, dtype=bool).ravel()
     return float(f.mean()) if f.size else None
+
+
+def summarize_angle(deg):
+    """Summary of an angle in degrees, wrapped to [0, 360) or [-180, 180), whichever gives the
+    narrower 68 % interval (so that an angle near 0 is not split across the wrap)."""
+    x = np.asarray(deg, dtype=float).ravel()
+    a = np.mod(x, 360.0)
+    b = np.mod(x + 180.0, 360.0) - 180.0
+    sa, sb = summarize(a), summarize(b)
+    if sa is None or sb is None:
+        return sa
+    return sa if (sa["hi"] - sa["lo"]) <= (sb["hi"] - sb["lo"]) else sb

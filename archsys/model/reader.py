@@ -106,7 +106,8 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
             problems.add(loc, f"'{k}' must be a number; got {v!r:.40}")
             return None
         if not _is_finite(v):
-            problems.add(loc, f"'{k}' must be finite; got {v if isinstance(v, float) else 'an integer beyond the float range'}")
+            shown = v if isinstance(v, float) else "an integer beyond the float range"
+            problems.add(loc, f"'{k}' must be finite; got {shown}")
             return None
     has_val = "value" in spec
     lims = [k for k in ("upper", "lower") if k in spec]

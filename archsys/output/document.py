@@ -13,7 +13,7 @@ import platform
 import numpy as np
 
 from .. import __version__
-from ..inference.summary import summarize
+from ..inference.summary import summarize, summarize_angle
 from ..physics.constants import MEARTH_MSUN
 
 __all__ = ["build_document", "DISCLAIMER", "SCHEMA_VERSION"]
@@ -48,7 +48,7 @@ def _planet_entry(post, j, pl):
         entry["ecc"] = summarize(d["ecc"][:, j])
     entry["ecc_basis"] = ecc_basis
     if post.method == "mcmc" or "omega" in pl.quantities or ecc_basis.startswith("from"):
-        entry["omega_deg"] = summarize(np.degrees(d["omega"][:, j]) % 360.0)
+        entry["omega_deg"] = summarize_angle(np.degrees(d["omega"][:, j]))
     if np.isfinite(d["inc"][:, j]).any():
         entry["inclination_deg"] = summarize(np.degrees(d["inc"][:, j]))
         entry["inclination_basis"] = note.get("inc", "")

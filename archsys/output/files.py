@@ -22,6 +22,9 @@ def atomic_write(path, data, mode="w"):
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)       # mkstemp creates 0600; give the usual permissions
         os.replace(tmp, path)
     except BaseException:
         try:
