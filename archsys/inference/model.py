@@ -388,11 +388,17 @@ class SystemModel:
 
     @staticmethod
     def _gauss(x, term):
+        """Sum over planets of the log density of an asymmetric normal (or one-sided limit)."""
         _, cen, sm, sp = term
         d = x - cen
         with np.errstate(divide="ignore", invalid="ignore"):
             r = np.where(d < 0, d / sm, d / sp)
-        return -0.5 * np.sum(r * r, axis=1)
+            # each half carries probability 1/2, so its density scales as 1/width
+            # (limits have one infinite width and no such term)
+            both = np.isfinite(sm) & np.isfinite(sp) & (sm != sp)
+            lw = np.where(both, np.where(d < 0, np.log(np.where(both, sm, 1.0)),
+                                         np.log(np.where(both, sp, 1.0))), 0.0)
+        return np.sum(-0.5 * r * r - lw, axis=1)
 
     def _log_like(self, c):
         """Sum of the summary likelihoods, vectorised over walkers and planets."""

@@ -9,8 +9,11 @@ Distributions
 exact
     A point mass at ``value``.
 normal / asym
-    A split-normal (two half-Gaussians joined at the mode) with widths
-    ``minus`` and ``plus``; a Gaussian is the case ``minus == plus``.  Draws
+    Catalogue convention: ``value +plus -minus`` are the median and the
+    15.87 / 84.13 percentiles.  The distribution is two half-Gaussians of
+    widths ``minus`` and ``plus`` joined at ``value``, each carrying half of
+    the probability (an asymmetric, median-preserving split normal), so those
+    percentiles are reproduced exactly; a Gaussian is ``minus == plus``.  Draws
     are truncated to the field's physical support (e.g. ``ecc`` in [0, 1)) by
     inverse-CDF sampling restricted to the support, never by clipping.
 upper / lower
@@ -43,24 +46,19 @@ def _phi_inv(u):
     return _SQRT2 * special.erfinv(2.0 * np.asarray(u) - 1.0)
 
 
-def split_normal_cdf(x, mode, minus, plus):
-    """CDF of the split-normal with widths ``minus`` (below) and ``plus`` (above)."""
+def split_normal_cdf(x, median, minus, plus):
+    """CDF of the asymmetric normal: half-Gaussians of widths ``minus`` (below) and ``plus``
+    (above) joined at ``median``, each carrying half of the probability."""
     x = np.asarray(x, dtype=float)
-    w = minus + plus
-    below = 2.0 * minus / w * _phi((x - mode) / minus)
-    above = minus / w + 2.0 * plus / w * (_phi((x - mode) / plus) - 0.5)
-    return np.where(x < mode, below, above)
+    return np.where(x < median, _phi((x - median) / minus), _phi((x - median) / plus))
 
 
-def split_normal_ppf(u, mode, minus, plus):
-    """Inverse CDF of the split-normal distribution (vectorised over ``u``)."""
+def split_normal_ppf(u, median, minus, plus):
+    """Inverse CDF of the asymmetric normal (vectorised over ``u``): the 15.87 / 50 / 84.13 %
+    quantiles are exactly ``median - minus``, ``median``, ``median + plus``."""
     u = np.asarray(u, dtype=float)
-    w = minus + plus
-    p = minus / w
-    # w / (2 minus) first: u * w underflows for denormal widths and sent draws to -inf
-    lo = mode + minus * _phi_inv(np.clip(u * (w / (2.0 * minus)), 1e-300, 1 - 1e-16))
-    hi = mode + plus * _phi_inv(np.clip(0.5 + (u - p) * (w / (2.0 * plus)), 1e-16, 1 - 1e-16))
-    return np.where(u < p, lo, hi)
+    z = _phi_inv(np.clip(u, 1e-300, 1 - 1e-16))
+    return median + np.where(u < 0.5, minus, plus) * z
 
 
 @dataclass(frozen=True)
@@ -213,4 +211,6 @@ class Measurement:
         d = x - c
         with np.errstate(divide="ignore", invalid="ignore"):
             r = np.where(d < 0, d / sm, d / sp)
+            if math.isfinite(sm) and math.isfinite(sp) and sm != sp:
+                return -0.5 * r * r - np.where(d < 0, math.log(sm), math.log(sp))
         return -0.5 * r * r

@@ -777,6 +777,28 @@ def _label_resonances(fig, ax, res, p, medians=()):
 
 
 # --- the figure set of one analysis ------------------------------------------
+def _document_priors(document):
+    """Prior overlays {parameter name: Prior} from the priors recorded in the document (MCMC runs)."""
+    rec = (document.get("provenance") or {}).get("priors") or {}
+    if not rec:
+        return None
+    from ..inference.priors import load_prior
+    out = {}
+    try:
+        ecc = rec.get("eccentricity", {}).get("name")
+        if ecc:
+            pr = load_prior(ecc)
+            for j, pl in enumerate(document.get("planets", [])):
+                if "fixed" not in str(pl.get("ecc_basis", "")):
+                    out[f"e_{j}"] = pr
+        sig = rec.get("mutual_inclination_sigma", {}).get("name")
+        if sig:
+            out["sigma_mutual"] = load_prior(sig)      # degrees, as plotted
+    except Exception:  # a user prior file that moved since the run: draw no overlay
+        return None
+    return out or None
+
+
 def make_figures(draws, document, preset=None, truths=None, priors=None):
     """All figures of one analysis as a list of :class:`FigureItem`.
 
@@ -785,6 +807,8 @@ def make_figures(draws, document, preset=None, truths=None, priors=None):
     """
     p = get_preset(preset)
     name = document.get("system", "system")
+    if priors is None:
+        priors = _document_priors(document)
     items = [FigureItem("architecture", architecture_figure([document], preset=p),
                         f"Architecture of {name}: planets at their semi-major axes; bars a(1±e); brackets "
                         "a ± R_H (Hill radius); marker size grows with mass (open: minimum mass); segments: Hill-stability "
