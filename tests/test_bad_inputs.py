@@ -26,7 +26,7 @@ BAD = {
     "whitespace_only.toml": ["file is empty"],
     "binary_garbage.toml": ["not UTF-8"],
     "latin1_encoding.toml": ["not UTF-8"],
-    "utf16_encoding.toml": ["not UTF-8"],
+    "utf16_encoding.toml": ["UTF-16", "UTF-8"],
     "nul_bytes.toml": ["NUL"],
     "truncated.toml": ["not valid TOML"],
     "json_not_toml.toml": ["not valid TOML"],

@@ -238,3 +238,25 @@ def test_utf8_bom_is_accepted(tmp_path):
     f = tmp_path / "bom.toml"
     f.write_bytes(b"\xef\xbb\xbf" + (STAR + planet()).encode())
     assert read_system(f).planets[0].period.value == 3.0
+
+
+# Rules added after review (common practice: a required quantity needs a measured value;
+# the adjacent-pair analysis assumes distinct periods).
+@pytest.mark.parametrize("star_mass, period, token", [
+    ({"lower": 2.0}, 3.0, "'mass': needs a measured value"),
+    (1.0, {"upper": 3.0}, "'period': needs a measured value"),
+])
+def test_required_fields_reject_limits(tmp_path, star_mass, period, token):
+    from archsys.errors import InputError
+    from archsys.model.reader import build_system
+    with pytest.raises(InputError, match=token):
+        build_system({"name": "X", "star": {"mass": star_mass}, "planet": [{"name": "b", "period": period}]},
+                     source="x.toml")
+
+
+def test_same_period_rejected():
+    from archsys.errors import InputError
+    from archsys.model.reader import build_system
+    with pytest.raises(InputError, match="same period as planet 'b'"):
+        build_system({"name": "X", "star": {"mass": 1.0},
+                      "planet": [{"name": "b", "period": 5.0}, {"name": "c", "period": 5.0}]}, source="x.toml")

@@ -75,6 +75,10 @@ def _convert(x, unit_str, fld: Field):
         return float((x * src).to_value(dst))
 
 
+#: Required fields that must be measured, not bounded (field -> prefix of its location).
+_NO_LIMITS = {"period": "planet", "mass": "star"}
+
+
 def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
     """Parse one quantity (number or table) into a Measurement, or None on error."""
     name = fld.name
@@ -143,6 +147,9 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
         return None
     if fld.periodic and lims:
         problems.add(loc, "an angle defined modulo 360 deg cannot take a limit")
+        return None
+    if lims and name in _NO_LIMITS and where.startswith(_NO_LIMITS[name]):
+        problems.add(loc, f"needs a measured value; a limit ('{lims[0]}') cannot define it")
         return None
 
     # convert to canonical units (errors scale linearly; all our units are linear)
@@ -289,6 +296,11 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
             planets.append(Planet(name=pname, period=q.pop("period"), quantities=q, transiting=tr))
     P.raise_if_any()
     planets.sort(key=lambda p: p.period.center)
+    for p1, p2 in zip(planets, planets[1:]):
+        if p1.period.center == p2.period.center:
+            P.add(f"planet '{p2.name}'", f"field 'period': same period as planet '{p1.name}' "
+                                          f"({p1.period.center:g} d); co-orbital planets are not supported")
+    P.raise_if_any()
     return System(name=name.strip(), star=star, planets=tuple(planets), source=source, sha256=sha256,
                   reference_plane=str(data.get("reference_plane", "sky")))
 
@@ -340,6 +352,8 @@ def read_system(path) -> System:
     try:
         text = blob.decode("utf-8-sig")  # tolerate a UTF-8 byte-order mark
     except UnicodeDecodeError as exc:
+        if blob[:2] in (b"\xff\xfe", b"\xfe\xff"):
+            raise InputError(f"{src}: UTF-16 text; save the file as UTF-8") from None
         raise InputError(f"{src}: not UTF-8 text (byte {exc.start}); save the file as UTF-8") from None
     if "\x00" in text:
         raise InputError(f"{src}: contains NUL bytes; not a text system file")
