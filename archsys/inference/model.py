@@ -226,8 +226,14 @@ class SystemModel:
                     if fld in p.quantities and not (fld == "ecc" and j in self.fixed_ecc)]
             rows = [(j, g) for j, g in rows if g is not None]
             if rows:
-                self._terms[fld] = (np.array([j for j, _ in rows]),
-                                    *(np.array([g[i] for _, g in rows]) for i in range(3)))
+                cen = np.array([g[0] for _, g in rows])
+                sm = np.array([g[1] for _, g in rows])
+                sp = np.array([g[2] for _, g in rows])
+                # each half of an asymmetric normal holds probability 1/2, so its density
+                # scales as 1/width; limits (one infinite width) and symmetric terms get none
+                asym = np.isfinite(sm) & np.isfinite(sp) & (sm != sp)
+                self._terms[fld] = (np.array([j for j, _ in rows]), cen, 1.0 / sm, 1.0 / sp,
+                                    np.where(asym, np.log(sm), 0.0), np.where(asym, np.log(sp), 0.0))
         self._angles = []
         for fld, key in (("omega", "omega"), ("ascending_node", "node")):
             for j, p in enumerate(s.planets):
@@ -389,16 +395,11 @@ class SystemModel:
     @staticmethod
     def _gauss(x, term):
         """Sum over planets of the log density of an asymmetric normal (or one-sided limit)."""
-        _, cen, sm, sp = term
+        _, cen, inv_m, inv_p, lw_m, lw_p = term
         d = x - cen
-        with np.errstate(divide="ignore", invalid="ignore"):
-            r = np.where(d < 0, d / sm, d / sp)
-            # each half carries probability 1/2, so its density scales as 1/width
-            # (limits have one infinite width and no such term)
-            both = np.isfinite(sm) & np.isfinite(sp) & (sm != sp)
-            lw = np.where(both, np.where(d < 0, np.log(np.where(both, sm, 1.0)),
-                                         np.log(np.where(both, sp, 1.0))), 0.0)
-        return np.sum(-0.5 * r * r - lw, axis=1)
+        neg = d < 0
+        r = d * np.where(neg, inv_m, inv_p)
+        return np.sum(-0.5 * r * r - np.where(neg, lw_m, lw_p), axis=1)
 
     def _log_like(self, c):
         """Sum of the summary likelihoods, vectorised over walkers and planets."""

@@ -210,11 +210,14 @@ def sample_system(system, opts) -> Posterior:
     converged = False
     steps = 0
     while steps < max_steps:
-        n = min(_BLOCK if steps < 4000 else 2 * _BLOCK, max_steps - steps)
-        state = sampler.run_mcmc(state, n, progress=False, skip_initial_state_check=True)
+        # check convergence at geometrically growing intervals (the FFT costs O(steps))
+        n = min(max(_BLOCK, steps // 4), max_steps - steps)
+        with np.errstate(all="ignore"):
+            state = sampler.run_mcmc(state, n, progress=False, skip_initial_state_check=True)
         steps += n
         chain = sampler.get_chain()
-        tau = emcee.autocorr.integrated_time(chain[steps // 3:], tol=0, quiet=True)
+        with np.errstate(all="ignore"):
+            tau = emcee.autocorr.integrated_time(chain[steps // 3:], tol=0, quiet=True)
         tmax = float(np.max(tau))
         prog.update(steps, n_tau * tmax, tmax)
         usable = steps - BURN_TAU * tmax
