@@ -105,6 +105,7 @@ def test_fast_mode_mcmc_gives_tilt_population(tmp_path, capsys):
     mi = pop["mutual_inclination_population"]
     assert mi["n_planets"] == 9 and mi["rayleigh"] is not None
     assert mi["interim_prior"].startswith("rayleigh-marginal:")
+    assert ("ess_warning" in mi) == (mi["ess_min"] < 10)      # thin importance weights are flagged
     systems = list(csv.DictReader(io.StringIO((out / "systems.csv").read_text())))
     assert all(s["sampler"].startswith("MCMC") for s in systems)
     assert "chain stopped" not in capsys.readouterr().err      # warnings go to systems.csv instead

@@ -15,7 +15,13 @@ tilts ``psi`` (radians, in [0, pi]) about their system's reference plane.
 The estimator degrades where ``f_theta`` puts weight where an object has few
 samples; the effective sample size of the importance weights,
 ``ESS_n = (sum_k r_nk)^2 / sum_k r_nk^2`` with ``r = f/p0`` at the posterior
-median of ``theta``, is reported per fit (minimum and median over objects).
+median of ``theta``, is reported per fit (minimum and median over objects),
+and flagged below :data:`ESS_WARN`.
+
+Tilts from the MCMC share one dispersion per system, so the planets of one
+system are not independent objects as the estimator assumes; their interim
+prior is the Rayleigh marginalised over the per-system sigma prior
+(:func:`marginal_tilt_log_prior`).  Treat that fit as approximate.
 
 References
 ----------
@@ -40,6 +46,8 @@ BETA_RANGE = (0.05, 50.0)
 SIGMA_RANGE_ECC = (1e-3, 2.0)
 SIGMA_RANGE_PSI = (1e-4, math.pi)
 _E_EPS = 1e-9
+#: Below this many effective samples for some object the estimate is flagged (a choice).
+ESS_WARN = 10.0
 
 
 def interval(x):
@@ -238,7 +246,16 @@ def eccentricity_population(samples, log_p0, seed=0, interim_prior="", n_steps=1
     out["beta"] = fit_beta(data, seed=seed, n_steps=n_steps, n_burn=n_burn)
     out["rayleigh"] = fit_rayleigh(data, seed=seed + 1, n_steps=n_steps, n_burn=n_burn)
     out["ess_min"] = min(out["beta"]["diagnostics"]["ess_min"], out["rayleigh"]["diagnostics"]["ess_min"])
+    _flag_ess(out)
     return out
+
+
+def _flag_ess(out):
+    """Say so when the importance sampling leans on very few samples of some object."""
+    if out.get("ess_min") is not None and out["ess_min"] < ESS_WARN:
+        out["ess_warning"] = (f"minimum effective sample size {out['ess_min']:.1f} < {ESS_WARN:g}: for some "
+                              f"objects the population model puts its weight where their posterior has few "
+                              f"samples; treat the intervals as rough")
 
 
 def tilt_population(samples, log_p0, seed=0, interim_prior="", n_steps=1000, n_burn=300,
@@ -258,6 +275,7 @@ def tilt_population(samples, log_p0, seed=0, interim_prior="", n_steps=1000, n_b
     fit["sigma_deg"] = {k: math.degrees(v) for k, v in fit["sigma"].items()}
     out["rayleigh"] = fit
     out["ess_min"] = fit["diagnostics"]["ess_min"]
+    _flag_ess(out)
     return out
 
 
