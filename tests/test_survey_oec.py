@@ -18,7 +18,11 @@ import pytest
 from archsys.cli import main
 from archsys.survey.run import run_survey
 
-OEC = pathlib.Path("/work/shared/data/open_exoplanet_catalogue_planets.csv")
+# the open catalogue in ../shared beside the checkout (CI lays it there), else this workplace's copy
+OEC = next((c for c in (pathlib.Path(__file__).resolve().parents[2] / "shared" / "data"
+                        / "open_exoplanet_catalogue_planets.csv",
+                        pathlib.Path("/work/shared/data/open_exoplanet_catalogue_planets.csv")) if c.exists()),
+           pathlib.Path("/work/shared/data/open_exoplanet_catalogue_planets.csv"))
 COLUMNS = pathlib.Path(__file__).parent / "data" / "oec_columns.toml"
 pytestmark = pytest.mark.skipif(not OEC.exists(), reason="open catalogue extract not present")
 

@@ -62,6 +62,7 @@ _FIRST_PAIR_COLS = ("system", "inner", "outer", "period_ratio_median", "period_r
                     "hill_separation_median", "hill_separation_lo", "hill_separation_hi",
                     "hill_stable_probability", "near_resonance_probability", "amd_stable_probability",
                     "mutual_inclination_deg_median", "mutual_inclination_deg_lo", "mutual_inclination_deg_hi")
+_THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
 REJECT_COLS = ("system", "planet", "row", "field", "column", "reason")
 
 
@@ -287,6 +288,9 @@ def _run_local(tasks, sink, jobs):
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
     ctx = multiprocessing.get_context("spawn")     # no inherited sqlite handle, same as Dask workers
     it = iter(tasks)
+    # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
+    saved = {k: os.environ.get(k) for k in _THREAD_VARS}
+    os.environ.update({k: "1" for k in _THREAD_VARS})
     ex = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx)
     try:
         pending = set()
@@ -304,6 +308,12 @@ def _run_local(tasks, sink, jobs):
     except BaseException:
         ex.shutdown(wait=False, cancel_futures=True)
         raise
+    finally:
+        for k, v in saved.items():
+            if v is None:
+                os.environ.pop(k, None)
+            else:
+                os.environ[k] = v
     ex.shutdown(wait=True)
 
 
