@@ -35,7 +35,8 @@ def _add_analysis_options(p):
     g.add_argument("--draws", type=int, default=None, help="posterior draws to keep (default 4000)")
     g.add_argument("--mode", choices=["auto", "direct", "mcmc", "fast"], default="auto",
                    help="auto: MCMC when a joint constraint binds, direct draws otherwise; "
-                        "fast: fewer draws and a short chain")
+                        "direct: never MCMC; mcmc: always; fast: direct draws only, 1000 of them "
+                        "(for large surveys)")
     g.add_argument("--prior", dest="ecc_prior", default=None, metavar="NAME_OR_FILE",
                    help="eccentricity prior (see `archsys priors`)")
     g.add_argument("--incl-prior", default=None, metavar="NAME_OR_FILE",
@@ -45,7 +46,8 @@ def _add_analysis_options(p):
     g.add_argument("--max-steps", type=int, default=None, help="cap on MCMC steps per walker")
     g.add_argument("--nbody", type=int, default=0, metavar="N",
                    help="integrate N posterior draws with rebound and MEGNO (extra 'nbody')")
-    g.add_argument("--jobs", type=int, default=1, help="worker processes for N-body checks")
+    g.add_argument("--jobs", type=int, default=1,
+                   help="worker processes (report: N-body checks; survey: systems, default one per core)")
     g.add_argument("--quiet", action="store_true", help="no progress bar")
 
 
@@ -140,7 +142,7 @@ def build_parser():
     s.add_argument("--no-figures", action="store_true")
     s.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(s)
-    s.set_defaults(func=_cmd_survey)
+    s.set_defaults(func=_cmd_survey, jobs=0)   # survey: one worker per core by default
 
     q = sub.add_parser("plot", help="redraw figures from a saved result (no resampling)")
     q.add_argument("result", help="chains file (.npz) written by `archsys report --out`")

@@ -20,7 +20,8 @@ class AnalysisOptions:
 
     n_draws: int = DEFAULT_DRAWS
     seed: int = 0
-    mode: str = "auto"          # "auto": MCMC when a joint constraint binds; "direct"; "mcmc"; "fast"
+    mode: str = "auto"          # "auto": MCMC when a joint constraint binds; "direct"; "mcmc";
+    #                             "fast": direct draws only (no MCMC), fewer draws
     ecc_prior: str | None = None
     incl_prior: str | None = None
     require_stable: bool = False
@@ -47,7 +48,8 @@ def _posterior(system, opts: AnalysisOptions) -> Posterior:
         from .inference import sampler
     except ImportError:  # the MCMC engine is optional until it lands
         sampler = None
-    if sampler is not None and opts.mode != "direct":
+    # "fast" trades depth for speed in large surveys: direct draws only, never MCMC
+    if sampler is not None and opts.mode not in ("direct", "fast"):
         if opts.mode == "mcmc" or sampler.needs_mcmc(system, opts):
             return sampler.sample_system(system, opts)
     return direct_draws(system, n=opts.n_draws, seed=opts.seed)

@@ -213,7 +213,7 @@ def test_mcmc_report_has_contract_keys(tmp_path):
         {"name": "H c", "period": 9.0, "b": {"value": 0.5, "err": 0.05}, "ror": 0.02, "transiting": True,
          "ecc": {"upper": 0.1}},
     ])
-    res = analyze(s, AnalysisOptions(n_draws=1000, seed=1, quiet=True, mode="fast"))
+    res = analyze(s, AnalysisOptions(n_draws=1000, seed=1, quiet=True, mode="mcmc", max_steps=3000))
     doc = res.document
     assert doc["sampler"]["method"].startswith("MCMC")
     for key in ("walkers", "steps", "autocorrelation_time", "n_eff", "converged"):

@@ -97,10 +97,10 @@ def test_population_sections_present(multis):
         assert col in pairs[0]
 
 
-def test_fast_mode_mcmc_gives_tilt_population(tmp_path, capsys):
-    """Transiting triples in fast mode run the MCMC, whose tilts psi feed the inclination fit."""
+def test_auto_mode_mcmc_gives_tilt_population(tmp_path, capsys):
+    """Transiting triples in auto mode run the MCMC, whose tilts psi feed the inclination fit."""
     out = tmp_path / "tri"
-    rc = main(["survey", str(OEC), "--out", str(out), "--columns", str(COLUMNS), "--mode", "fast",
+    rc = main(["survey", str(OEC), "--out", str(out), "--columns", str(COLUMNS), "--mode", "auto",
                "--draws", "200", "--max-steps", "500", "--where", "n_planets>=3", "--where", "transiting==1",
                "--limit", "3", "--jobs", "1", "--no-figures", "--quiet"])
     assert rc == 0
@@ -117,7 +117,7 @@ def test_fast_mode_mcmc_gives_tilt_population(tmp_path, capsys):
 
 @pytest.mark.slow
 def test_full_catalogue_fast_mode(tmp_path):
-    """Every system of the extract in fast mode (MCMC where needed), two processes, figures."""
+    """Every system of the extract in fast mode (direct draws only), two processes, figures."""
     out = tmp_path / "full"
     pop = run_survey(str(OEC), str(out), columns=str(COLUMNS), mode="fast", jobs=2, seed=0)
     _check_counts(pop, out)

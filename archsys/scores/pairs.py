@@ -33,13 +33,17 @@ def pair_arrays(post):
     e1, e2 = adjacent(post["ecc"])
     ratio = P2 / P1
     out = {"period_ratio": ratio}
-    j, k, off = spacing.nearest_mmr(ratio)
+    # draws whose periods cross (ratio < 1) have no resonance; keep them NaN, not an error
+    ordered = ratio >= 1.0
+    j, k, off = spacing.nearest_mmr(np.where(ordered, ratio, 1.0))
+    off = np.where(ordered, off, np.nan)
     out["mmr_j"], out["mmr_k"], out["mmr_offset"] = j, k, off
     mu = (m1 + m2) / m_star
     out["mu"] = mu
     e_pair = np.maximum(e1, e2)
-    out["near_resonance"] = masked_apply(_near_res, ratio, mu, e_pair, fill=np.nan)
-    out["overlap"] = masked_apply(lambda r, x, y: spacing.in_overlap_zone(r, x, y), ratio, m1 / m_star,
+    r_ok = np.where(ordered, ratio, np.nan)
+    out["near_resonance"] = masked_apply(_near_res, r_ok, mu, e_pair, fill=np.nan)
+    out["overlap"] = masked_apply(lambda r, x, y: spacing.in_overlap_zone(r, x, y), r_ok, m1 / m_star,
                                   m2 / m_star, fill=np.nan)
     out["hill_separation"] = masked_apply(hill.hill_separation, a1, a2, m1, m2, m_star)
     out["hill_margin"] = masked_apply(hill.gladman_margin, a1, a2, m1, m2, m_star, e1, e2)
