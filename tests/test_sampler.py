@@ -105,8 +105,10 @@ def test_coverage_fast_subset():
 
 @pytest.mark.slow
 def test_coverage_100_systems():
-    # Issue requirement: >= 100 systems, 68 +/- 7 %.
-    cov = _coverage(120, seed=5)
+    # Issue requirement: >= 100 systems, 68 +/- 7 %.  With 100 systems the binomial sd of the
+    # coverage is 4.7 %, so +/- 7 % alone would fail a calibrated sampler one time in seven; 300
+    # systems (sd 2.7 %) make the +/- 7 % band a 2.6-sigma test.
+    cov = _coverage(300, seed=5)
     assert 0.61 <= cov <= 0.75
 
 

@@ -146,15 +146,8 @@ def _prior_name(post, key, default):
 
 def _finite_json(x):
     """The document with NaN/inf replaced by None (JSON has no such numbers)."""
-    if isinstance(x, float):
-        return x if math.isfinite(x) else None
-    if isinstance(x, dict):
-        return {k: _finite_json(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [_finite_json(v) for v in x]
-    if isinstance(x, np.generic):
-        return _finite_json(x.item())
-    return x
+    from ..output.document import _finite
+    return _finite(x)
 
 
 def _summarise(sid, res):
