@@ -93,10 +93,10 @@ def bench_survey():
         return {"survey_note": f"open catalogue not found at {catalog}"}
     one = survey_benchmark(str(catalog), str(columns), jobs=1)
     two = survey_benchmark(str(catalog), str(columns), jobs=2)
-    out = {"survey_systems_per_s": two.get("systems_per_s"), "survey_seconds": two.get("wall_seconds"),
-           "survey_seconds_1_job": one.get("wall_seconds")}
-    if one.get("wall_seconds") and two.get("wall_seconds"):
-        out["survey_speedup_2_jobs"] = one["wall_seconds"] / two["wall_seconds"]
+    out = {"survey_systems_per_s": two.get("systems_per_s"), "survey_seconds": two.get("wall_s"),
+           "survey_seconds_1_job": one.get("wall_s"), "survey_systems": two.get("systems")}
+    if one.get("wall_s") and two.get("wall_s"):
+        out["survey_speedup_2_jobs"] = one["wall_s"] / two["wall_s"]
     return out
 
 
