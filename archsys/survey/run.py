@@ -276,28 +276,41 @@ def _run_serial(tasks, sink):
         sink(process_system(t))
 
 
+def process_batch(batch):
+    """Several systems in one worker call (amortises the per-task cost of fast surveys)."""
+    return [process_system(t) for t in batch]
+
+
+#: Largest number of systems sent to a worker in one call.
+MAX_BATCH = 16
+
+
 def _run_local(tasks, sink, jobs):
     import multiprocessing
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
     ctx = multiprocessing.get_context("spawn")     # no inherited sqlite handle, same as Dask workers
-    it = iter(tasks)
+    # small batches: few enough per call that every worker stays busy to the end and a crash
+    # loses little; results are still stored system by system
+    size = max(1, min(MAX_BATCH, len(tasks) // (8 * jobs)))
+    it = iter([tasks[i:i + size] for i in range(0, len(tasks), size)])
     # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
     saved = {k: os.environ.get(k) for k in _THREAD_VARS}
     os.environ.update({k: "1" for k in _THREAD_VARS})
     ex = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx)
     try:
         pending = set()
-        for t in it:
-            pending.add(ex.submit(process_system, t))
+        for b in it:
+            pending.add(ex.submit(process_batch, b))
             if len(pending) >= 4 * jobs:
                 break
         while pending:
             done, pending = wait(pending, return_when=FIRST_COMPLETED)
             for f in done:
-                sink(f.result())
+                for r in f.result():
+                    sink(r)
                 nxt = next(it, None)
                 if nxt is not None:
-                    pending.add(ex.submit(process_system, nxt))
+                    pending.add(ex.submit(process_batch, nxt))
     except BaseException:
         ex.shutdown(wait=False, cancel_futures=True)
         raise
