@@ -9,13 +9,13 @@ from __future__ import annotations
 import difflib
 import hashlib
 import math
-import pathlib
 import tomllib
 
 import astropy.units as u
 import numpy as np
 
 from ..errors import InputError
+from .inputfile import read_input_bytes
 from ..physics.constants import MEARTH_MSUN
 from .quantity import Measurement
 from .schema import (PLANET_FIELDS, PLANET_META_KEYS, QUANTITY_KEYS, STAR_FIELDS,
@@ -337,18 +337,8 @@ def read_system(path) -> System:
     InputError
         One line per problem, each naming file, planet and field.
     """
-    p = pathlib.Path(path)
     src = str(path)
-    try:
-        blob = p.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"{src}: file not found") from None
-    except IsADirectoryError:
-        raise InputError(f"{src}: is a directory, expected a system file (.toml)") from None
-    except OSError as exc:
-        raise InputError(f"{src}: cannot read ({exc.strerror})") from None
-    if not blob.strip():
-        raise InputError(f"{src}: file is empty")
+    blob = read_input_bytes(path, "system file (.toml)")
     try:
         text = blob.decode("utf-8-sig")  # tolerate a UTF-8 byte-order mark
     except UnicodeDecodeError as exc:

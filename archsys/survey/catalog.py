@@ -55,6 +55,7 @@ import re
 from dataclasses import dataclass, field
 
 from ..errors import InputError
+from ..model.inputfile import read_input_bytes
 
 __all__ = ["Catalog", "SystemRows", "read_catalog", "group_systems", "parse_where",
            "select", "evaluate", "MISSING_TOKENS"]
@@ -197,16 +198,7 @@ def read_catalog(path) -> Catalog:
     if fmt is None:
         raise InputError(f"{path}: unknown table format '{p.suffix}'; use .csv, .ecsv, .parquet or "
                          f".xml/.vot (VOTable)")
-    try:
-        blob = p.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"{path}: file not found") from None
-    except IsADirectoryError:
-        raise InputError(f"{path}: is a directory, expected a catalogue table") from None
-    except OSError as exc:
-        raise InputError(f"{path}: cannot read ({exc.strerror})") from None
-    if not blob.strip():
-        raise InputError(f"{path}: file is empty")
+    blob = read_input_bytes(path, "catalogue table")
     if fmt == "csv":
         header, cols, units, malformed = _read_csv(p, blob)
     elif fmt == "parquet":

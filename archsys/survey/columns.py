@@ -80,13 +80,13 @@ from __future__ import annotations
 import difflib
 import hashlib
 import math
-import pathlib
 import tomllib
 from dataclasses import dataclass, field
 
 import astropy.units as u
 
 from ..errors import InputError
+from ..model.inputfile import read_input_bytes
 from ..model.schema import PLANET_FIELDS, STAR_FIELDS
 from .catalog import SYSTEM_VARS, as_bool, evaluate, parse_where
 
@@ -272,14 +272,8 @@ def _check_unit(src, where, unit, fld):
 
 def load_column_map(path) -> ColumnMap:
     """Read and validate a column-map TOML file (format in the module docstring)."""
-    p = pathlib.Path(path)
     src = str(path)
-    try:
-        blob = p.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"{src}: column map not found") from None
-    except OSError as exc:
-        raise InputError(f"{src}: cannot read ({exc.strerror})") from None
+    blob = read_input_bytes(path, "column map (.toml)", allow_empty=True)
     try:
         data = tomllib.loads(blob.decode("utf-8"))
     except UnicodeDecodeError:
