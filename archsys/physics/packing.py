@@ -1,0 +1,155 @@
+"""Room for unseen planets: could a test planet sit stably in a gap?
+
+The packed-planetary-systems hypothesis (Barnes & Raymond 2004) says that
+systems tend to be filled to capacity: no gap can hold another planet without
+making the system unstable.  Fang & Margot (2013) asked the same question of
+the Kepler multis with Hill-spacing criteria.  Here a test planet is put at
+trial periods inside each gap, draw by draw, and kept where it passes every
+criterion the tool already uses for real pairs:
+
+* mutual Hill spacing at least ``min_hill`` from both neighbours
+  (Chambers, Wetherill & Boss 1996 mutual Hill radius; :mod:`.hill`);
+* the Gladman (1993) two-planet Hill criterion with both neighbours, with
+  the neighbours' eccentricities (:func:`.hill.gladman_margin`);
+* AMD stability (Laskar & Petit 2017 with the MMR-overlap correction of
+  Petit, Laskar & Boue 2017) of the two new pairs, with the system's total
+  AMD (:mod:`.amd`).
+
+Assumptions (stated in every output): the test planet is on a circular orbit
+in the system's reference plane, so it adds no AMD; its mass is given, by
+default the geometric mean of its neighbours' masses.  Stability is judged by
+these analytic criteria only, so a "fits" is a statistical estimate, not a
+guarantee, and a test planet that passes them may still be destabilised over
+Gyr by secular or resonant effects.
+
+Internal units: day, au, M_sun, rad.  Draw arrays are ``(n_draws,)`` per
+planet; trial periods add a trailing axis ``(n_draws, n_trial)``.
+
+References
+----------
+.. [1] Barnes, R. & Raymond, S. N. 2004, ApJ 617, 569 (packed planetary systems).
+.. [2] Fang, J. & Margot, J.-L. 2013, ApJ 767, 115 ("Are planetary systems filled to capacity?").
+.. [3] Gladman, B. 1993, Icarus 106, 247.
+.. [4] Laskar, J. & Petit, A. C. 2017, A&A 605, A72.
+.. [5] Pu, B. & Wu, Y. 2015, ApJ 807, 44 (about 10 mutual Hill radii for Gyr stability).
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from . import amd, hill, kepler
+
+__all__ = ["MIN_HILL_SEPARATION", "N_TRIAL", "default_test_mass", "trial_periods", "gap_fit",
+           "fit_range", "packed"]
+
+#: Minimum spacing of the test planet from each neighbour, in mutual Hill radii.
+#: About 10 R_H,m is the spacing below which circular, coplanar multi-planet
+#: systems go unstable within Gyr (Pu & Wu 2015; Chambers, Wetherill & Boss 1996:
+#: "systems with Delta < 10 are also unstable"); the same threshold as the
+#: tool's spacing heuristic.
+MIN_HILL_SEPARATION = 10.0
+#: Trial periods per gap, log-spaced between the neighbours (resolution
+#: ln(P_out/P_in)/N_TRIAL in ln P: 0.5 % for a factor-2 gap).
+N_TRIAL = 128
+
+
+def default_test_mass(m_in, m_out):
+    """Geometric mean of the neighbours' masses, :math:`\\sqrt{m_{in} m_{out}}` [same unit]."""
+    return np.sqrt(np.asarray(m_in, dtype=float) * np.asarray(m_out, dtype=float))
+
+
+def trial_periods(p_in, p_out, n=N_TRIAL):
+    """``n`` log-spaced periods strictly inside (p_in, p_out) (midpoints in ln P), shape (n,)."""
+    if not (np.isfinite(p_in) and np.isfinite(p_out) and 0 < p_in < p_out):
+        raise ValueError(f"need 0 < p_in < p_out; got {p_in!r}, {p_out!r}")
+    x = (np.arange(n) + 0.5) / n
+    return p_in * (p_out / p_in) ** x
+
+
+def gap_fit(p_test, a_in, a_out, m_in, m_out, e_in, e_out, m_star, m_test, amd_total,
+            min_hill=MIN_HILL_SEPARATION):
+    """Which trial periods of one gap can hold the test planet, per draw and criterion.
+
+    Parameters
+    ----------
+    p_test : array_like, shape (n_trial,)
+        Trial periods [day].
+    a_in, a_out, m_in, m_out, e_in, e_out : array_like, shape (n_draws,)
+        Semi-major axes [au], masses [M_sun] and eccentricities of the inner
+        and outer neighbour.
+    m_star : array_like, shape (n_draws,)
+        Stellar mass [M_sun].
+    m_test : array_like, shape (n_draws,) or scalar
+        Test-planet mass [M_sun].
+    amd_total : array_like, shape (n_draws,)
+        Total AMD of the system [M_sun au^2 / day] (:func:`.amd.system_amd`);
+        the circular, coplanar test planet adds none.
+    min_hill : float
+        Minimum spacing from each neighbour [mutual Hill radii].
+
+    Returns
+    -------
+    flags : dict of ndarray of bool, each (n_draws, n_trial)
+        ``"hill_spacing"``, ``"gladman"``, ``"amd"`` and ``"fits"`` (all three).
+    """
+    col = [np.asarray(x, dtype=float)[..., None] for x in (a_in, a_out, m_in, m_out, e_in, e_out, m_star,
+                                                             m_test, amd_total)]
+    a1, a2, m1, m2, e1, e2, ms, mt, c_tot = col                           # (n_draws, 1)
+    P = np.asarray(p_test, dtype=float)                                   # (n_trial,)
+    at = kepler.a_au(P, ms + mt)                                          # (n_draws, n_trial)
+    inside = (at > a1) & (at < a2)
+    # keep the kernels' strict input checks away from trial points outside the gap
+    at_ok = np.where(inside, at, 0.5 * (a1 + a2))
+    d_in = hill.hill_separation(a1, at_ok, m1, mt, ms)
+    d_out = hill.hill_separation(at_ok, a2, mt, m2, ms)
+    hill_ok = inside & (d_in >= min_hill) & (d_out >= min_hill)
+    glad_ok = inside & (hill.gladman_margin(a1, at_ok, m1, mt, ms, e1, 0.0) > 0.0) & (
+        hill.gladman_margin(at_ok, a2, mt, m2, ms, 0.0, e2) > 0.0)
+    # AMD stability of the two new pairs (inner, test) and (test, outer): beta = C / (Lambda' C_crit)
+    # a zero critical AMD (first-order MMR overlap, Petit, Laskar & Boue 2017) is unstable, as in amd_beta
+    den_in = amd.lambda_circ(mt, at_ok, ms) * amd.pair_critical_amd(a1 / at_ok, m1 / mt, (m1 + mt) / ms)
+    den_out = amd.lambda_circ(m2, a2, ms) * amd.pair_critical_amd(at_ok / a2, mt / m2, (mt + m2) / ms)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        beta_in = np.where(den_in > 0.0, c_tot / den_in, np.inf)
+        beta_out = np.where(den_out > 0.0, c_tot / den_out, np.inf)
+        amd_ok = inside & (beta_in < 1.0) & (beta_out < 1.0)
+    return {"hill_spacing": hill_ok, "gladman": glad_ok, "amd": amd_ok,
+            "fits": hill_ok & glad_ok & amd_ok}
+
+
+def fit_range(p_test, fits):
+    """Per draw: does anything fit, and the lowest and highest trial period that fits.
+
+    Parameters
+    ----------
+    p_test : array_like, shape (n_trial,)
+    fits : array_like of bool, shape (n_draws, n_trial)
+
+    Returns
+    -------
+    any_fit : ndarray of bool, shape (n_draws,)
+    p_lo, p_hi : ndarray, shape (n_draws,)
+        NaN where nothing fits.  The criteria are monotonic in the test
+        planet's distance from each neighbour, so the fitting periods form one
+        interval [p_lo, p_hi] (to the trial-grid resolution).
+    """
+    P = np.asarray(p_test, dtype=float)
+    f = np.asarray(fits, dtype=bool)
+    any_fit = f.any(axis=-1)
+    first = np.argmax(f, axis=-1)
+    last = f.shape[-1] - 1 - np.argmax(f[..., ::-1], axis=-1)
+    return any_fit, np.where(any_fit, P[first], np.nan), np.where(any_fit, P[last], np.nan)
+
+
+def packed(any_fit_per_gap):
+    """System "packed" per draw: no gap can hold a test planet.
+
+    Parameters
+    ----------
+    any_fit_per_gap : array_like of bool, shape (n_draws, n_gaps)
+
+    Returns
+    -------
+    ndarray of bool, shape (n_draws,)
+    """
+    return ~np.any(np.asarray(any_fit_per_gap, dtype=bool), axis=-1)
