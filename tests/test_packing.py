@@ -9,7 +9,7 @@ solved by hand below and the AMD coefficients of an explicitly augmented system.
 import numpy as np
 import pytest
 
-from archsys.physics import amd, kepler, packing
+from archsys.physics import amd, hill, kepler, packing
 from archsys.physics.constants import MEARTH_MSUN
 
 
@@ -61,9 +61,15 @@ def test_gladman_limit_two_sqrt_three():
     m_in, m_out = 5 * MEARTH_MSUN, 12 * MEARTH_MSUN
     grid, flags, (a_in, a_out, m_t) = _run(10.0, 14.0, m_in, m_out, min_hill=0.0, n=20000)
     _, lo, hi = packing.fit_range(grid, flags["gladman"])
-    p_lo, p_hi = _edges_by_hand(a_in, a_out, m_in, m_out, m_t, 1.0, 2.0 * np.sqrt(3.0))
-    assert lo[0] == pytest.approx(p_lo, rel=2e-4)
-    assert hi[0] == pytest.approx(p_hi, rel=2e-4)
+    # the critical spacing of each new pair, 2 sqrt(3) up to a small mass-dependent term
+    d_in = hill.gladman_critical_separation(m_in, m_t, 1.0)
+    d_out = hill.gladman_critical_separation(m_t, m_out, 1.0)
+    assert d_in == pytest.approx(2 * np.sqrt(3), rel=1e-3) and d_out == pytest.approx(2 * np.sqrt(3), rel=1e-3)
+    p_lo, _ = _edges_by_hand(a_in, a_out, m_in, m_out, m_t, 1.0, d_in)
+    _, p_hi = _edges_by_hand(a_in, a_out, m_in, m_out, m_t, 1.0, d_out)
+    step = np.log(14.0 / 10.0) / grid.size
+    assert abs(np.log(lo[0] / p_lo)) <= step
+    assert abs(np.log(hi[0] / p_hi)) <= step
 
 
 def test_amd_flags_agree_with_augmented_system():
