@@ -61,10 +61,11 @@ def test_gladman_limit_two_sqrt_three():
     m_in, m_out = 5 * MEARTH_MSUN, 12 * MEARTH_MSUN
     grid, flags, (a_in, a_out, m_t) = _run(10.0, 14.0, m_in, m_out, min_hill=0.0, n=20000)
     _, lo, hi = packing.fit_range(grid, flags["gladman"])
-    # the critical spacing of each new pair, 2 sqrt(3) up to a small mass-dependent term
+    # the critical spacing of each new pair: 2 sqrt(3) (Gladman 1993) up to a small term that
+    # depends on the masses and their ratio (0.2 % here)
     d_in = hill.gladman_critical_separation(m_in, m_t, 1.0)
     d_out = hill.gladman_critical_separation(m_t, m_out, 1.0)
-    assert d_in == pytest.approx(2 * np.sqrt(3), rel=1e-3) and d_out == pytest.approx(2 * np.sqrt(3), rel=1e-3)
+    assert d_in == pytest.approx(2 * np.sqrt(3), rel=3e-3) and d_out == pytest.approx(2 * np.sqrt(3), rel=3e-3)
     p_lo, _ = _edges_by_hand(a_in, a_out, m_in, m_out, m_t, 1.0, d_in)
     _, p_hi = _edges_by_hand(a_in, a_out, m_in, m_out, m_t, 1.0, d_out)
     step = np.log(14.0 / 10.0) / grid.size
