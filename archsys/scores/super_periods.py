@@ -1,0 +1,70 @@
+"""Super-periods and approximate TTV amplitudes of near-resonant pairs (Lithwick, Xie & Wu 2012).
+
+A pair whose period ratio lies within :data:`MAX_OFFSET` (fractional) of a
+first- or second-order resonance j:(j-k) gets the posterior of its
+super-period 1/|j/P' - (j-k)/P|.  First-order pairs with masses also get the
+order of magnitude of the TTV amplitudes of both planets from the formulae of
+Lithwick, Xie & Wu (2012), for an assumed free eccentricity (default zero:
+forced TTVs only); these are labelled approximate.
+"""
+from __future__ import annotations
+
+from collections import Counter
+
+import numpy as np
+
+from ..inference.summary import summarize
+from ..physics import spacing, timing
+from .common import effective_mass
+
+__all__ = ["super_period_block", "MAX_OFFSET"]
+
+#: Largest |Delta| (fractional offset of the period ratio from the resonance,
+#: posterior median) for which a super-period is reported.  A choice of this
+#: tool: LXW12's formulae assume the pair is near, but not in, resonance, and
+#: Kepler's near-resonant pairs sit 1-2 % wide (REFERENCES.md section 6).
+MAX_OFFSET = 0.05
+MINUTES_PER_DAY = 1440.0
+CITATION = "Lithwick, Xie & Wu 2012"
+
+
+def super_period_block(post, free_eccentricity=0.0):
+    """JSON-ready list, one entry per adjacent pair near a first- or second-order resonance."""
+    P = np.asarray(post["period"], dtype=float)
+    names = post.system.planet_names
+    m = effective_mass(post)
+    ms = np.asarray(post["m_star"], dtype=float)
+    notes = getattr(post, "notes", {}) or {}
+    out = []
+    for i in range(P.shape[1] - 1):
+        p1, p2 = P[:, i], P[:, i + 1]
+        ok = np.isfinite(p1) & np.isfinite(p2) & (p2 > p1)
+        if not ok.any():
+            continue
+        j, k, off = spacing.nearest_mmr(p2[ok] / p1[ok], max_order=2)
+        (bj, bk), _ = Counter(zip(j.tolist(), k.tolist())).most_common(1)[0]
+        delta = p2[ok] / p1[ok] * (bj - bk) / bj - 1.0
+        if abs(np.median(delta)) > MAX_OFFSET:
+            continue
+        sup = timing.super_period(p1[ok], p2[ok], bj, bk)
+        entry = {"inner": names[i], "outer": names[i + 1], "resonance": spacing.mmr_label(bj, bk),
+                 "order": int(bk), "offset": summarize(delta), "super_period_day": summarize(sup),
+                 "citation": CITATION}
+        mu1, mu2 = m[ok, i] / ms[ok], m[ok, i + 1] / ms[ok]
+        have_mass = np.isfinite(mu1) & np.isfinite(mu2)
+        if bk == 1 and have_mass.any():
+            z = float(free_eccentricity)
+            a_in, a_out = timing.ttv_amplitudes(p1[ok][have_mass], p2[ok][have_mass], mu1[have_mass],
+                                                mu2[have_mass], bj, z_free=z)
+            minimum = any("minimum" in str(notes.get(nm, {}).get("mass", "")) for nm in names[i:i + 2])
+            entry["ttv_amplitude_inner_min"] = summarize(a_in * MINUTES_PER_DAY)
+            entry["ttv_amplitude_outer_min"] = summarize(a_out * MINUTES_PER_DAY)
+            entry["ttv_assumptions"] = (
+                f"approximate (order of magnitude): Lithwick, Xie & Wu 2012 formulae, free eccentricity "
+                f"|Z_free| = {z:g}" + (" (forced TTV only)" if z == 0 else ", averaged over its unknown phase")
+                + ("; m sin i used where the true mass is unknown, so amplitudes are lower limits" if minimum
+                   else ""))
+        elif bk == 2:
+            entry["ttv_assumptions"] = "second-order resonance: super-period only"
+        out.append(entry)
+    return out
