@@ -91,6 +91,7 @@ def gap_fit(p_test, a_in, a_out, m_in, m_out, e_in, e_out, m_star, m_test, amd_t
     -------
     flags : dict of ndarray of bool, each (n_draws, n_trial)
         ``"hill_spacing"``, ``"gladman"``, ``"amd"`` and ``"fits"`` (all three).
+        ``"amd"`` is evaluated only where both Hill criteria hold (False elsewhere).
     """
     col = [np.asarray(x, dtype=float)[..., None] for x in (a_in, a_out, m_in, m_out, e_in, e_out, m_star,
                                                              m_test, amd_total)]
@@ -106,13 +107,21 @@ def gap_fit(p_test, a_in, a_out, m_in, m_out, e_in, e_out, m_star, m_test, amd_t
     glad_ok = inside & (hill.gladman_margin(a1, at_ok, m1, mt, ms, e1, 0.0) > 0.0) & (
         hill.gladman_margin(at_ok, a2, mt, m2, ms, 0.0, e2) > 0.0)
     # AMD stability of the two new pairs (inner, test) and (test, outer): beta = C / (Lambda' C_crit)
-    # a zero critical AMD (first-order MMR overlap, Petit, Laskar & Boue 2017) is unstable, as in amd_beta
-    den_in = amd.lambda_circ(mt, at_ok, ms) * amd.pair_critical_amd(a1 / at_ok, m1 / mt, (m1 + mt) / ms)
-    den_out = amd.lambda_circ(m2, a2, ms) * amd.pair_critical_amd(at_ok / a2, mt / m2, (mt + m2) / ms)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        beta_in = np.where(den_in > 0.0, c_tot / den_in, np.inf)
-        beta_out = np.where(den_out > 0.0, c_tot / den_out, np.inf)
-        amd_ok = inside & (beta_in < 1.0) & (beta_out < 1.0)
+    # AMD stability of the two new pairs (inner, test) and (test, outer): beta = C / (Lambda' C_crit);
+    # a zero critical AMD (first-order MMR overlap, Petit, Laskar & Boue 2017) is unstable, as in
+    # amd.amd_beta.  Evaluated only where the Hill criteria pass (the bisection is the costly part);
+    # the "amd" flag is therefore meaningful only where "hill_spacing" and "gladman" hold.
+    cand = hill_ok & glad_ok
+    amd_ok = np.zeros(cand.shape, dtype=bool)
+    if cand.any():
+        b = np.broadcast_arrays(a1, a2, m1, m2, ms, mt, c_tot, at_ok)
+        A1, A2, M1, M2, MS, MT, C, AT = (x[cand] for x in b)
+        den_in = amd.lambda_circ(MT, AT, MS) * amd.pair_critical_amd(A1 / AT, M1 / MT, (M1 + MT) / MS)
+        den_out = amd.lambda_circ(M2, A2, MS) * amd.pair_critical_amd(AT / A2, MT / M2, (MT + M2) / MS)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            beta_in = np.where(den_in > 0.0, C / den_in, np.inf)
+            beta_out = np.where(den_out > 0.0, C / den_out, np.inf)
+        amd_ok[cand] = (beta_in < 1.0) & (beta_out < 1.0)
     return {"hill_spacing": hill_ok, "gladman": glad_ok, "amd": amd_ok,
             "fits": hill_ok & glad_ok & amd_ok}
 

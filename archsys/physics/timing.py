@@ -39,10 +39,10 @@ import numpy as np
 __all__ = ["super_period", "lxw_delta", "laplace_coefficient", "ttv_coefficients", "ttv_amplitudes",
            "N_LAPLACE"]
 
-#: Trapezoid nodes for the Laplace-coefficient integrals.  The integrand is
-#: periodic and analytic, so the error falls like alpha^N: below 1e-13 for
-#: alpha < 0.94 (the 11:10 resonance).
-N_LAPLACE = 512
+#: Most trapezoid nodes for the Laplace-coefficient integrals.  The integrand
+#: is periodic and analytic, so the error falls like alpha^N; the node count is
+#: chosen per call so that alpha_max^N < 1e-15 (at most N_LAPLACE: alpha < 0.97).
+N_LAPLACE = 1024
 
 
 def super_period(p_in, p_out, j, k=1):
@@ -77,19 +77,22 @@ def lxw_delta(p_in, p_out, j):
     return np.asarray(p_out, dtype=float) / np.asarray(p_in, dtype=float) * (j - 1.0) / j - 1.0
 
 
-def laplace_coefficient(s, j, alpha, derivative=False, n=N_LAPLACE):
+def laplace_coefficient(s, j, alpha, derivative=False, n=None):
     r"""Laplace coefficient :math:`b_s^{(j)}(\alpha)` or its derivative :math:`\mathrm{d}b/\mathrm{d}\alpha`.
 
     .. math:: b_s^{(j)}(\alpha) = \frac{1}{\pi}\int_0^{2\pi}
               \frac{\cos j\psi\,\mathrm{d}\psi}{(1 - 2\alpha\cos\psi + \alpha^2)^s}
 
     (Murray & Dermott 1999 eq. 6.67), by the trapezoid rule, which converges
-    geometrically for this periodic integrand.  ``j`` and ``alpha`` broadcast.
+    geometrically for this periodic integrand.  ``j`` and ``alpha`` broadcast;
+    ``n`` (nodes) defaults to what makes :math:`\alpha_{max}^n < 10^{-15}`.
     """
     a = np.asarray(alpha, dtype=float)[..., None]
     jj = np.asarray(j, dtype=float)[..., None]
     if np.any((a <= 0) | (a >= 1)):
         raise ValueError("alpha must be in (0, 1)")
+    if n is None:
+        n = int(np.clip(np.ceil(np.log(1e-15) / np.log(a.max())) + 2 * np.max(jj), 64, N_LAPLACE))
     psi = 2.0 * np.pi * np.arange(n) / n
     base = 1.0 - 2.0 * a * np.cos(psi) + a * a
     if derivative:

@@ -30,7 +30,7 @@ __all__ = ["companion_transit_block", "transit_probability_curve", "candidates",
 #: Periods on the hypothetical-planet curve.
 N_CURVE = 41
 #: Draws used for the curve (evenly thinned; the curve is smooth in each draw).
-CURVE_DRAWS = 800
+CURVE_DRAWS = 400
 
 ASSUMPTIONS = ("probability over the posterior draws; orbit normals tilted from the reference plane by "
                "a Rayleigh(sigma) angle at a uniform azimuth (the tool's orientation model)")

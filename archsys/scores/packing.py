@@ -111,7 +111,7 @@ def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARAT
                  "fit_interval_day": _shade_interval(g["p_test"], g["flags"])}
         if g["flags"] is not None:
             entry["criterion_pass_probability"] = {
-                k: probability(g["flags"][k].any(axis=1)) for k in ("hill_spacing", "gladman", "amd")}
+                k: probability(g["flags"][k].any(axis=1)) for k in ("hill_spacing", "gladman")}
         gaps.append(entry)
     cols = np.stack(fit_cols, axis=1)                                  # (n, n_gaps)
     known = np.all(np.isfinite(cols), axis=1)
