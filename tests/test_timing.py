@@ -85,14 +85,13 @@ def _three_body_transit_times(m1, m2, P1, P2, t_end):
     pos -= (mass[:, None] * pos).sum(0) / mass.sum()
     vel -= (mass[:, None] * vel).sum(0) / mass.sum()
 
+    eye = np.eye(3, dtype=bool)
+
     def rhs(t, y):
         r = y[:6].reshape(3, 2)
-        acc = np.zeros((3, 2))
-        for i in range(3):
-            for k in range(3):
-                if i != k:
-                    d = r[k] - r[i]
-                    acc[i] += GM * mass[k] * d / np.linalg.norm(d) ** 3
+        d = r[None, :, :] - r[:, None, :]                          # d[i, k] = r_k - r_i
+        dist3 = np.where(eye, 1.0, np.sum(d * d, axis=-1) ** 1.5)
+        acc = GM * np.sum(np.where(eye[..., None], 0.0, mass[None, :, None] * d / dist3[..., None]), axis=1)
         return np.concatenate([y[6:], acc.ravel()])
 
     def event(i):
@@ -118,7 +117,7 @@ def _ttv_amplitude(times, p_sup):
     return np.hypot(coef[2], coef[3]), coef[1]
 
 
-@pytest.mark.parametrize("j,p_out", [(3, 15.3), (2, 20.4)])
+@pytest.mark.parametrize("j,p_out", [(3, 15.3), pytest.param(2, 20.4, marks=pytest.mark.slow)])
 def test_ttv_amplitudes_against_three_body_integration(j, p_out):
     # Independent check: integrate the three-body problem (one Earth mass each, Delta = +0.02,
     # about three super-periods), measure the transit times, fit a linear ephemeris plus a
