@@ -8,6 +8,7 @@ import numpy as np
 from ..inference.summary import probability, summarize
 from ..physics import spacing
 from .pairs import amd_arrays, pair_arrays
+from .predictions import add_predictions
 from .system import flatness_block, instability_block, spacing_block
 
 __all__ = ["compute_scores", "WIDE_RATIO"]
@@ -100,6 +101,7 @@ def compute_scores(post, options=None) -> dict:
         ib = instability_block(post, arr)
         if ib is not None:
             system["spacing_heuristic"] = ib
+    add_predictions(post, options, pairs, system)
     system["verdicts"] = _verdicts(pairs, system)
     return {"pairs": pairs, "system": system, "arrays": arr}
 
