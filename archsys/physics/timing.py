@@ -145,15 +145,16 @@ def ttv_amplitudes(p_in, p_out, mu_in, mu_out, j, z_free=0.0):
         :math:`|V|` and :math:`|V'|` averaged in quadrature over the unknown
         phase of Z_free: :math:`\\sqrt{f^2 + (3|Z|/2\\Delta)^2}` in place of
         :math:`|-f - 3Z^*/2\\Delta|` (and g for the outer planet).  Order of
-        magnitude only; see the module notes.
+        magnitude only; see the module notes.  Not finite at exact
+        commensurability (Delta = 0), where the formulae do not apply.
     """
     P, Pp = np.asarray(p_in, dtype=float), np.asarray(p_out, dtype=float)
     j = np.asarray(j)
     delta = lxw_delta(P, Pp, j)
     alpha = (P / Pp) ** (2.0 / 3.0)
     f, g = ttv_coefficients(j, alpha)
-    free = 1.5 * np.asarray(z_free, dtype=float) / np.abs(delta)
-    with np.errstate(divide="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore"):
+        free = 1.5 * np.asarray(z_free, dtype=float) / np.abs(delta)
         amp_in = P * np.asarray(mu_out) / (np.pi * j ** (2.0 / 3.0) * (j - 1.0) ** (1.0 / 3.0) * np.abs(delta)) \
             * np.hypot(f, free)
         amp_out = Pp * np.asarray(mu_in) / (np.pi * j * np.abs(delta)) * np.hypot(g, free)

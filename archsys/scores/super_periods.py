@@ -52,6 +52,11 @@ def super_period_block(post, free_eccentricity=0.0):
                  "citation": CITATION}
         mu1, mu2 = m[ok, i] / ms[ok], m[ok, i + 1] / ms[ok]
         have_mass = np.isfinite(mu1) & np.isfinite(mu2)
+        if have_mass.any():
+            # inside the resonance width the pair may librate: LXW12's near-resonance formulae do not apply
+            e_pair = np.maximum(post["ecc"][ok, i], post["ecc"][ok, i + 1])[have_mass]
+            width = spacing.resonance_width(bj, bk, (mu1 + mu2)[have_mass], np.nan_to_num(e_pair))
+            entry["within_resonance_width_probability"] = float(np.mean(np.abs(delta[have_mass]) < width))
         if bk == 1 and have_mass.any():
             z = float(free_eccentricity)
             a_in, a_out = timing.ttv_amplitudes(p1[ok][have_mass], p2[ok][have_mass], mu1[have_mass],
