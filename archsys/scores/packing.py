@@ -18,10 +18,12 @@ from ..physics import amd, packing
 from ..physics.constants import MEARTH_MSUN
 from .common import effective_mass
 
-__all__ = ["packing_block", "packing_arrays", "MAX_DRAWS", "SHADE_PROBABILITY"]
+__all__ = ["packing_block", "packing_arrays", "MAX_DRAWS", "MAX_DRAWS_FAST", "SHADE_PROBABILITY"]
 
 #: Draws used (evenly thinned): the grid costs n_draws x N_TRIAL per gap.
 MAX_DRAWS = 1000
+#: Draws used in the survey's fast mode (probabilities to about +/- 3 %).
+MAX_DRAWS_FAST = 250
 #: A trial period is shaded on the figure where the test planet fits in at
 #: least this fraction of the draws.
 SHADE_PROBABILITY = 0.5
@@ -90,9 +92,9 @@ def _shade_interval(grid, flags):
     return [float(grid[inside[0]]), float(grid[inside[-1]])]
 
 
-def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARATION):
+def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARATION, max_draws=MAX_DRAWS):
     """JSON-ready block: per gap and for the system (None with fewer than two planets)."""
-    arr = packing_arrays(post, test_mass_mearth, min_hill)
+    arr = packing_arrays(post, test_mass_mearth, min_hill, max_draws=max_draws)
     if arr is None:
         return None
     names = post.system.planet_names

@@ -434,6 +434,7 @@ def run_survey(catalog, out, *, columns=None, where=(), resume=False, scheduler=
 def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, where, limit, figures):
     from .hierarchical import eccentricity_population, tilt_population
     from .population import population_statistics
+    from .predictions import prediction_population
     status = store.systems(ids)
     if len(status) != len(ids):  # pragma: no cover - every selected system is stored above
         raise RuntimeError(f"store holds {len(status)} of {len(ids)} selected systems")
@@ -468,6 +469,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, w
            "options": {k: v for k, v in opts.as_dict().items() if k != "seed"},
            "seeds": "per system: SeedSequence([seed, crc32(system id)])", "counts": counts}
     pop.update(population_statistics(ok_rows, pairs, seed=seed))
+    pop["predictions"] = prediction_population(ok_rows, pairs)
     ecc_samples, ecc_lp0, psi_samples, psi_lp0, ecc_info = _hier_inputs(store, ids, ok_rows)
     psi_interims = ecc_info.pop("psi_interims")
     ecc_pop = eccentricity_population(ecc_samples, ecc_lp0, seed=int(seed) + 11,
