@@ -147,3 +147,17 @@ def test_packing_block_room_and_packed_probability():
     assert heavy["fit_interval_day"][0] > lo and heavy["fit_interval_day"][1] < hi
     # with a 25 R_H,m threshold nothing fits anywhere: packed in every draw
     assert packing_block(_posterior(_system()), min_hill=25.0)["packed_probability"] == 1.0
+
+
+def test_transit_odds_figure_from_document():
+    # The figure reads only the document: curve, band, isotropic line and the companion's marker.
+    from archsys.output.figure_transit_odds import transit_odds_figure
+    post = _posterior(_system(), ref_inc_deg=89.5, sigma_deg=1.0)
+    doc = {"system": "Test", "planets": [{"name": "T d", "period_days": {"median": 45.0}}],
+           "transit_probability_curve": transit_probability_curve(post),
+           "companion_transits": companion_transit_block(post)}
+    fig = transit_odds_figure(doc)
+    ax = fig.axes[0]
+    assert len(ax.lines) == 3                                     # mean, isotropic, one companion
+    assert ax.get_xscale() == "log" and ax.get_xlabel() == "period [d]"
+    assert transit_odds_figure({"planets": []}) is None
