@@ -161,3 +161,27 @@ def test_transit_odds_figure_from_document():
     assert len(ax.lines) == 3                                     # mean, isotropic, one companion
     assert ax.get_xscale() == "log" and ax.get_xlabel() == "period [d]"
     assert transit_odds_figure({"planets": []}) is None
+
+
+def test_readme_worked_example_numbers():
+    # Regression of the README's worked example (invented demo system Perrow, seed 0, 4000 draws):
+    # the rounded numbers printed there must stay true.
+    from archsys.model.reader import read_system
+    from archsys.pipeline import analyze
+    import pathlib
+    path = pathlib.Path(__file__).resolve().parents[1] / "demo_systems" / "perrow.toml"
+    doc = analyze(read_system(path)).document
+    (ct,) = doc["companion_transits"]
+    assert round(100 * ct["probability"]) == 60 and round(100 * ct["isotropic_probability"], 1) == 2.7
+    b, c = doc["pairs"]
+    assert b["room_for_planet"]["fit_probability"] == 0.0
+    assert round(100 * c["room_for_planet"]["fit_probability"]) == 94
+    lo, hi = c["room_for_planet"]["fit_interval_day"]
+    assert (round(lo, 1), round(hi, 1)) == (12.3, 14.7)
+    assert round(100 * doc["packing"]["packed_probability"]) == 6
+    assert round(b["super_period"]["days"]["median"], 1) == 177.6
+    assert round(b["super_period"]["ttv_amplitude_inner_min"]["median"], 1) == 3.3
+    assert c["super_period"]["resonance"] == "3:1" and "ttv_amplitude_inner_min" not in c["super_period"]
+    curve = doc["transit_probability_curve"]
+    at = [float(np.interp(np.log(x), np.log(curve["period_day"]), curve["probability"])) for x in (10, 24, 48)]
+    assert [round(100 * x) for x in at] == [88, 61, 20]
