@@ -112,8 +112,8 @@ def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARAT
                  "fit_period_max_day": summarize(g["p_hi"]) if np.isfinite(g["p_hi"]).any() else None,
                  "fit_interval_day": _shade_interval(g["p_test"], g["flags"])}
         if g["flags"] is not None:
-            entry["criterion_pass_probability"] = {
-                k: probability(g["flags"][k].any(axis=1)) for k in ("hill_spacing", "gladman")}
+            for k in ("hill_spacing", "gladman"):
+                entry[f"{k}_pass_probability"] = probability(g["flags"][k].any(axis=1))
         gaps.append(entry)
     cols = np.stack(fit_cols, axis=1)                                  # (n, n_gaps)
     known = np.all(np.isfinite(cols), axis=1)
@@ -121,7 +121,6 @@ def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARAT
         "gaps": gaps,
         "packed_probability": probability(packing.packed(cols[known] > 0.5)) if known.any() else None,
         "draws": int(known.sum()),
-        "min_hill_separation": float(min_hill),
         "assumptions": ("test planet on a circular orbit in the reference plane; fits where it is at least "
                         f"{min_hill:g} mutual Hill radii from both neighbours, Hill stable with both "
                         "(Gladman 1993) and the new pairs are AMD stable (Laskar & Petit 2017); "
