@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import sys
 import warnings
 
@@ -53,15 +54,32 @@ def _add_analysis_options(p):
     g.add_argument("--quiet", action="store_true", help="no progress bar")
 
 
+def _add_prediction_options(p):
+    """Options of the predictions (report only; the survey uses the defaults)."""
+    g = p.add_argument_group("predictions")
+    g.add_argument("--probe-mass", type=float, default=None, metavar="MEARTH",
+                   help="mass of the test planet put in each gap (Earth masses; default: geometric mean "
+                        "of its neighbours)")
+    g.add_argument("--ttv-free-ecc", type=float, default=0.0, metavar="E",
+                   help="free eccentricity assumed for the approximate TTV amplitudes (default 0: forced only)")
+
+
 def _options(args):
     from .pipeline import AnalysisOptions
     from .inference.draws import DEFAULT_DRAWS
     n = args.draws or (1000 if args.mode == "fast" else DEFAULT_DRAWS)
     if n < 10:
         raise InputError(f"--draws must be at least 10; got {n}")
+    probe = getattr(args, "probe_mass", None)
+    if probe is not None and not (math.isfinite(probe) and probe > 0):
+        raise InputError(f"--probe-mass must be a positive number of Earth masses; got {probe}")
+    z_free = getattr(args, "ttv_free_ecc", 0.0)
+    if not (math.isfinite(z_free) and 0.0 <= z_free < 1.0):
+        raise InputError(f"--ttv-free-ecc must be in [0, 1); got {z_free}")
     return AnalysisOptions(n_draws=n, seed=args.seed, mode=args.mode, ecc_prior=args.ecc_prior,
                            incl_prior=args.incl_prior, require_stable=args.require_stable,
-                           quiet=args.quiet, max_steps=args.max_steps, nbody=args.nbody, nbody_orbits=args.nbody_orbits, jobs=args.jobs)
+                           quiet=args.quiet, max_steps=args.max_steps, nbody=args.nbody, nbody_orbits=args.nbody_orbits, jobs=args.jobs,
+                           test_planet_mass=probe, ttv_free_eccentricity=z_free)
 
 
 def _cmd_report(args):
@@ -127,6 +145,7 @@ def build_parser():
     r.add_argument("--no-colour", action="store_true", help="plain text even on a terminal")
     r.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(r)
+    _add_prediction_options(r)
     r.set_defaults(func=_cmd_report)
 
     p = sub.add_parser("priors", help="list the bundled published priors with citations")

@@ -30,6 +30,8 @@ class AnalysisOptions:
     nbody: int = 0              # number of draws to integrate (0 = no N-body check)
     nbody_orbits: float = 1000.0  # N-body horizon in orbits of the outermost planet
     jobs: int = 1
+    test_planet_mass: float | None = None   # Earth masses; None: geometric mean of the gap's neighbours
+    ttv_free_eccentricity: float = 0.0      # assumed |Z_free| for the approximate TTV amplitudes
 
     def as_dict(self):
         return {k: getattr(self, k) for k in self.__dataclass_fields__ if k not in ("quiet", "jobs")}

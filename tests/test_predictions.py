@@ -185,3 +185,22 @@ def test_readme_worked_example_numbers():
     curve = doc["transit_probability_curve"]
     at = [float(np.interp(np.log(x), np.log(curve["period_day"]), curve["probability"])) for x in (10, 24, 48)]
     assert [round(100 * x) for x in at] == [88, 61, 20]
+
+
+def test_cli_probe_mass_and_free_eccentricity(capsys):
+    # Behaviour check (no outside source): the options reach the blocks and the provenance;
+    # bad values give one line and exit status 2.
+    import json
+    import pathlib
+    from archsys.cli import main
+    demo = str(pathlib.Path(__file__).resolve().parents[1] / "demo_systems" / "perrow.toml")
+    fast = ["--mode", "direct", "--draws", "300", "--quiet"]
+    assert main(["report", demo, "--json", *fast, "--probe-mass", "3", "--ttv-free-ecc", "0.01"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["pairs"][1]["room_for_planet"]["test_mass_basis"].startswith("3 Earth masses")
+    assert "|Z_free| = 0.01" in doc["pairs"][0]["super_period"]["ttv_assumptions"]
+    assert doc["provenance"]["options"]["test_planet_mass"] == 3.0
+    for bad in (["--probe-mass", "0"], ["--ttv-free-ecc", "1.5"]):
+        assert main(["report", demo, *fast, *bad]) == 2
+        err = capsys.readouterr().err.strip().splitlines()
+        assert len(err) == 1 and err[0].startswith("archsys: error:")
