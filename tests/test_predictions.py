@@ -55,25 +55,26 @@ def test_companion_transit_probability_counts_winn_condition():
     # The planet without `transiting` gets the fraction of draws with |b| < 1 (Winn 2010 eq. 7,
     # no radius: centre crossing), recomputed here from the same draws.
     post = _posterior(_system())
-    (entry,) = companion_transit_block(post)
-    assert entry["planet"] == "T d"
+    blocks = companion_transit_block(post)
+    assert blocks[:2] == [{}, {}]                                 # b and c are known to transit
+    entry = blocks[2]
     aor = post["a"][:, 2] / RSUN_AU
     b = aor * np.cos(post["inc"][:, 2])
-    assert entry["probability"] == pytest.approx(np.mean(np.abs(b) < 1.0), abs=1e-12)
+    assert entry["transit_probability"] == pytest.approx(np.mean(np.abs(b) < 1.0), abs=1e-12)
     # isotropic reference: Winn 2010 eq. 9, circular: mean of R*/a
-    assert entry["isotropic_probability"] == pytest.approx(np.mean(1.0 / aor), rel=1e-12)
+    assert entry["transit_probability_isotropic"] == pytest.approx(np.mean(1.0 / aor), rel=1e-12)
     # the architecture raises the odds well above isotropic for a nearly edge-on, flat system
-    assert entry["probability"] > 5 * entry["isotropic_probability"]
+    assert entry["transit_probability"] > 5 * entry["transit_probability_isotropic"]
 
 
 def test_companion_transit_probability_agrees_with_conditional_kernel():
     # Independent route: the mean over draws of the tilt-integrated conditional probability given
     # (reference plane, sigma) must agree with the fraction of sampled tilts (5 binomial errors).
     post = _posterior(_system(), ref_inc_deg=89.0, sigma_deg=2.0, seed=11)
-    (entry,) = companion_transit_block(post)
+    entry = companion_transit_block(post)[2]
     aor = post["a"][:, 2] / RSUN_AU
     p = transit_odds.conditional_transit_probability(aor, post["ref_inc"], post["sigma_mutual"]).mean()
-    assert abs(entry["probability"] - p) < 5 * np.sqrt(p * (1 - p) / N)
+    assert abs(entry["transit_probability"] - p) < 5 * np.sqrt(p * (1 - p) / N)
 
 
 def test_companion_transit_sigma_to_zero_is_reference_plane_indicator():
@@ -83,14 +84,14 @@ def test_companion_transit_sigma_to_zero_is_reference_plane_indicator():
     aor = kepler.a_au(45.0, 1.0 + 12 * MEARTH_MSUN) / RSUN_AU
     edge = np.degrees(np.arccos(1.0 / aor))
     for ref, expected in ((edge + 0.05, 1.0), (edge - 0.05, 0.0)):
-        (entry,) = companion_transit_block(_posterior(sys_, ref_inc_deg=ref, sigma_deg=1e-5))
-        assert entry["probability"] == expected
+        entry = companion_transit_block(_posterior(sys_, ref_inc_deg=ref, sigma_deg=1e-5))[2]
+        assert entry["transit_probability"] == expected
 
 
 def test_companion_transit_without_orientation_posterior_says_why():
-    (entry,) = companion_transit_block(_posterior(_system(), method="direct"))
-    assert entry["probability"] is None and "mcmc" in entry["reason"]
-    assert entry["isotropic_probability"] > 0
+    entry = companion_transit_block(_posterior(_system(), method="direct"))[2]
+    assert entry["transit_probability"] is None and "mcmc" in entry["transit_probability_basis"]
+    assert entry["transit_probability_isotropic"] > 0
 
 
 def test_transit_probability_curve_limits():
@@ -109,53 +110,55 @@ def test_transit_probability_curve_limits():
 
 def test_super_period_block_worked_example():
     # Lithwick, Xie & Wu 2012: 3:2 pair, 10 d and 15.3 d -> 1/|3/15.3 - 2/10| = 255 d (recomputed).
-    blocks = super_period_block(_posterior(_system()))
-    first = blocks[0]
-    assert (first["inner"], first["outer"], first["resonance"], first["order"]) == ("T b", "T c", "3:2", 1)
-    assert first["super_period_day"]["median"] == pytest.approx(1 / abs(3 / 15.3 - 2 / 10), rel=1e-12)
-    assert first["offset"]["median"] == pytest.approx(0.02, rel=1e-9)
-    assert "approximate" in first["ttv_assumptions"]
+    pairs, system = super_period_block(_posterior(_system()))
+    first = pairs[0]
+    assert (first["super_period_resonance"], first["super_period_order"]) == ("3:2", 1)
+    assert first["super_period_days"]["median"] == pytest.approx(1 / abs(3 / 15.3 - 2 / 10), rel=1e-12)
+    assert first["super_period_offset"]["median"] == pytest.approx(0.02, rel=1e-9)
+    assert "approximate" in system["timing"]["assumptions"]
     assert first["ttv_amplitude_inner_min"]["median"] > 0
     # 45 / 15.3 = 2.94: nearest 3:1 (second order), Delta = 2.94/3 - 1 = -0.0196 -> super-period only
-    second = blocks[1]
-    assert second["resonance"] == "3:1" and second["order"] == 2
-    assert second["super_period_day"]["median"] == pytest.approx(1 / abs(3 / 45.0 - 1 / 15.3), rel=1e-12)
+    second = pairs[1]
+    assert (second["super_period_resonance"], second["super_period_order"]) == ("3:1", 2)
+    assert second["super_period_days"]["median"] == pytest.approx(1 / abs(3 / 45.0 - 1 / 15.3), rel=1e-12)
     assert "ttv_amplitude_inner_min" not in second
 
 
 def test_super_period_block_skips_pairs_far_from_resonance():
-    # 10 d and 17.5 d: ratio 1.75 is 4.5 % from 5:3 and 12.5 % from 2:1... nearest is 5:3
-    # (1.6667, Delta = +0.05 exactly at the edge); 18.5 d (ratio 1.85) is > 5 % from both -> skipped
-    assert super_period_block(_posterior(_system(p_out=18.5, p_third=60.0))) == []
+    # 10 d and 18.5 d (ratio 1.85) and 18.5 d and 60 d (3.24): more than 5 % from every first- and
+    # second-order resonance (5:3 = 1.667, 2:1, 3:1) -> no super-period
+    pairs, system = super_period_block(_posterior(_system(p_out=18.5, p_third=60.0)))
+    assert pairs == [{}, {}] and system == {}
 
 
 def test_packing_block_room_and_packed_probability():
     # Gap 15.3 -> 45 d (factor 2.9) has room for a test planet; 10 -> 15.3 d is 12.0 mutual Hill
     # radii wide, too narrow for a planet 10 R_H,m from both neighbours: packed there.
-    blk = packing_block(_posterior(_system()))
-    g1, g2 = blk["gaps"]
-    assert g1["fit_probability"] == 0.0 and g1["fit_interval_day"] is None
-    assert g2["fit_probability"] == 1.0
-    lo, hi = g2["fit_interval_day"]
+    pairs, system = packing_block(_posterior(_system()))
+    g1, g2 = pairs
+    assert g1["room_fit_probability"] == 0.0 and g1["room_fit_interval_day"] is None
+    assert g2["room_fit_probability"] == 1.0
+    lo, hi = g2["room_fit_interval_day"]
     assert 15.3 < lo < hi < 45.0
-    assert blk["packed_probability"] == 0.0
+    assert system["packing"]["packed_probability"] == 0.0
     # default mass: geometric mean of 8 and 12 Earth masses = 9.80
-    assert g2["test_mass_mearth"]["median"] == pytest.approx(np.sqrt(96.0), rel=1e-9)
+    assert g2["room_test_mass_mearth"]["median"] == pytest.approx(np.sqrt(96.0), rel=1e-9)
     # a heavier given test planet needs more room: narrower interval
-    heavy = packing_block(_posterior(_system()), test_mass_mearth=30.0)["gaps"][1]
-    assert heavy["test_mass_basis"].startswith("30 Earth masses")
-    assert heavy["fit_interval_day"][0] > lo and heavy["fit_interval_day"][1] < hi
+    heavy = packing_block(_posterior(_system()), test_mass_mearth=30.0)[0][1]
+    assert heavy["room_test_mass_basis"].startswith("30 Earth masses")
+    assert heavy["room_fit_interval_day"][0] > lo and heavy["room_fit_interval_day"][1] < hi
     # with a 25 R_H,m threshold nothing fits anywhere: packed in every draw
-    assert packing_block(_posterior(_system()), min_hill=25.0)["packed_probability"] == 1.0
+    assert packing_block(_posterior(_system()), min_hill=25.0)[1]["packing"]["packed_probability"] == 1.0
 
 
 def test_transit_odds_figure_from_document():
     # The figure reads only the document: curve, band, isotropic line and the companion's marker.
     from archsys.output.figure_transit_odds import transit_odds_figure
     post = _posterior(_system(), ref_inc_deg=89.5, sigma_deg=1.0)
-    doc = {"system": "Test", "planets": [{"name": "T d", "period_days": {"median": 45.0}}],
-           "transit_probability_curve": transit_probability_curve(post),
-           "companion_transits": companion_transit_block(post)}
+    planets = [{"name": n, "period_days": {"median": P}} for n, P in (("T b", 10.0), ("T c", 15.3), ("T d", 45.0))]
+    for entry, extra in zip(planets, companion_transit_block(post)):
+        entry.update(extra)
+    doc = {"system": "Test", "planets": planets, "transit_probability_curve": transit_probability_curve(post)}
     fig = transit_odds_figure(doc)
     ax = fig.axes[0]
     assert len(ax.lines) == 3                                     # mean, isotropic, one companion
@@ -171,17 +174,18 @@ def test_readme_worked_example_numbers():
     import pathlib
     path = pathlib.Path(__file__).resolve().parents[1] / "demo_systems" / "perrow.toml"
     doc = analyze(read_system(path)).document
-    (ct,) = doc["companion_transits"]
-    assert round(100 * ct["probability"]) == 60 and round(100 * ct["isotropic_probability"], 1) == 2.7
+    ct = doc["planets"][2]
+    assert round(100 * ct["transit_probability"]) == 60 and round(100 * ct["transit_probability_isotropic"], 1) == 2.7
+    assert "transit_probability" not in doc["planets"][0]
     b, c = doc["pairs"]
-    assert b["room_for_planet"]["fit_probability"] == 0.0
-    assert round(100 * c["room_for_planet"]["fit_probability"]) == 94
-    lo, hi = c["room_for_planet"]["fit_interval_day"]
+    assert b["room_fit_probability"] == 0.0
+    assert round(100 * c["room_fit_probability"]) == 94
+    lo, hi = c["room_fit_interval_day"]
     assert (round(lo, 1), round(hi, 1)) == (12.3, 14.7)
     assert round(100 * doc["packing"]["packed_probability"]) == 6
-    assert round(b["super_period"]["days"]["median"], 1) == 177.6
-    assert round(b["super_period"]["ttv_amplitude_inner_min"]["median"], 1) == 3.3
-    assert c["super_period"]["resonance"] == "3:1" and "ttv_amplitude_inner_min" not in c["super_period"]
+    assert round(b["super_period_days"]["median"], 1) == 177.6
+    assert round(b["ttv_amplitude_inner_min"]["median"], 1) == 3.3
+    assert c["super_period_resonance"] == "3:1" and "ttv_amplitude_inner_min" not in c
     curve = doc["transit_probability_curve"]
     at = [float(np.interp(np.log(x), np.log(curve["period_day"]), curve["probability"])) for x in (10, 24, 48)]
     assert [round(100 * x) for x in at] == [88, 61, 20]
@@ -197,8 +201,8 @@ def test_cli_probe_mass_and_free_eccentricity(capsys):
     fast = ["--mode", "direct", "--draws", "300", "--quiet"]
     assert main(["report", demo, "--json", *fast, "--probe-mass", "3", "--ttv-free-ecc", "0.01"]) == 0
     doc = json.loads(capsys.readouterr().out)
-    assert doc["pairs"][1]["room_for_planet"]["test_mass_basis"].startswith("3 Earth masses")
-    assert "|Z_free| = 0.01" in doc["pairs"][0]["super_period"]["ttv_assumptions"]
+    assert doc["pairs"][1]["room_test_mass_basis"].startswith("3 Earth masses")
+    assert "|Z_free| = 0.01" in doc["timing"]["assumptions"]
     assert doc["provenance"]["options"]["test_planet_mass"] == 3.0
     for bad in (["--probe-mass", "0"], ["--ttv-free-ecc", "1.5"]):
         assert main(["report", demo, *fast, *bad]) == 2

@@ -21,7 +21,7 @@ def test_packed_probability_and_super_periods_reach_the_survey_tables():
     prows = [pair_row("Test", p) for p in sc["pairs"]]
     assert srow["packing_packed_probability"] == 0.0             # the 15.3 -> 45 d gap has room
     assert prows[0]["super_period_days_median"] == pytest.approx(1 / abs(3 / 15.3 - 2 / 10), rel=1e-12)
-    assert prows[1]["room_for_planet_fit_probability"] == 1.0
+    assert prows[1]["room_fit_probability"] == 1.0
     pop = prediction_population([srow], prows)
     assert pop["packing"]["systems"] == 1 and pop["packing"]["per_system"][0]["packed_probability"] == 0.0
     sp = pop["super_periods"]

@@ -73,7 +73,8 @@ def build_document(res) -> dict:
         "schema_version": SCHEMA_VERSION,
         "system": sysm.name,
         "star": star,
-        "planets": [_planet_entry(post, j, pl) for j, pl in enumerate(sysm.planets)],
+        "planets": [{**_planet_entry(post, j, pl), **extra}
+                    for j, (pl, extra) in enumerate(zip(sysm.planets, sc.get("planets") or [{}] * sysm.n_planets))],
         "pairs": sc["pairs"],
     }
     doc.update({k: v for k, v in sc["system"].items()})

@@ -1,7 +1,7 @@
 """Figure: probability that a planet transits, against period, given the architecture.
 
-Reads only the report document (``transit_probability_curve`` and
-``companion_transits``), so it can be redrawn from a saved result.  The shaded
+Reads only the report document (``transit_probability_curve`` and the
+planets' ``transit_probability``), so it can be redrawn from a saved result.  The shaded
 band is the 68.3 % spread of the per-draw probability; the dashed line is the
 isotropic probability R*/a (Winn 2010 eq. 9), i.e. what one would say without
 the other planets; markers are the planets not known to transit.
@@ -42,13 +42,12 @@ def transit_odds_figure(document, preset=None, fig=None):
                         label="68.3 % over draws")
         ax.plot(P, curve["probability"], color=PALETTE["blue"], label="given the architecture")
         ax.plot(P, curve["isotropic"], color=GREY, ls=(0, (4, 2)), label="isotropic")
-        periods = {pl["name"]: (pl.get("period_days") or {}).get("median") for pl in document.get("planets", [])}
-        for c in document.get("companion_transits", []) or []:
-            x, y = periods.get(c["planet"]), c.get("probability")
+        for pl in document.get("planets", []) or []:
+            x, y = (pl.get("period_days") or {}).get("median"), pl.get("transit_probability")
             if x is None or not y:
                 continue
             ax.plot([x], [y], "o", color=PALETTE["vermillion"], ms=4, zorder=3)
-            ax.annotate(c["planet"], (x, y), xytext=(3, 3), textcoords="offset points", fontsize=p.small_pt)
+            ax.annotate(pl["name"], (x, y), xytext=(3, 3), textcoords="offset points", fontsize=p.small_pt)
         floor = max(min(min(curve["isotropic"]), min(v for v in curve["lo"] if v > 0) if any(
             v > 0 for v in curve["lo"]) else 1.0) / 2.0, 1e-4)
         ax.set_ylim(floor, 1.3)

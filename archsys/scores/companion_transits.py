@@ -61,44 +61,48 @@ def _ror(post, j):
 
 
 def companion_transit_block(post):
-    """JSON-ready list, one entry per planet not known to transit (empty list if none)."""
+    """Per-planet keys (list over all planets; ``{}`` for planets known to transit or not to transit).
+
+    Keys: ``transit_probability`` (None with the reason in ``transit_probability_basis``
+    when it cannot be computed), ``transit_probability_mc_error`` (binomial, over the
+    draws), ``transit_probability_isotropic`` (Winn 2010 eq. 9 averaged over the draws),
+    ``transit_impact_parameter`` (posterior of |b|) and ``transit_probability_basis``.
+    """
     system = post.system
-    out = []
+    out = [{} for _ in system.planets]
     has_transits = system.has_transits
     for j in candidates(system):
-        p = system.planets[j]
         a, P = post["a"][:, j], post["period"][:, j]
         e, w = post["ecc"][:, j], post["omega"][:, j]
         aor = _aor(post, a, P)
         ror = _ror(post, j)
         k = np.zeros_like(aor) if ror is None else ror
-        entry = {"planet": p.name,
-                 "radius_basis": ("planet radius from the posterior (grazing transits count)" if ror is not None
-                                  else "planet radius unknown: its centre must cross the stellar disc")}
+        radius = ("planet radius from the posterior (grazing transits count)" if ror is not None
+                  else "planet radius unknown: its centre must cross the stellar disc")
         ok_iso = np.isfinite(aor) & np.isfinite(e) & np.isfinite(w) & np.isfinite(k)
-        entry["isotropic_probability"] = (float(np.mean(transit_odds.isotropic_transit_probability(
-            aor[ok_iso], k[ok_iso], e[ok_iso], w[ok_iso]))) if ok_iso.any() else None)
+        entry = {"transit_probability": None,
+                 "transit_probability_isotropic": (float(np.mean(transit_odds.isotropic_transit_probability(
+                     aor[ok_iso], k[ok_iso], e[ok_iso], w[ok_iso]))) if ok_iso.any() else None)}
         inc = post["inc"][:, j]
         ok = ok_iso & np.isfinite(inc)
         if not has_transits:
-            entry.update(probability=None, reason="no planet of the system transits: no architecture to "
+            entry["transit_probability_basis"] = ("no planet of the system transits: no architecture to "
                                                   "condition on (the isotropic probability applies)")
         elif not np.isfinite(aor).any():
-            entry.update(probability=None, reason="stellar radius and density unknown: a/R* undefined")
+            entry["transit_probability_basis"] = "stellar radius and density unknown: a/R* undefined"
         elif not ok.any() or post.get("psi") is None:
-            entry.update(probability=None, reason="no orientation posterior for this planet (direct draws); "
+            entry["transit_probability_basis"] = ("no orientation posterior for this planet (direct draws); "
                                                   "run with --mode mcmc")
         else:
             b = transit.impact_parameter(aor[ok], inc[ok], e[ok], w[ok])
-            hit = np.abs(b) < 1.0 + k[ok]
-            prob = float(hit.mean())
+            prob = float(np.mean(np.abs(b) < 1.0 + k[ok]))
             n = int(ok.sum())
-            entry.update(probability=prob,
-                         probability_mc_error=float(np.sqrt(max(prob * (1 - prob), 1.0 / n) / n)),
-                         impact_parameter=summarize(np.abs(b)),
-                         draws=n,
-                         basis=ASSUMPTIONS + "; eccentricity and argument of periastron from the posterior")
-        out.append(entry)
+            entry.update(transit_probability=prob,
+                         transit_probability_mc_error=float(np.sqrt(max(prob * (1 - prob), 1.0 / n) / n)),
+                         transit_impact_parameter=summarize(np.abs(b)),
+                         transit_probability_basis=f"{ASSUMPTIONS}; eccentricity and argument of periastron "
+                                                   f"from the posterior; {radius}")
+        out[j] = entry
     return out
 
 

@@ -93,32 +93,36 @@ def _shade_interval(grid, flags):
 
 
 def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARATION, max_draws=MAX_DRAWS):
-    """JSON-ready block: per gap and for the system (None with fewer than two planets)."""
+    """JSON-ready keys: (one mapping per adjacent pair, system-level ``{"packing": ...}``), or None.
+
+    Pair keys: ``room_fit_probability``, ``room_fit_period_min_day`` and
+    ``room_fit_period_max_day`` (posteriors over the draws where it fits),
+    ``room_fit_interval_day`` ([start, end] where it fits in at least half the
+    draws, or None), ``room_test_mass_mearth``, ``room_test_mass_basis``,
+    ``room_hill_spacing_pass_probability``, ``room_gladman_pass_probability``.
+    """
     arr = packing_arrays(post, test_mass_mearth, min_hill, max_draws=max_draws)
     if arr is None:
         return None
-    names = post.system.planet_names
-    gaps = []
+    pairs = []
     fit_cols = []
-    for j, g in enumerate(arr["gaps"]):
+    for g in arr["gaps"]:
         known = np.isfinite(g["any_fit"])
         fits = g["any_fit"][known] > 0.5
         fit_cols.append(g["any_fit"])
-        entry = {"inner": names[j], "outer": names[j + 1],
-                 "test_mass_mearth": summarize(g["m_test"] / MEARTH_MSUN),
-                 "test_mass_basis": g["mass_note"],
-                 "fit_probability": probability(fits) if known.any() else None,
-                 "fit_period_min_day": summarize(g["p_lo"]) if np.isfinite(g["p_lo"]).any() else None,
-                 "fit_period_max_day": summarize(g["p_hi"]) if np.isfinite(g["p_hi"]).any() else None,
-                 "fit_interval_day": _shade_interval(g["p_test"], g["flags"])}
+        entry = {"room_fit_probability": probability(fits) if known.any() else None,
+                 "room_fit_period_min_day": summarize(g["p_lo"]) if np.isfinite(g["p_lo"]).any() else None,
+                 "room_fit_period_max_day": summarize(g["p_hi"]) if np.isfinite(g["p_hi"]).any() else None,
+                 "room_fit_interval_day": _shade_interval(g["p_test"], g["flags"]),
+                 "room_test_mass_mearth": summarize(g["m_test"] / MEARTH_MSUN),
+                 "room_test_mass_basis": g["mass_note"]}
         if g["flags"] is not None:
             for k in ("hill_spacing", "gladman"):
-                entry[f"{k}_pass_probability"] = probability(g["flags"][k].any(axis=1))
-        gaps.append(entry)
+                entry[f"room_{k}_pass_probability"] = probability(g["flags"][k].any(axis=1))
+        pairs.append(entry)
     cols = np.stack(fit_cols, axis=1)                                  # (n, n_gaps)
     known = np.all(np.isfinite(cols), axis=1)
-    return {
-        "gaps": gaps,
+    system = {"packing": {
         "packed_probability": probability(packing.packed(cols[known] > 0.5)) if known.any() else None,
         "draws": int(known.sum()),
         "assumptions": ("test planet on a circular orbit in the reference plane; fits where it is at least "
@@ -126,4 +130,5 @@ def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARAT
                         "(Gladman 1993) and the new pairs are AMD stable (Laskar & Petit 2017); "
                         "masses are m sin i where the true mass is unknown; analytic criteria, not a guarantee"),
         "citation": CITATION,
-    }
+    }}
+    return pairs, system

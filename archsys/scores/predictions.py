@@ -1,11 +1,11 @@
 """What the architecture predicts, placed into the score mapping (JSON keys are additions only).
 
-* ``pairs[j]["super_period"]``: near first/second-order resonance, LXW12 (see :mod:`.super_periods`;
-  the super-period summary is under ``"days"``);
-* ``pairs[j]["room_for_planet"]``: the test planet in the gap (see :mod:`.packing`);
-* ``system["packing"]``: probability that the system is packed, assumptions;
-* ``system["companion_transits"]``: per planet not known to transit (see :mod:`.companion_transits`);
-* ``system["transit_probability_curve"]``: a hypothetical planet against period.
+* pairs: ``super_period_*`` and ``ttv_amplitude_*`` (LXW12, see :mod:`.super_periods`) and
+  ``room_*`` (the test planet in the gap, see :mod:`.packing`);
+* system: ``timing`` (assumptions), ``packing`` (probability that the system is packed),
+  ``transit_probability_curve`` (a hypothetical planet against period);
+* planets: ``transit_probability*`` and ``transit_impact_parameter`` for planets not known to
+  transit (see :mod:`.companion_transits`).
 
 Options read from the analysis options (any object; absent attributes take the defaults):
 ``test_planet_mass`` [Earth masses, None = geometric mean of the neighbours] and
@@ -21,27 +21,23 @@ from .super_periods import super_period_block
 __all__ = ["add_predictions"]
 
 
-def add_predictions(post, options, pairs, system):
-    """Add the prediction blocks to ``pairs`` (list of per-pair dicts) and ``system`` (dict) in place."""
+def add_predictions(post, options, pairs, system, planets=None):
+    """Add the prediction keys to ``pairs`` (per-pair dicts), ``system`` and ``planets`` (per-planet dicts)."""
     test_mass = getattr(options, "test_planet_mass", None)
     z_free = getattr(options, "ttv_free_eccentricity", 0.0) or 0.0
-    by_pair = {(p["inner"], p["outer"]): p for p in pairs}
-    for sp in super_period_block(post, free_eccentricity=z_free):
-        entry = by_pair.get((sp["inner"], sp["outer"]))
-        if entry is not None:
-            entry["super_period"] = {("days" if k == "super_period_day" else k): v
-                                     for k, v in sp.items() if k not in ("inner", "outer")}
+    sp_pairs, sp_system = super_period_block(post, free_eccentricity=z_free)
+    for entry, new in zip(pairs, sp_pairs):
+        entry.update(new)
+    system.update(sp_system)
     fast = str(getattr(getattr(options, "mode", None), "value", getattr(options, "mode", ""))) == "fast"
     pk = packing_block(post, test_mass_mearth=test_mass, max_draws=MAX_DRAWS_FAST if fast else MAX_DRAWS)
     if pk is not None:
-        for gap in pk.pop("gaps"):
-            entry = by_pair.get((gap["inner"], gap["outer"]))
-            if entry is not None:
-                entry["room_for_planet"] = {k: v for k, v in gap.items() if k not in ("inner", "outer")}
-        system["packing"] = pk
-    ct = companion_transit_block(post)
-    if ct:
-        system["companion_transits"] = ct
+        for entry, new in zip(pairs, pk[0]):
+            entry.update(new)
+        system.update(pk[1])
+    if planets is not None:
+        for entry, new in zip(planets, companion_transit_block(post)):
+            entry.update(new)
     curve = transit_probability_curve(post)
     if curve is not None:
         system["transit_probability_curve"] = curve

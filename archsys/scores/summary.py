@@ -101,9 +101,10 @@ def compute_scores(post, options=None) -> dict:
         ib = instability_block(post, arr)
         if ib is not None:
             system["spacing_heuristic"] = ib
-    add_predictions(post, options, pairs, system)
+    planets = [{} for _ in names]
+    add_predictions(post, options, pairs, system, planets)
     system["verdicts"] = _verdicts(pairs, system)
-    return {"pairs": pairs, "system": system, "arrays": arr}
+    return {"pairs": pairs, "system": system, "planets": planets, "arrays": arr}
 
 
 def _pct(p):

@@ -29,47 +29,59 @@ CITATION = "Lithwick, Xie & Wu 2012"
 
 
 def super_period_block(post, free_eccentricity=0.0):
-    """JSON-ready list, one entry per adjacent pair near a first- or second-order resonance."""
+    """JSON-ready keys: (one mapping per adjacent pair, ``{}`` when not near resonance; system keys).
+
+    Pair keys: ``super_period_resonance``, ``super_period_order``,
+    ``super_period_offset`` (Delta), ``super_period_days``; first-order pairs with
+    masses also ``ttv_amplitude_inner_min``, ``ttv_amplitude_outer_min``
+    (approximate) and ``super_period_in_resonance_width_probability``.  System:
+    ``{"timing": {"ttv_assumptions", "citation"}}`` when any pair qualifies.
+    """
     P = np.asarray(post["period"], dtype=float)
     names = post.system.planet_names
     m = effective_mass(post)
     ms = np.asarray(post["m_star"], dtype=float)
     notes = getattr(post, "notes", {}) or {}
-    out = []
+    z = float(free_eccentricity)
+    pairs, minimum, any_ttv = [], False, False
     for i in range(P.shape[1] - 1):
+        entry = {}
+        pairs.append(entry)
         p1, p2 = P[:, i], P[:, i + 1]
         ok = np.isfinite(p1) & np.isfinite(p2) & (p2 > p1)
         if not ok.any():
             continue
-        j, k, off = spacing.nearest_mmr(p2[ok] / p1[ok], max_order=2)
+        j, k, _ = spacing.nearest_mmr(p2[ok] / p1[ok], max_order=2)
         (bj, bk), _ = Counter(zip(j.tolist(), k.tolist())).most_common(1)[0]
         delta = p2[ok] / p1[ok] * (bj - bk) / bj - 1.0
         if abs(np.median(delta)) > MAX_OFFSET:
             continue
-        sup = timing.super_period(p1[ok], p2[ok], bj, bk)
-        entry = {"inner": names[i], "outer": names[i + 1], "resonance": spacing.mmr_label(bj, bk),
-                 "order": int(bk), "offset": summarize(delta), "super_period_day": summarize(sup),
-                 "citation": CITATION}
+        entry.update(super_period_resonance=spacing.mmr_label(bj, bk), super_period_order=int(bk),
+                     super_period_offset=summarize(delta),
+                     super_period_days=summarize(timing.super_period(p1[ok], p2[ok], bj, bk)))
         mu1, mu2 = m[ok, i] / ms[ok], m[ok, i + 1] / ms[ok]
-        have_mass = np.isfinite(mu1) & np.isfinite(mu2)
-        if have_mass.any():
-            # inside the resonance width the pair may librate: LXW12's near-resonance formulae do not apply
-            e_pair = np.maximum(post["ecc"][ok, i], post["ecc"][ok, i + 1])[have_mass]
-            width = spacing.resonance_width(bj, bk, (mu1 + mu2)[have_mass], np.nan_to_num(e_pair))
-            entry["within_resonance_width_probability"] = float(np.mean(np.abs(delta[have_mass]) < width))
-        if bk == 1 and have_mass.any():
-            z = float(free_eccentricity)
-            a_in, a_out = timing.ttv_amplitudes(p1[ok][have_mass], p2[ok][have_mass], mu1[have_mass],
-                                                mu2[have_mass], bj, z_free=z)
-            minimum = any("minimum" in str(notes.get(nm, {}).get("mass", "")) for nm in names[i:i + 2])
-            entry["ttv_amplitude_inner_min"] = summarize(a_in * MINUTES_PER_DAY)
-            entry["ttv_amplitude_outer_min"] = summarize(a_out * MINUTES_PER_DAY)
-            entry["ttv_assumptions"] = (
-                f"approximate (order of magnitude): Lithwick, Xie & Wu 2012 formulae, free eccentricity "
-                f"|Z_free| = {z:g}" + (" (forced TTV only)" if z == 0 else ", averaged over its unknown phase")
-                + ("; m sin i used where the true mass is unknown, so amplitudes are lower limits" if minimum
-                   else ""))
-        elif bk == 2:
-            entry["ttv_assumptions"] = "second-order resonance: super-period only"
-        out.append(entry)
-    return out
+        have = np.isfinite(mu1) & np.isfinite(mu2)
+        if bk != 1 or not have.any():
+            continue
+        a_in, a_out = timing.ttv_amplitudes(p1[ok][have], p2[ok][have], mu1[have], mu2[have], bj, z_free=z)
+        # inside the resonance width the pair may librate: LXW12's near-resonance formulae do not apply
+        e_pair = np.maximum(post["ecc"][ok, i], post["ecc"][ok, i + 1])[have]
+        width = spacing.resonance_width(bj, bk, (mu1 + mu2)[have], np.nan_to_num(e_pair))
+        entry.update(ttv_amplitude_inner_min=summarize(a_in * MINUTES_PER_DAY),
+                     ttv_amplitude_outer_min=summarize(a_out * MINUTES_PER_DAY),
+                     super_period_in_resonance_width_probability=float(np.mean(np.abs(delta[have]) < width)))
+        any_ttv = True
+        minimum |= any("minimum" in str(notes.get(nm, {}).get("mass", "")) for nm in names[i:i + 2])
+    system = {}
+    if any(pairs):
+        text = ("super-periods of pairs within 5 % of a first- or second-order resonance; second-order pairs: "
+                "super-period only")
+        if any_ttv:
+            text += ("; TTV amplitudes approximate (order of magnitude) from the Lithwick, Xie & Wu 2012 "
+                     f"formulae with free eccentricity |Z_free| = {z:g}"
+                     + (" (forced TTVs only)" if z == 0 else ", averaged over its unknown phase")
+                     + ("; m sin i used where the true mass is unknown, so amplitudes are lower limits"
+                        if minimum else "")
+                     + "; not valid inside the resonance width")
+        system["timing"] = {"assumptions": text, "citation": CITATION}
+    return pairs, system
