@@ -208,3 +208,12 @@ def test_cli_probe_mass_and_free_eccentricity(capsys):
         assert main(["report", demo, *fast, *bad]) == 2
         err = capsys.readouterr().err.strip().splitlines()
         assert len(err) == 1 and err[0].startswith("archsys: error:")
+
+
+def test_room_intervals_for_the_architecture_figure():
+    from archsys.scores.packing import room_intervals
+    pairs, _ = packing_block(_posterior(_system()))
+    doc = {"pairs": pairs}
+    (iv,) = room_intervals(doc)                                   # only the 15.3 -> 45 d gap has room
+    assert iv == pairs[1]["room_fit_interval_day"]
+    assert room_intervals({"pairs": []}) == []

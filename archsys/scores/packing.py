@@ -18,7 +18,7 @@ from ..physics import amd, packing
 from ..physics.constants import MEARTH_MSUN
 from .common import effective_mass
 
-__all__ = ["packing_block", "packing_arrays", "MAX_DRAWS", "MAX_DRAWS_FAST", "SHADE_PROBABILITY"]
+__all__ = ["packing_block", "packing_arrays", "room_intervals", "MAX_DRAWS", "MAX_DRAWS_FAST", "SHADE_PROBABILITY"]
 
 #: Draws used (evenly thinned): the grid costs n_draws x N_TRIAL per gap.
 MAX_DRAWS = 1000
@@ -132,3 +132,12 @@ def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARAT
         "citation": CITATION,
     }}
     return pairs, system
+
+
+def room_intervals(document):
+    """Period intervals [day] where a test planet fits in at least half the draws, from a report document.
+
+    For the architecture figure's shading: a list of ``[start, end]`` pairs, one per gap with room.
+    """
+    return [list(q["room_fit_interval_day"]) for q in document.get("pairs", []) or []
+            if q.get("room_fit_interval_day")]
