@@ -217,3 +217,16 @@ def test_room_intervals_for_the_architecture_figure():
     (iv,) = room_intervals(doc)                                   # only the 15.3 -> 45 d gap has room
     assert iv == pairs[1]["room_fit_interval_day"]
     assert room_intervals({"pairs": []}) == []
+
+
+def test_timing_figure_from_document():
+    # Behaviour check: one point per planet of each near-first-order pair, a triangle for the
+    # second-order pair; None without super-periods.
+    from archsys.output.figure_timing import timing_figure
+    pairs, system = super_period_block(_posterior(_system()))
+    doc = {"system": "Test", "pairs": [{"inner": a, "outer": b, **q} for (a, b), q in
+                                       zip((("T b", "T c"), ("T c", "T d")), pairs)], **system}
+    fig = timing_figure(doc)
+    ax = fig.axes[0]
+    assert ax.get_xlabel() == "super-period [d]" and "approx" in ax.get_ylabel()
+    assert timing_figure({"pairs": [{"inner": "x", "outer": "y"}]}) is None

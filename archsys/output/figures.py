@@ -821,6 +821,11 @@ def make_figures(draws, document, preset=None, truths=None, priors=None):
     transit_fig = transit_odds_figure(document, preset=p)
     if transit_fig is not None:
         items.append(FigureItem("transit_odds", transit_fig, TRANSIT_CAPTION.format(name=name), p))
+    from .figure_timing import CAPTION as TIMING_CAPTION, timing_figure
+    timing_fig = timing_figure(document, preset=p)
+    if timing_fig is not None:
+        items.append(FigureItem("timing", timing_fig, TIMING_CAPTION.format(
+            name=name, assumption=(document.get("timing") or {}).get("assumptions", "see the report")), p))
     if draws is None:
         return items
     sets = [("system", system_parameters(draws, document), f"{name}: system parameters")]
