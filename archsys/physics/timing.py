@@ -124,7 +124,7 @@ def ttv_coefficients(j, alpha=None):
     return f, g
 
 
-def ttv_amplitudes(p_in, p_out, mu_in, mu_out, j, z_free=0.0):
+def ttv_amplitudes(p_in, p_out, mu_in, mu_out, j, z_free=0.0, coeff_alpha=None):
     """Approximate TTV amplitudes [day] of a pair near the j:(j-1) resonance (LXW12), inner and outer.
 
     Parameters
@@ -138,6 +138,10 @@ def ttv_amplitudes(p_in, p_out, mu_in, mu_out, j, z_free=0.0):
     z_free : float or array_like
         Assumed magnitude of the free-eccentricity combination
         :math:`|Z_{free}|`; 0 gives the forced TTV alone.
+    coeff_alpha : float, optional
+        :math:`\alpha` at which f and g are evaluated; default each element's
+        own :math:`(P/P')^{2/3}`.  f and g vary slowly with alpha, so a scalar
+        (e.g. the posterior median) saves the Laplace integrals per draw.
 
     Returns
     -------
@@ -151,7 +155,7 @@ def ttv_amplitudes(p_in, p_out, mu_in, mu_out, j, z_free=0.0):
     P, Pp = np.asarray(p_in, dtype=float), np.asarray(p_out, dtype=float)
     j = np.asarray(j)
     delta = lxw_delta(P, Pp, j)
-    alpha = (P / Pp) ** (2.0 / 3.0)
+    alpha = (P / Pp) ** (2.0 / 3.0) if coeff_alpha is None else coeff_alpha
     f, g = ttv_coefficients(j, alpha)
     with np.errstate(divide="ignore", invalid="ignore"):
         free = 1.5 * np.asarray(z_free, dtype=float) / np.abs(delta)

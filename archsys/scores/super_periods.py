@@ -63,7 +63,9 @@ def super_period_block(post, free_eccentricity=0.0):
         have = np.isfinite(mu1) & np.isfinite(mu2)
         if bk != 1 or not have.any():
             continue
-        a_in, a_out = timing.ttv_amplitudes(p1[ok][have], p2[ok][have], mu1[have], mu2[have], bj, z_free=z)
+        alpha = float(np.median((p1[ok] / p2[ok]) ** (2.0 / 3.0)))      # f, g vary slowly with alpha
+        a_in, a_out = timing.ttv_amplitudes(p1[ok][have], p2[ok][have], mu1[have], mu2[have], bj, z_free=z,
+                                            coeff_alpha=alpha)
         # inside the resonance width the pair may librate: LXW12's near-resonance formulae do not apply
         e_pair = np.maximum(post["ecc"][ok, i], post["ecc"][ok, i + 1])[have]
         width = spacing.resonance_width(bj, bk, (mu1 + mu2)[have], np.nan_to_num(e_pair))
