@@ -230,3 +230,21 @@ def test_timing_figure_from_document():
     ax = fig.axes[0]
     assert ax.get_xlabel() == "super-period [d]" and "approx" in ax.get_ylabel()
     assert timing_figure({"pairs": [{"inner": "x", "outer": "y"}]}) is None
+
+
+def test_joint_posterior_companion_probability_matches_tilt_integral():
+    # On a real joint posterior (invented demo system Perrow), the planet without orientation data
+    # follows the tilt model given each draw's reference plane and sigma, so the fraction of draws
+    # that transit (Winn 2010 eq. 7) must agree with the mean tilt-integrated probability (an
+    # independent route through transit_odds) within 4 binomial errors.
+    import pathlib
+    from archsys.model.reader import read_system
+    from archsys.pipeline import AnalysisOptions, analyze
+    path = pathlib.Path(__file__).resolve().parents[1] / "demo_systems" / "perrow.toml"
+    res = analyze(read_system(path), AnalysisOptions(n_draws=2000, seed=5))
+    d = res.posterior.draws
+    entry = res.document["planets"][2]
+    aor = d["a"][:, 2] / (d["r_star"] * RSUN_AU)
+    rb = transit_odds.conditional_transit_probability(aor, d["ref_inc"], d["sigma_mutual"], 0.0,
+                                                      d["ecc"][:, 2], d["omega"][:, 2]).mean()
+    assert abs(entry["transit_probability"] - rb) < 4 * entry["transit_probability_mc_error"]
