@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..inference.summary import summarize
-from ..physics import kepler, transit, transit_odds
+from ..physics import transit, transit_odds
 from ..physics.constants import REARTH_AU, RSUN_AU
 
 __all__ = ["companion_transit_block", "transit_probability_curve", "candidates", "N_CURVE", "CURVE_DRAWS"]
@@ -123,10 +123,9 @@ def transit_probability_curve(post, periods=None, n=N_CURVE, max_draws=CURVE_DRA
         Pk = np.nanmedian(post["period"], axis=0)
         periods = np.geomspace(0.5 * Pk.min(), 2.0 * Pk.max(), n)
     periods = np.asarray(periods, dtype=float)
-    ms = np.asarray(sub["m_star"], float)[:, None]
-    a = kepler.a_au(periods, ms)                                  # (n_sub, n_periods)
-    aor = _aor({"r_star": np.asarray(sub["r_star"], float)[:, None],
-                "rho_star": np.asarray(sub["rho_star"], float)[:, None]}, a, periods)
+    aor = transit_odds.hypothetical_planet_aor(periods, np.asarray(sub["m_star"], float)[:, None],
+                                               np.asarray(sub["r_star"], float)[:, None],
+                                               np.asarray(sub["rho_star"], float)[:, None])   # (n_sub, n_periods)
     good = np.isfinite(aor).all(axis=1) & np.isfinite(ref) & np.isfinite(sig) & (sig > 0)
     if not good.any():
         return None
