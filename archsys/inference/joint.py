@@ -182,12 +182,16 @@ def sample_joint(system, opts) -> Posterior:
                       for p in system.planets)
     orient_free = not orient_data
     hier = npl >= 2 and orient_data
-    pilot, _, _ = exact_draws(system, rng_pilot, 2048, ecc_priors)
-    g_pilot = geometry_factor(system, pilot)
-    with np.errstate(all="ignore"), warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        g0 = np.nanmedian(g_pilot, axis=0)
-        g_nt = 0.8 * np.nanmin(g_pilot, axis=0)
+    if orient_data and (system.star.radius is not None or system.star.density is not None):
+        # the geometry factor's median (sampled coordinates) and lower bound (non-transit support)
+        pilot, _, _ = exact_draws(system, rng_pilot, 2048, ecc_priors)
+        g_pilot = geometry_factor(system, pilot)
+        with np.errstate(all="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            g0 = np.nanmedian(g_pilot, axis=0)
+            g_nt = 0.8 * np.nanmin(g_pilot, axis=0)
+    else:
+        g0 = g_nt = np.full(npl, np.nan)
     model = OrientationModel(system, sp, g0, g_nt, standardise=B_STANDARDISE)
     kinds = model.kinds
     chain, info, proposal = None, None, None
@@ -202,7 +206,7 @@ def sample_joint(system, opts) -> Posterior:
                              "stellar radius")
     pieces, total_ess, pool = [], 0.0, 0
     rejected = dict.fromkeys(_REASONS, 0)
-    chunk = 2 * n
+    chunk = int(1.3 * n) + 16
     while True:
         piece, why_bad = _pool_piece(system, opts, model, kinds, chain if chain is not None else proposal, hier, orient_free,
                                      ecc_priors, sp, rng_pool, chunk)
@@ -266,7 +270,7 @@ KHAT_MAX = 0.7
 def _try_proposal(model, rng, n):
     """The independent orientation proposal if its importance weights are healthy, else (None, info)."""
     prop = OrientationProposal(model)
-    m = max(4 * n, 4000)
+    m = max(2 * n, 4000)
     th, lq = prop.sample(rng, m)
     with np.errstate(all="ignore"):
         lw = model.log_prob(th) - lq
