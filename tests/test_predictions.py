@@ -168,27 +168,31 @@ def test_transit_odds_figure_from_document():
 
 def test_readme_worked_example_numbers():
     # Regression of the README's worked example (invented demo system Perrow, seed 0, 4000 draws):
-    # the rounded numbers printed there must stay true.
+    # the numbers printed there must stay true to within their Monte Carlo scatter (the README says
+    # so), so that an engine change that keeps the posterior does not break this test.
     from archsys.model.reader import read_system
     from archsys.pipeline import analyze
     import pathlib
     path = pathlib.Path(__file__).resolve().parents[1] / "demo_systems" / "perrow.toml"
     doc = analyze(read_system(path)).document
     ct = doc["planets"][2]
-    assert round(100 * ct["transit_probability"]) == 60 and round(100 * ct["transit_probability_isotropic"], 1) == 2.7
+    assert ct["transit_probability"] == pytest.approx(0.62, abs=0.03)
+    assert ct["transit_probability_isotropic"] == pytest.approx(0.027, abs=0.001)
     assert "transit_probability" not in doc["planets"][0]
     b, c = doc["pairs"]
     assert b["room_fit_probability"] == 0.0
-    assert round(100 * c["room_fit_probability"]) == 94
+    assert c["room_fit_probability"] == pytest.approx(0.91, abs=0.04)
     lo, hi = c["room_fit_interval_day"]
-    assert (round(lo, 1), round(hi, 1)) == (12.3, 14.7)
-    assert round(100 * doc["packing"]["packed_probability"]) == 6
-    assert round(b["super_period_days"]["median"], 1) == 177.6
-    assert round(b["ttv_amplitude_inner_min"]["median"], 1) == 3.3
+    assert lo == pytest.approx(12.3, abs=0.15) and hi == pytest.approx(14.7, abs=0.15)
+    assert doc["packing"]["packed_probability"] == pytest.approx(0.09, abs=0.04)
+    assert b["super_period_days"]["median"] == pytest.approx(177.6, abs=0.1)
+    assert b["ttv_amplitude_inner_min"]["median"] == pytest.approx(3.3, abs=0.2)
+    assert b["ttv_amplitude_outer_min"]["median"] == pytest.approx(3.9, abs=0.2)
     assert c["super_period_resonance"] == "3:1" and "ttv_amplitude_inner_min" not in c
+    assert c["super_period_days"]["median"] == pytest.approx(2800, rel=0.05)
     curve = doc["transit_probability_curve"]
     at = [float(np.interp(np.log(x), np.log(curve["period_day"]), curve["probability"])) for x in (10, 24, 48)]
-    assert [round(100 * x) for x in at] == [88, 61, 20]
+    assert at == pytest.approx([0.88, 0.61, 0.22], abs=0.03)
 
 
 def test_cli_probe_mass_and_free_eccentricity(capsys):
