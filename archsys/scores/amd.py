@@ -44,7 +44,7 @@ class AmdScore(Score):
     order = 40
     verdict_order = 2
     columns = (
-        Column("amd_beta", "β_AMD", r"$\beta_\mathrm{AMD}$", description="AMD coefficient of the pair"),
+        Column("amd_beta", "β (AMD)", r"$\beta_\mathrm{AMD}$", description="AMD coefficient of the pair"),
         Column("amd_stable_probability", "P(AMD stable)", r"$P_\mathrm{AMD}$", fmt="percent",
                description="fraction of draws AMD stable"),
         Column("amd.system_stable_probability", "AMD-stable system", "AMD-stable system", fmt="percent",

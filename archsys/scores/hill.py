@@ -38,7 +38,7 @@ class HillScore(Score):
     order = 30
     verdict_order = 1
     columns = (
-        Column("hill_separation", "Δ", r"$\Delta$", "R_H,m", r"$R_\mathrm{H,m}$",
+        Column("hill_separation", "Δ (Hill)", r"$\Delta$", "R_H,m", r"$R_\mathrm{H,m}$",
                description="separation in mutual Hill radii"),
         Column("hill_stable_probability", "P(Hill stable)", r"$P_\mathrm{Hill}$", fmt="percent",
                description="fraction of draws Hill stable (Gladman 1993)"),

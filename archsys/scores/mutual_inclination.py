@@ -19,9 +19,9 @@ class MutualInclinationScore(Score):
     name = "mutual_inclination"
     order = 50
     columns = (
-        Column("mutual_inclination_deg", "i_mut", r"$i_\mathrm{mut}$", "deg", "deg", unit_astropy="deg",
+        Column("mutual_inclination_deg", "mutual inclination", r"$i_\mathrm{mut}$", "deg", "deg", unit_astropy="deg",
                description="mutual inclination of the pair"),
-        Column("mutual_inclination_lower_bound_deg", "i_mut lower bound", r"$i_\mathrm{mut}$ (lower bound)",
+        Column("mutual_inclination_lower_bound_deg", "mutual inclination ≥", r"$i_\mathrm{mut}$ (lower bound)",
                "deg", "deg", unit_astropy="deg",
                description="lower bound on the mutual inclination from sky inclinations alone"),
     )

@@ -48,7 +48,7 @@ class ResonanceScore(Score):
     name = "resonance"
     order = 10
     columns = (
-        Column("period_ratio", "P_out/P_in", r"$P_\mathrm{out}/P_\mathrm{in}$", unit_astropy="",
+        Column("period_ratio", "period ratio", r"$P_\mathrm{out}/P_\mathrm{in}$", unit_astropy="",
                description="adjacent period ratio"),
         Column("nearest_mmr", "nearest MMR", "MMR", fmt="text", description="nearest mean-motion resonance"),
         Column("mmr_order", "order", "Order", fmt="integer", description="order k of the nearest resonance"),
