@@ -22,6 +22,11 @@ from .tex import escape
 __all__ = ["render_latex", "render_aastex", "latex_cell", "escape", "standalone"]
 
 
+def _percent(text):
+    """'42 %' -> '42\\,\\%' (thin space, escaped per cent sign)."""
+    return escape(text.replace(" %", "%")).replace(r"\%", r"\,\%")
+
+
 def latex_cell(cell) -> str:
     """LaTeX of a format-neutral cell; e.g. ``$0.1235^{+0.0012}_{-0.0010}$``."""
     kind = cell[0]
@@ -30,7 +35,7 @@ def latex_cell(cell) -> str:
     if kind == "raw":                       # already LaTeX (labels, units)
         return cell[1]
     if kind == "inf":
-        return f"$\\infty$ ({escape(cell[1])} of draws)"
+        return f"$\\infty$ ({_percent(cell[1])} of draws)"
     if kind == "pm":
         v, m, p = (x.replace("∞", r"\infty") for x in cell[1:])
         if m == p:
@@ -39,7 +44,7 @@ def latex_cell(cell) -> str:
     if kind == "number":
         return f"${cell[1]}$" if cell[1] not in ("—",) else "--"
     if kind == "percent":
-        return escape(cell[1].replace(" %", "%")).replace(r"\%", r"\,\%")
+        return _percent(cell[1])
     return escape(cell[1])
 
 
