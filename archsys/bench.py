@@ -107,7 +107,7 @@ def bench_stability(n_draws=4):
     from . import read_system
     from .inference.draws import direct_draws
     from .scores import per_draw_arrays
-    from .scores.nbody_check import N_ORBITS
+    from .scores.nbody_check import N_ORBITS_OUTER as N_ORBITS
     post = direct_draws(read_system(_demo("velmora")), n=100_000, seed=0)
     t_an = _best(lambda: per_draw_arrays(post), repeat=2) / post.n_draws
     t_nb = nbody.time_per_draw(n_draws=n_draws, n_orbits=N_ORBITS)

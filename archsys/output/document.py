@@ -45,10 +45,10 @@ def _planet_entry(post, j, pl):
         entry["msini_mearth"] = summarize(msini, 1.0 / MEARTH_MSUN)
     entry["mass_basis"] = basis or "unknown (no K, mass or radius)"
     ecc_basis = note.get("ecc", "")
-    if ecc_basis != "assumed circular" or post.method == "mcmc":
+    if ecc_basis != "assumed circular" or post.method != "direct":
         entry["ecc"] = summarize(d["ecc"][:, j])
     entry["ecc_basis"] = ecc_basis
-    if post.method == "mcmc" or "omega" in pl.quantities or ecc_basis.startswith("from"):
+    if post.method != "direct" or "omega" in pl.quantities or ecc_basis.startswith("from"):
         entry["omega_deg"] = summarize_angle(np.degrees(d["omega"][:, j]))
     if np.isfinite(d["inc"][:, j]).any():
         entry["inclination_deg"] = summarize(np.degrees(d["inc"][:, j]))
@@ -89,7 +89,7 @@ def _not_constrained(entry, post):
 
 def _priors_that_ran(post, opts):
     """The posterior's prior record, or (when the sampler recorded none) the priors its options select."""
-    if post.prior or post.method != "mcmc":
+    if post.prior or post.method == "direct":
         return post.prior
     from ..inference.priors import default_prior, load_prior
     out = {}

@@ -161,7 +161,7 @@ def prior_lines(doc):
             text = str(pr)
         out.append(f"Prior on {what}: {text}.")
     if not priors:
-        if "mcmc" in method.lower():
+        if "direct" not in method.lower():
             out.append("Priors: not recorded by the sampler.")
         else:
             out.append("Priors: none beyond the input summaries (direct draws of each summary within its "
