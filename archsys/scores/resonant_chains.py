@@ -20,9 +20,10 @@ class ResonantChainScore(Score):
 
     def summarise(self, ctx, arr):
         nr = ctx.arrays["near_resonance"]
-        p_near = np.nanmean(np.where(np.isfinite(nr), nr, np.nan), axis=0) if np.isfinite(nr).any() else \
-            np.zeros(nr.shape[1])
-        chains = spacing.resonant_chains(np.nan_to_num(p_near) > 0.5, min_pairs=2)
+        known = np.isfinite(nr)
+        n_known = known.sum(axis=0)                  # pairs with no known draw are not near resonance
+        p_near = np.where(known, nr, 0.0).sum(axis=0) / np.maximum(n_known, 1)
+        chains = spacing.resonant_chains(p_near > 0.5, min_pairs=2)
         names = ctx.names
         return ScoreResult(system={"resonant_chains": [[names[a] for a in range(int(s), int(e) + 1)]
                                                        for s, e in chains]})
