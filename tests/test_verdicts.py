@@ -178,6 +178,9 @@ def test_wide_measured_eccentricity_flagged(tmp_path):
     b = res.document["planets"][0]
     assert b["not_constrained_by_data"] == ["ecc"]
     assert "Barely constrained by the data" in render(res, "text")
+    hill = [v for v in res.document["structured_verdicts"] if v["code"] == "hill_stable_all_pairs"][0]
+    assert "weak_eccentricity" in hill["caveats"]
+    assert "nearly as wide as the prior's, and they drive this verdict" in res.document["verdicts"][0]
 
 
 # --- item 5: planet radii -------------------------------------------------------------------------

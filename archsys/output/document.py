@@ -15,6 +15,7 @@ import numpy as np
 from .. import __version__
 from ..inference.summary import summarize, summarize_angle
 from ..physics.constants import MEARTH_MSUN
+from ..scores.common import barely_constrained, flat_ecc_prior
 from .wording import verdict_sentences
 
 __all__ = ["build_document", "DISCLAIMER", "SCHEMA_VERSION"]
@@ -58,33 +59,19 @@ def _planet_entry(post, j, pl):
         entry["radius_rearth"] = summarize(np.asarray(radius, dtype=float)[:, j])
     if pl.transiting is not None:
         entry["transiting"] = pl.transiting
-    loose = _not_constrained(entry, post)
+    loose = _not_constrained(entry, post, j)
     if loose:
         entry["not_constrained_by_data"] = loose
     return entry
 
 
-#: A posterior whose central 68 % interval is at least this share of the prior's is flagged as
-#: not constrained by the data (common practice: the data then add little to the prior).
-PRIOR_WIDTH_SHARE = 0.8
-#: Width of the central 68.27 % interval of the flat eccentricity prior on [0, 1).
-FLAT_ECC_WIDTH = 0.6827
-
-
-def _not_constrained(entry, post):
+def _not_constrained(entry, post, j):
     """Document keys of a planet whose values come from the prior rather than the data."""
-    out = []
     basis = str(entry.get("ecc_basis") or "")
-    e = entry.get("ecc")
-    ecc_prior = (post.prior or {}).get("eccentricity")
-    flat = ecc_prior is None or (isinstance(ecc_prior, dict) and ecc_prior.get("name") == "ecc-uniform") \
-        or ecc_prior == "ecc-uniform"
-    if "prior only" in basis:
-        out.append("ecc")
-    elif (flat and isinstance(e, dict) and e.get("lo") is not None and e.get("hi") is not None
-          and e["hi"] - e["lo"] >= PRIOR_WIDTH_SHARE * FLAT_ECC_WIDTH):
-        out.append("ecc")
-    return out
+    if "prior only" in basis or ("ecc" in entry and "assumed" not in basis and "fixed" not in basis
+                                 and barely_constrained(post["ecc"][:, j], flat_ecc_prior(post))):
+        return ["ecc"]
+    return []
 
 
 def _priors_that_ran(post, opts):

@@ -78,6 +78,9 @@ def _caveat_sentences(doc, v):
     if "prior_only_eccentricity" in caveats and ecc["prior"]:
         out.append(f"Not constrained by the data: the eccentricities of {_join(ecc['prior'])} are the prior's "
                    "(no eccentricity data), and they drive this verdict.")
+    if "weak_eccentricity" in caveats and ecc["loose"]:
+        out.append(f"Barely constrained by the data: the eccentricities of {_join(ecc['loose'])} have 68 % "
+                   "intervals nearly as wide as the prior's, and they drive this verdict.")
     if "minimum_masses" in caveats:
         mins = [short_name(p.get("name", "?"), doc.get("system", "")) for p in doc.get("planets", [])
                 if str(p.get("mass_basis", "")).startswith("minimum")]

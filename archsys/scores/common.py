@@ -74,3 +74,28 @@ def summarize_with_infinite(x):
     if not known.all():
         out["n_invalid"] = int((~known).sum())
     return out
+
+
+#: A posterior whose central 68 % interval is at least this share of the prior's is flagged as not
+#: constrained by the data (common practice: the data then add little to the prior).
+PRIOR_WIDTH_SHARE = 0.8
+#: Width of the central 68.27 % interval of the flat eccentricity prior on [0, 1).
+FLAT_ECC_WIDTH = 0.6827
+
+
+def flat_ecc_prior(post):
+    """Whether the eccentricity prior of ``post`` is the flat one (or none was recorded)."""
+    pr = (post.prior or {}).get("eccentricity")
+    name = pr.get("name") if isinstance(pr, dict) else pr
+    return name in (None, "ecc-uniform")
+
+
+def barely_constrained(ecc_draws, flat_prior=True):
+    """Whether eccentricity draws are (nearly) as wide as the flat prior: 68 % interval >= 80 % of its width."""
+    from ..inference.summary import QUANTILES
+    e = np.asarray(ecc_draws, dtype=float)
+    e = e[np.isfinite(e)]
+    if not flat_prior or e.size < 10:
+        return False
+    lo, hi = np.quantile(e, (QUANTILES[0], QUANTILES[2]))
+    return bool(hi - lo >= PRIOR_WIDTH_SHARE * FLAT_ECC_WIDTH)

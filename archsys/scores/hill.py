@@ -11,7 +11,7 @@ import numpy as np
 
 from ..inference.summary import probability, summarize
 from ..physics import hill
-from .common import adjacent, effective_mass, masked_apply
+from .common import adjacent, barely_constrained, effective_mass, flat_ecc_prior, masked_apply
 from .registry import Column, Score, ScoreResult, register, verdict
 
 __all__ = ["HillScore", "stability_caveats"]
@@ -26,6 +26,10 @@ def stability_caveats(ctx, uses_ecc=True):
         out.append("assumed_circular")
     if uses_ecc and any("prior only" in n for n in notes):
         out.append("prior_only_eccentricity")
+    flat = flat_ecc_prior(ctx.post)
+    if uses_ecc and any("prior only" not in n and "assumed" not in n and "fixed" not in n
+                        and barely_constrained(ctx.post["ecc"][:, j], flat) for j, n in enumerate(notes)):
+        out.append("weak_eccentricity")
     if any(str(ctx.note(p, "mass")).startswith("minimum") for p in planets):
         out.append("minimum_masses")
     if any((q.get("near_resonance_probability") or 0) >= 0.5 for q in ctx.pairs):
