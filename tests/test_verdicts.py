@@ -224,3 +224,10 @@ def test_flagged_and_infinite_latex_compiles(tmp_path):
     ok, log = _compiles(tmp_path, "\\documentclass{aastex631}\n\\begin{document}\n" + render(doc, "aastex")
                         + "\\end{document}\n", "aas")
     assert ok, log
+
+
+def test_survey_csv_keeps_the_infinite_fraction():
+    from archsys.survey.store import pair_row
+    row = pair_row("S", {"inner": "S b", "outer": "S c",
+                         "amd_beta": {"median": None, "lo": 3.2, "hi": None, "infinite_fraction": 0.62}})
+    assert row["amd_beta_median"] is None and row["amd_beta_infinite_fraction"] == 0.62
