@@ -182,8 +182,13 @@ def verdict_lines(doc):
 
 
 _META_LABELS = {"input_file": "input file", "input_sha256": "input SHA-256", "package_version": "archsys version",
-                "why": "why this method", "n_eff": "effective samples", "autocorrelation_time": "autocorrelation time",
-                "tau_max": "largest autocorrelation time", "acceptance": "acceptance fraction"}
+                "method": "method", "why": "why this method", "draws": "draws", "seed": "seed",
+                "n_eff": "effective samples", "min_n_eff": "smallest effective sample size",
+                "autocorrelation_time": "autocorrelation time", "tau_max": "largest autocorrelation time",
+                "acceptance": "acceptance fraction", "walkers": "walkers", "steps": "steps",
+                "converged": "converged", "orientation_draws": "orientation draws",
+                "orientation_pilot": "orientation pilot", "importance": "importance sampling",
+                "options": "options", "versions": "versions"}
 
 
 def _meta_label(key):
