@@ -231,3 +231,10 @@ def test_survey_csv_keeps_the_infinite_fraction():
     row = pair_row("S", {"inner": "S b", "outer": "S c",
                          "amd_beta": {"median": None, "lo": 3.2, "hi": None, "infinite_fraction": 0.62}})
     assert row["amd_beta_median"] is None and row["amd_beta_infinite_fraction"] == 0.62
+
+
+def test_hill_verdict_without_masses_says_it_cannot_be_assessed():
+    v = {"code": "hill_stable_all_pairs", "subjects": ["X b", "X c"], "probability": None,
+         "criterion": "", "citation": "Gladman 1993"}
+    s = verdict_sentence({"system": "X"}, v)
+    assert "cannot be assessed" in s and "—" not in s

@@ -106,7 +106,9 @@ def verdict_sentence(doc, v, said=None):
     code, p, subj = v.get("code", ""), v.get("probability"), v.get("subjects") or []
     pct = fmt_percent(p)
     cite = v.get("citation") or ""
-    if code == "hill_stable_all_pairs":
+    if code == "hill_stable_all_pairs" and p is None:
+        s = f"Every adjacent pair Hill stable ({cite}): cannot be assessed (a planet mass is unknown)."
+    elif code == "hill_stable_all_pairs":
         s = f"Every adjacent pair Hill stable ({cite}): {_likely(p)} ({pct} of draws)."
     elif code == "amd_stable_system":
         word = "AMD stable" if p >= 0.95 else "AMD unstable" if p <= 0.05 else "possibly AMD unstable"
