@@ -175,3 +175,18 @@ def test_registry_order_and_columns_are_well_formed():
     assert len(keys) == len(set(keys))
     assert [s.order for s in scores] == sorted(s.order for s in scores)
     assert np.all([c.label and c.latex for s in scores for c in s.columns])
+
+
+def test_developers_example_score_runs():
+    # DEVELOPERS.md "A new score": the example module, imported as if it were archsys/scores/my_score.py
+    text = (ROOT / "DEVELOPERS.md").read_text()
+    code = re.search(r"### A new score.*?```python\n(.*?)```", text, re.S).group(1)
+    code = code.replace("from ..", "from archsys.").replace("from .registry", "from archsys.scores.registry")
+    code = code.replace("register(MyScore)", "")                  # registered below, for this test only
+    ns = {}
+    exec(compile(code, "DEVELOPERS.md", "exec"), ns)
+    with registered(ns["MyScore"]()):
+        res = analyze(archsys.read_system(archsys.demo_path("velmora")), AnalysisOptions(n_draws=200, mode="fast"))
+        md = render(res, "markdown")
+    assert "my_ratio" in res.document["pairs"][0] and "my_probability" in res.document
+    assert "my ratio" in md and "P(my criterion)" in md
