@@ -22,13 +22,19 @@ __all__ = ["AmdScore", "amd_arrays", "CRITERION"]
 CRITERION = "Laskar & Petit 2017 with the MMR-overlap correction of Petit, Laskar & Boue 2017"
 
 
+def _defined(post):
+    """Draws where AMD is defined: every mass known and positive, semi-major axes increasing."""
+    m = effective_mass(post)
+    return np.all(np.isfinite(m) & (m > 0), axis=1) & np.all(np.diff(post["a"], axis=1) > 0, axis=1)
+
+
 def amd_arrays(post):
     """AMD coefficients per draw: (beta (n, n_pairs), beta_star (n,)), or None."""
     m = effective_mass(post)
     a, e = post["a"], post["ecc"]
     psi = post.get("psi")
     inc = psi if psi is not None else np.zeros_like(e)
-    ok = np.all(np.isfinite(m) & (m > 0), axis=1) & np.all(np.diff(a, axis=1) > 0, axis=1)
+    ok = _defined(post)
     if not ok.any():
         return None
     n, npair = a.shape[0], a.shape[1] - 1
@@ -54,7 +60,7 @@ class AmdScore(Score):
     )
 
     def applies(self, ctx):
-        return ctx.n_pairs >= 1 and amd_arrays(ctx.post) is not None
+        return ctx.n_pairs >= 1 and bool(_defined(ctx.post).any())
 
     def per_draw(self, ctx):
         beta, beta_star = amd_arrays(ctx.post)

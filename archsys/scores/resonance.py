@@ -69,9 +69,10 @@ class ResonanceScore(Score):
         j, k, off = spacing.nearest_mmr(np.where(ordered, ratio, 1.0))
         mu = (m1 + m2) / post["m_star"][:, None]
         r_ok = np.where(ordered, ratio, np.nan)
-        near = masked_apply(lambda r, x, y: near_first_order(r, x, y)[0], r_ok, mu, np.maximum(e1, e2))
-        near_j = masked_apply(lambda r, x, y: near_first_order(r, x, y)[1], r_ok, mu, np.maximum(e1, e2),
-                              fill=0, dtype=int)
+        # which first-order resonance each draw is near (0: none; NaN: unknown masses or crossing periods)
+        which = masked_apply(lambda r, x, y: near_first_order(r, x, y)[1], r_ok, mu, np.maximum(e1, e2))
+        near = np.where(np.isfinite(which), (which > 0).astype(float), np.nan)
+        near_j = np.nan_to_num(which).astype(int)
         return {"period_ratio": ratio, "mmr_j": j, "mmr_k": k, "mmr_offset": np.where(ordered, off, np.nan),
                 "mu": mu, "near_resonance": near, "near_resonance_j": near_j}
 
