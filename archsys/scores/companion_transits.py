@@ -24,6 +24,7 @@ import numpy as np
 from ..inference.summary import summarize
 from ..physics import transit, transit_odds
 from ..physics.constants import REARTH_AU, RSUN_AU
+from .registry import Column, Score, ScoreResult, register, verdict
 
 __all__ = ["companion_transit_block", "transit_probability_curve", "candidates", "N_CURVE", "CURVE_DRAWS"]
 
@@ -137,3 +138,54 @@ def transit_probability_curve(post, periods=None, n=N_CURVE, max_draws=CURVE_DRA
             "isotropic": transit_odds.isotropic_transit_probability(aor[good]).mean(axis=0).tolist(),
             "draws": int(good.sum()),
             "basis": ASSUMPTIONS + "; circular orbit, centre of the planet crossing the disc"}
+
+
+class CompanionTransitScore(Score):
+    name = "companion_transits"
+    order = 87
+    columns = (
+        Column("transit_probability", "P(transits | architecture)", r"$P_\mathrm{tr}$", fmt="percent",
+               table="planet", description="planets not known to transit (Winn 2010 condition)"),
+        Column("transit_probability_isotropic", "P(transits), isotropic", r"$P_\mathrm{tr,iso}$", fmt="percent",
+               table="planet", description="(R*/a)(1 + e sin w)/(1 - e^2), Winn 2010 eq. 9"),
+        Column("transit_probability_mc_error", "P(transits) Monte Carlo error", r"$\sigma(P_\mathrm{tr})$",
+               fmt="percent", table="planet", show=False),
+        Column("transit_impact_parameter", "|b| predicted", r"$|b|$", table="planet",
+               description="posterior of the impact parameter of a planet not known to transit"),
+        Column("transit_probability_basis", "transit-probability basis", "Transit-probability basis",
+               fmt="text", table="planet", show=False),
+        Column("transit_probability_curve.period_day", "hypothetical planet: period", "Period", fmt="text",
+               table="system", show=False),
+        Column("transit_probability_curve.probability", "hypothetical planet: P(transits)", "Probability",
+               fmt="text", table="system", show=False),
+        Column("transit_probability_curve.lo", "hypothetical planet: P(transits) low", "Low", fmt="text",
+               table="system", show=False),
+        Column("transit_probability_curve.hi", "hypothetical planet: P(transits) high", "High", fmt="text",
+               table="system", show=False),
+        Column("transit_probability_curve.isotropic", "hypothetical planet: isotropic P(transits)", "Isotropic",
+               fmt="text", table="system", show=False),
+        Column("transit_probability_curve.draws", "transit-curve draws", "Transit-curve draws", fmt="integer",
+               table="system", show=False),
+        Column("transit_probability_curve.basis", "transit-curve basis", "Transit-curve basis", fmt="text",
+               table="system", show=False),
+    )
+
+    def applies(self, ctx):
+        return bool(candidates(ctx.post.system)) or ctx.post.get("ref_inc") is not None
+
+    def summarise(self, ctx, arrays):
+        curve = transit_probability_curve(ctx.post)
+        return ScoreResult(planets=companion_transit_block(ctx.post),
+                           system={} if curve is None else {"transit_probability_curve": curve})
+
+    def verdicts(self, ctx):
+        out = []
+        for name, q in zip(ctx.names, ctx.planets):
+            if q.get("transit_probability") is not None:
+                out.append(verdict("companion_transit", q["transit_probability"], [name],
+                                   criterion="transits given the architecture (|b| < 1 + Rp/R*)",
+                                   citation="Winn 2010", isotropic=q.get("transit_probability_isotropic")))
+        return out
+
+
+register(CompanionTransitScore)

@@ -17,6 +17,7 @@ from ..inference.summary import probability, summarize
 from ..physics import amd, packing
 from ..physics.constants import MEARTH_MSUN
 from .common import effective_mass
+from .registry import Column, Score, ScoreResult, register, verdict
 
 __all__ = ["packing_block", "packing_arrays", "room_intervals", "MAX_DRAWS", "MAX_DRAWS_FAST", "SHADE_PROBABILITY"]
 
@@ -141,3 +142,53 @@ def room_intervals(document):
     """
     return [list(q["room_fit_interval_day"]) for q in document.get("pairs", []) or []
             if q.get("room_fit_interval_day")]
+
+
+_D = dict(unit="d", unit_latex="d", unit_astropy="d")
+
+
+class RoomForPlanetsScore(Score):
+    name = "room_for_planets"
+    order = 86
+    columns = (
+        Column("room_fit_probability", "room for a planet", "Room for a planet", fmt="percent",
+               description="draws in which a test planet fits in the gap (Barnes & Raymond 2004)"),
+        Column("room_fit_period_min_day", "room from P", r"Room from $P$", **_D,
+               description="lowest period where the test planet fits (draws where it fits)"),
+        Column("room_fit_period_max_day", "room up to P", r"Room up to $P$", **_D,
+               description="highest period where the test planet fits (draws where it fits)"),
+        Column("room_fit_interval_day", "room interval", "Room interval", fmt="text", show=False,
+               description="[start, end] where it fits in at least half the draws (shaded on the figure)"),
+        Column("room_test_mass_mearth", "test-planet mass", r"$M_\mathrm{test}$", "M⊕", r"$M_\oplus$",
+               unit_astropy="earthMass"),
+        Column("room_test_mass_basis", "test-planet mass basis", "Test-planet mass basis", fmt="text", show=False),
+        Column("room_hill_spacing_pass_probability", "room by Hill spacing", "Room by Hill spacing",
+               fmt="percent", show=False),
+        Column("room_gladman_pass_probability", "room by Gladman", "Room by Gladman", fmt="percent", show=False),
+        Column("packing.packed_probability", "system packed (no gap holds a test planet)",
+               "System packed (no gap holds a test planet)", fmt="percent", table="system"),
+        Column("packing.draws", "packing draws", "Packing draws", fmt="integer", table="system", show=False),
+        Column("packing.assumptions", "packing assumptions", "Packing assumptions", fmt="text", table="system"),
+        Column("packing.citation", "packing citation", "Packing citation", fmt="text", table="system",
+               show=False),
+    )
+
+    def summarise(self, ctx, arrays):
+        opts = ctx.options
+        fast = str(getattr(getattr(opts, "mode", None), "value", getattr(opts, "mode", ""))) == "fast"
+        res = packing_block(ctx.post, test_mass_mearth=getattr(opts, "test_planet_mass", None),
+                            max_draws=MAX_DRAWS_FAST if fast else MAX_DRAWS)
+        if res is None:
+            return ScoreResult()
+        return ScoreResult(pairs=res[0], system=res[1])
+
+    def verdicts(self, ctx):
+        p = (ctx.system.get("packing") or {}).get("packed_probability")
+        if p is None:
+            return []
+        return [verdict("system_packed", p, ctx.names,
+                        criterion="no gap can hold a test planet (Hill spacing, Gladman and AMD criteria)",
+                        citation="Barnes & Raymond 2004; Fang & Margot 2013")]
+
+
+register(RoomForPlanetsScore)

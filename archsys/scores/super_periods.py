@@ -16,6 +16,7 @@ import numpy as np
 from ..inference.summary import summarize
 from ..physics import spacing, timing
 from .common import effective_mass
+from .registry import Column, Score, ScoreResult, register
 
 __all__ = ["super_period_block", "MAX_OFFSET"]
 
@@ -87,3 +88,39 @@ def super_period_block(post, free_eccentricity=0.0):
                      + "; not valid inside the resonance width")
         system["timing"] = {"assumptions": text, "citation": CITATION}
     return pairs, system
+
+
+_D = dict(unit="d", unit_latex="d", unit_astropy="d")
+_MIN = dict(unit="min", unit_latex="min", unit_astropy="min")
+
+
+class SuperPeriodScore(Score):
+    name = "super_period"
+    order = 85
+    columns = (
+        Column("super_period_resonance", "super-period resonance", "Super-period resonance", fmt="text",
+               description="first- or second-order resonance j:(j-k) of the super-period"),
+        Column("super_period_order", "super-period resonance order", "Super-period resonance order",
+               fmt="integer", show=False),
+        Column("super_period_offset", "Δ (super-period resonance)", r"$\Delta_\mathrm{sup}$", show=False,
+               description="fractional offset of the period ratio from that resonance"),
+        Column("super_period_days", "super-period", r"$P_\mathrm{sup}$", **_D,
+               description="1/|j/P' - (j-k)/P| (Lithwick, Xie & Wu 2012)"),
+        Column("ttv_amplitude_inner_min", "TTV amplitude, inner (approx.)", r"$V_\mathrm{in}$ (approx.)", **_MIN,
+               description="order of magnitude, Lithwick, Xie & Wu 2012"),
+        Column("ttv_amplitude_outer_min", "TTV amplitude, outer (approx.)", r"$V_\mathrm{out}$ (approx.)", **_MIN,
+               description="order of magnitude, Lithwick, Xie & Wu 2012"),
+        Column("super_period_in_resonance_width_probability", "inside the resonance width",
+               "Inside the resonance width", fmt="percent",
+               description="draws where the TTV formulae do not apply"),
+        Column("timing.assumptions", "timing assumptions", "Timing assumptions", fmt="text", table="system"),
+        Column("timing.citation", "timing citation", "Timing citation", fmt="text", table="system", show=False),
+    )
+
+    def summarise(self, ctx, arrays):
+        z = getattr(ctx.options, "ttv_free_eccentricity", 0.0) or 0.0
+        pairs, system = super_period_block(ctx.post, free_eccentricity=z)
+        return ScoreResult(pairs=pairs, system=system)
+
+
+register(SuperPeriodScore)
