@@ -144,7 +144,7 @@ class CompanionTransitScore(Score):
     name = "companion_transits"
     order = 87
     columns = (
-        Column("transit_probability", "P(transits | architecture)", r"$P_\mathrm{tr}$", fmt="percent",
+        Column("transit_probability", "P(transits), given the architecture", r"$P_\mathrm{tr}$", fmt="percent",
                table="planet", description="planets not known to transit (Winn 2010 condition)"),
         Column("transit_probability_isotropic", "P(transits), isotropic", r"$P_\mathrm{tr,iso}$", fmt="percent",
                table="planet", description="(R*/a)(1 + e sin w)/(1 - e^2), Winn 2010 eq. 9"),
