@@ -121,7 +121,7 @@ def test_posterior_predictive_probability_against_joint_monte_carlo():
     # drawing one tilt per draw and counting transits (Monte Carlo, written here) agrees with the
     # mean of the conditional probabilities over the draws.
     rng = np.random.default_rng(77)
-    n = 200_000
+    n = 40_000
     ref = np.radians(rng.normal(88.5, 0.6, n))
     sig = np.radians(rng.lognormal(np.log(2.0), 0.4, n))
     e = rng.beta(0.87, 3.03, n)                                  # an eccentricity-like spread
