@@ -270,3 +270,23 @@ def test_predictions_reach_every_format():
             assert label in out, (fmt, label)
     tex = render(res, "latex", figures=[])
     assert r"$P_\mathrm{tr}$" in tex and r"$P_\mathrm{sup}$" in tex
+
+
+def test_every_prediction_key_has_column_metadata():
+    # Behaviour check: the keys the predictions add (joint posterior: curve and companion keys
+    # included) all have column metadata, as the registry requires.
+    import pathlib
+    from archsys.model.reader import read_system
+    from archsys.pipeline import AnalysisOptions, analyze
+    from archsys.scores import column
+    path = pathlib.Path(__file__).resolve().parents[1] / "demo_systems" / "perrow.toml"
+    doc = analyze(read_system(path), AnalysisOptions(n_draws=600, seed=4)).document
+    keys = {k for q in doc["pairs"] for k in q if k.startswith(("super_period", "ttv_", "room_"))}
+    assert {"super_period_days", "ttv_amplitude_inner_min", "room_fit_probability"} <= keys
+    for k in keys:
+        assert column(k, "pair") is not None, k
+    for k in {k for p in doc["planets"] for k in p if k.startswith("transit_")}:
+        assert column(k, "planet") is not None, k
+    for block in ("packing", "timing", "transit_probability_curve"):
+        for k in doc[block]:
+            assert column(f"{block}.{k}", "system") is not None, (block, k)
