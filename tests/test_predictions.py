@@ -10,7 +10,7 @@ import pytest
 
 from archsys.inference.posterior import Posterior
 from archsys.model.reader import build_system
-from archsys.physics import kepler, transit, transit_odds
+from archsys.physics import kepler, transit_odds
 from archsys.physics.constants import MEARTH_MSUN, RSUN_AU
 from archsys.scores.companion_transits import companion_transit_block, transit_probability_curve
 from archsys.scores.packing import packing_block
