@@ -7,31 +7,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from .inference.draws import DEFAULT_DRAWS, direct_draws
+from .inference.draws import direct_draws
 from .inference.posterior import Posterior
+from .options import AnalysisOptions, Mode
 from .output.document import build_document
 
 __all__ = ["AnalysisOptions", "Analysis", "analyze"]
-
-
-@dataclass(frozen=True)
-class AnalysisOptions:
-    """Settings of one analysis (they are recorded in the provenance block)."""
-
-    n_draws: int = DEFAULT_DRAWS
-    seed: int = 0
-    mode: str = "auto"          # "auto": MCMC when a joint constraint binds; "direct"; "mcmc";
-    #                             "fast": direct draws only (no MCMC), fewer draws
-    ecc_prior: str | None = None
-    incl_prior: str | None = None
-    require_stable: bool = False
-    quiet: bool = True
-    max_steps: int | None = None
-    nbody: int = 0              # number of draws to integrate (0 = no N-body check)
-    jobs: int = 1
-
-    def as_dict(self):
-        return {k: getattr(self, k) for k in self.__dataclass_fields__ if k not in ("quiet", "jobs")}
 
 
 @dataclass
@@ -49,8 +30,8 @@ def _posterior(system, opts: AnalysisOptions) -> Posterior:
     except ImportError:  # the MCMC engine is optional until it lands
         sampler = None
     # "fast" trades depth for speed in large surveys: direct draws only, never MCMC
-    if sampler is not None and opts.mode not in ("direct", "fast"):
-        if opts.mode == "mcmc" or sampler.needs_mcmc(system, opts):
+    if sampler is not None and opts.uses_mcmc:
+        if opts.mode is Mode.MCMC or sampler.needs_mcmc(system, opts):
             return sampler.sample_system(system, opts)
     return direct_draws(system, n=opts.n_draws, seed=opts.seed)
 
