@@ -55,10 +55,10 @@ import re
 from dataclasses import dataclass, field
 
 from ..errors import InputError
-from ..model.inputfile import read_input_bytes
+from ..model.inputfile import MAX_TABLE_BYTES, read_input_bytes
 
 __all__ = ["Catalog", "SystemRows", "read_catalog", "group_systems", "parse_where",
-           "select", "evaluate", "MISSING_TOKENS"]
+           "select", "evaluate", "parse_number", "MISSING_TOKENS"]
 
 MISSING_TOKENS = frozenset({"", "nan", "NaN", "NAN", "null", "NULL", "None", "NA", "N/A", "n/a", "--"})
 _FORMATS = {".csv": "csv", ".txt": "csv", ".tsv": "csv", ".ecsv": "ecsv", ".parquet": "parquet",
@@ -120,11 +120,21 @@ def _clean(x):
     return x
 
 
+_NOT_UTF8 = re.compile("[\udc80-\udcff]")
+
+
 def _read_csv(path: pathlib.Path, blob: bytes):
-    try:
-        text = blob.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"{path}: not UTF-8 text (byte {exc.start}); save the table as UTF-8") from None
+    """Header, columns, units and malformed rows of a CSV/TSV file.
+
+    A line with a byte that is not UTF-8, or with fewer or more cells than the
+    header, is never guessed at: it is kept as a malformed row (reported in
+    rejects.csv) and the other rows are read.
+    """
+    if blob.startswith(b"\xef\xbb\xbf"):
+        blob = blob[3:]
+    if blob[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        raise InputError(f"{path}: UTF-16 text; save the table as UTF-8")
+    text = blob.decode("utf-8", "surrogateescape")     # bad bytes are found row by row below
     if "\x00" in text:
         raise InputError(f"{path}: contains NUL bytes; not a text table")
     delim = "\t" if path.suffix.lower() == ".tsv" else ","
@@ -136,16 +146,41 @@ def _read_csv(path: pathlib.Path, blob: bytes):
         header = next(reader)
     except StopIteration:
         raise InputError(f"{path}: file is empty") from None
+    except csv.Error as exc:
+        raise InputError(f"{path}: header line: {exc}") from None
+    bad = _NOT_UTF8.search(",".join(header))
+    if bad:
+        raise InputError(f"{path}: the header line is not UTF-8 text (byte 0x{ord(bad.group(0)) - 0xdc00:02x}); "
+                         f"save the table as UTF-8")
     header = [h.strip() for h in header]
     rows, malformed = [], []
-    for lineno, rec in enumerate(reader, start=2):
+    lineno = 1
+    while True:
+        try:
+            rec = next(reader)
+        except StopIteration:
+            break
+        except csv.Error as exc:
+            raise InputError(f"{path}: line {reader.line_num}: {exc}") from None
+        lineno = reader.line_num
         if not rec or all(not c.strip() for c in rec):
             continue
-        if len(rec) > len(header):      # a bad row is reported, never guessed at
-            malformed.append((lineno - 1, f"line {lineno} has {len(rec)} cells but the header has "
-                                          f"{len(header)} columns; check the quoting of that line"))
+        row = len(rows) + 1
+        why = None
+        m = _NOT_UTF8.search(",".join(rec))
+        if m:
+            why = (f"line {lineno} is not UTF-8 text (byte 0x{ord(m.group(0)) - 0xdc00:02x}); the row is "
+                   f"skipped, save the table as UTF-8")
+        elif len(rec) > len(header):      # a bad row is reported, never guessed at
+            why = (f"line {lineno} has {len(rec)} cells but the header has {len(header)} columns; "
+                   f"check the quoting of that line")
+        elif len(rec) < len(header):
+            why = (f"line {lineno} has {len(rec)} cells but the header has {len(header)} columns "
+                   f"(a truncated or short line); the row is not read")
+        if why:
+            malformed.append((row, why))
             rec = [""] * len(header)
-        rows.append(rec + [""] * (len(header) - len(rec)))
+        rows.append(rec)
     cols = {h: [_clean(r[j]) for r in rows] for j, h in enumerate(header)}
     return header, cols, {}, malformed
 
@@ -198,7 +233,7 @@ def read_catalog(path) -> Catalog:
     if fmt is None:
         raise InputError(f"{path}: unknown table format '{p.suffix}'; use .csv, .ecsv, .parquet or "
                          f".xml/.vot (VOTable)")
-    blob = read_input_bytes(path, "catalogue table")
+    blob = read_input_bytes(path, "catalogue table", max_bytes=MAX_TABLE_BYTES)
     if fmt == "csv":
         header, cols, units, malformed = _read_csv(p, blob)
     elif fmt == "parquet":
@@ -395,16 +430,38 @@ _TRUE = {"1", "true", "t", "yes", "y"}
 _FALSE = {"0", "false", "f", "no", "n"}
 
 
-def _num(x):
+#: Plain decimal notation, ASCII digits only ('1_0', '١٠' and '0x10' are not numbers).
+_DECIMAL = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?|[+-]?(?:inf|infinity|nan)", re.I | re.A)
+
+
+def parse_number(x):
+    """float of a cell in plain decimal notation (or a Python number); None otherwise."""
     if isinstance(x, bool):
-        return float(x)
+        return None
     if isinstance(x, (int, float)):
         return float(x)
     try:
-        v = float(x)
-    except (TypeError, ValueError):
+        import numpy as np
+        if isinstance(x, np.number):
+            return float(x)
+    except ImportError:  # pragma: no cover
+        pass
+    if not isinstance(x, str):
         return None
-    return v if math.isfinite(v) or math.isinf(v) else None
+    s = x.strip()
+    if not _DECIMAL.fullmatch(s):
+        return None
+    try:
+        return float(s)
+    except (OverflowError, ValueError):  # pragma: no cover - the pattern admits only floats
+        return None
+
+
+def _num(x):
+    if isinstance(x, bool):
+        return float(x)
+    v = parse_number(x)
+    return None if v is None or math.isnan(v) else v
 
 
 def as_bool(x):

@@ -80,15 +80,15 @@ from __future__ import annotations
 import difflib
 import hashlib
 import math
-import tomllib
 from dataclasses import dataclass, field
 
 import astropy.units as u
 
+from ..compat import tomllib
 from ..errors import InputError
 from ..model.inputfile import read_input_bytes
 from ..model.schema import PLANET_FIELDS, STAR_FIELDS
-from .catalog import SYSTEM_VARS, as_bool, evaluate, parse_where
+from .catalog import SYSTEM_VARS, as_bool, evaluate, parse_number, parse_where
 
 __all__ = ["FieldMap", "ColumnMap", "canonical_map", "load_column_map", "system_mapping",
            "where_names"]
@@ -351,14 +351,8 @@ def bind(cmap: ColumnMap, cat) -> ColumnMap:
 
 
 def _to_float(x):
-    if isinstance(x, bool):
-        return None
-    if isinstance(x, (int, float)):
-        return float(x)
-    try:
-        return float(str(x))
-    except ValueError:
-        return None
+    """A cell as a number in plain decimal notation (see catalog.parse_number), or None."""
+    return parse_number(x)
 
 
 def _check_numeric_column(cat, col, f):
