@@ -197,7 +197,8 @@ def test_bad_rows_become_rejects_and_counts_reconcile(tmp_path):
         fh.write("Sys-09,Sys-09 b,1,2,3,4,5,6,7,8,9,10,11,12\n")
     pop, out = _survey(tmp_path, path)
     c = pop["counts"]
-    assert c["systems_selected"] == c["systems_analysed"] + c["systems_rejected"] == 6
+    # the malformed row still names its system (Sys-09), which is rejected as a whole
+    assert c["systems_selected"] == c["systems_analysed"] + c["systems_rejected"] == 7
     assert c["rows_without_system"] == 1 and c["rows_malformed"] == 1
     assert c["rows"] == len(rows) + 1
     rej = list(csv.DictReader(io.StringIO((out / "rejects.csv").read_text())))
@@ -210,7 +211,7 @@ def test_bad_rows_become_rejects_and_counts_reconcile(tmp_path):
     assert ecc and "must be in [0, 1); got 1.7" in ecc[0]["reason"] and ecc[0]["row"] == "6"
     assert ("", "system") in reasons
     bad = [r for r in rej if "cells but the header has" in r["reason"]]
-    assert bad and bad[0]["row"] == str(len(rows) + 1)
+    assert bad and bad[0]["row"] == str(len(rows) + 1) and bad[0]["system"] == "Sys-09"
     # rejected systems do not appear in systems.csv, analysed ones do
     sys_ids = [r["system"] for r in csv.DictReader(io.StringIO((out / "systems.csv").read_text()))]
     assert len(sys_ids) == c["systems_analysed"]

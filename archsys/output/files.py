@@ -248,7 +248,7 @@ def unique_stems(names, fallback="system", reserved=()):
     return out, renamed
 
 
-_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
 
 
 def printable(text, keep_newlines=False):
@@ -256,7 +256,7 @@ def printable(text, keep_newlines=False):
 
     NUL, ESC (terminal escape sequences), other C0/C1 controls, DEL, line and
     paragraph separators and bidirectional overrides are escaped; tabs stay,
-    and newlines stay when ``keep_newlines`` (otherwise they are escaped too).
+    and line ends (LF, CR) stay when ``keep_newlines`` (otherwise they are escaped too).
     """
     s = str(text)
 

@@ -76,6 +76,7 @@ class Catalog:
     cells: dict
     units: dict = field(default_factory=dict)   # column -> unit string (ECSV/VOTable)
     malformed: list = field(default_factory=list)   # (row, reason) of rows that could not be read
+    malformed_cells: dict = field(default_factory=dict)   # row -> the raw cells of a malformed row
 
     @property
     def n_rows(self) -> int:
@@ -92,6 +93,7 @@ class SystemRows:
 
     system: str
     rows: list
+    broken: list = field(default_factory=list)   # (row, reason): rows of this system that could not be read
 
     @property
     def n_planets(self) -> int:
@@ -153,7 +155,7 @@ def _read_csv(path: pathlib.Path, blob: bytes):
         raise InputError(f"{path}: the header line is not UTF-8 text (byte 0x{ord(bad.group(0)) - 0xdc00:02x}); "
                          f"save the table as UTF-8")
     header = [h.strip() for h in header]
-    rows, malformed = [], []
+    rows, malformed, raw = [], [], {}
     lineno = 1
     while True:
         try:
@@ -179,10 +181,11 @@ def _read_csv(path: pathlib.Path, blob: bytes):
                    f"(a truncated or short line); the row is not read")
         if why:
             malformed.append((row, why))
+            raw[row] = rec
             rec = [""] * len(header)
         rows.append(rec)
     cols = {h: [_clean(r[j]) for r in rows] for j, h in enumerate(header)}
-    return header, cols, {}, malformed
+    return header, cols, {}, (malformed, raw)
 
 
 def _read_astropy(path: pathlib.Path, fmt: str):
@@ -234,8 +237,9 @@ def read_catalog(path) -> Catalog:
         raise InputError(f"{path}: unknown table format '{p.suffix}'; use .csv, .ecsv, .parquet or "
                          f".xml/.vot (VOTable)")
     blob = read_input_bytes(path, "catalogue table", max_bytes=MAX_TABLE_BYTES)
+    raw = {}
     if fmt == "csv":
-        header, cols, units, malformed = _read_csv(p, blob)
+        header, cols, units, (malformed, raw) = _read_csv(p, blob)
     elif fmt == "parquet":
         header, cols, units, malformed = _read_parquet(p)
     else:
@@ -248,7 +252,7 @@ def read_catalog(path) -> Catalog:
             raise InputError(f"{path}: column '{h}' appears twice in the header")
         seen.add(h)
     return Catalog(path=str(path), name=p.name, sha256=hashlib.sha256(blob).hexdigest(),
-                   columns=header, cells=cols, units=units, malformed=malformed)
+                   columns=header, cells=cols, units=units, malformed=malformed, malformed_cells=raw)
 
 
 def group_systems(cat: Catalog, system_col: str):
@@ -259,18 +263,26 @@ def group_systems(cat: Catalog, system_col: str):
     systems : list of SystemRows, sorted by system id (rows in table order)
     orphans : list of int, 1-based rows whose system cell is empty (malformed rows excluded)
     """
-    groups, orphans = {}, []
+    groups, orphans, broken = {}, [], {}
     ids = cat.cells[system_col]
-    bad = {r for r, _ in cat.malformed}
+    bad = dict(cat.malformed)
+    col = cat.columns.index(system_col) if system_col in cat.columns else None
     for i, sid in enumerate(ids):
         if i + 1 in bad:
+            # a row that could not be read still names its system when that cell is clean:
+            # the system is then rejected as a whole instead of being analysed without the row
+            cells = cat.malformed_cells.get(i + 1) or []
+            sid = _clean(cells[col]) if col is not None and col < len(cells) else None
+            if isinstance(sid, str) and not _NOT_UTF8.search(sid):
+                broken.setdefault(sid, []).append((i + 1, bad[i + 1]))
+                groups.setdefault(sid, [])
             continue
         if sid is None:
             orphans.append(i + 1)
             continue
         sid = str(sid) if not isinstance(sid, float) or not sid.is_integer() else str(int(sid))
         groups.setdefault(sid, []).append((i + 1, cat.row(i)))
-    return [SystemRows(s, groups[s]) for s in sorted(groups)], orphans
+    return [SystemRows(s, groups[s], broken.get(s, [])) for s in sorted(groups)], orphans
 
 
 # --------------------------------------------------------------------------

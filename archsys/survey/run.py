@@ -167,8 +167,9 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv):
     planets = store.rows("planets", ids)
     rejects = [{"system": "", "planet": "", "row": r, "field": "system", "column": cmap.system,
                 "reason": f"row has no system id in column '{cmap.system}'"} for r in orphans]
+    attached = {r for g in groups for r, _ in g.broken}      # reported with their system
     rejects += [{"system": "", "planet": "", "row": r, "field": "", "column": "", "reason": why}
-                for r, why in cat.malformed]
+                for r, why in cat.malformed if r not in attached]
     rejects += store.rejects(ids)
     kinds = [k for _, st, _, k, _ in status if st != "ok"]
     counts = {

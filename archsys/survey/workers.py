@@ -148,6 +148,10 @@ def process_system(task):
     group, cmap, units, options, catalog_name, debug = task
     sid, n = group.system, group.n_planets
     source = f"{catalog_name}: system '{sid}'"
+    if getattr(group, "broken", None):       # a row of this system could not be read
+        return _rejected(sid, n + len(group.broken), [
+            {"planet": "", "row": r, "field": "", "column": "",
+             "reason": f"{why}; the system is not analysed without that row"} for r, why in group.broken], "input")
     data, problems, rows_of = system_mapping(group, cmap, units)
     if problems:
         return _rejected(sid, n, problems, "input")
