@@ -16,6 +16,7 @@ Example::
 from __future__ import annotations
 
 import enum
+import math
 import os
 import pathlib
 import stat
@@ -25,7 +26,7 @@ from .errors import InputError
 from .inference.draws import DEFAULT_DRAWS
 
 __all__ = ["Mode", "AnalysisOptions", "SurveyOptions", "FAST_DRAWS", "MIN_DRAWS", "MAX_DRAWS",
-           "MAX_SEED", "MAX_JOBS", "MAX_NBODY", "MAX_PRIOR_FILE_BYTES", "check_prior"]
+           "MAX_SEED", "MAX_JOBS", "MAX_NBODY", "MAX_NBODY_ORBITS", "MAX_PRIOR_FILE_BYTES", "check_prior"]
 
 #: Draws per system in ``--mode fast`` (``archsys report`` and ``archsys survey`` alike).
 FAST_DRAWS = 1000
@@ -41,6 +42,8 @@ MAX_SEED = 2 ** 63 - 1
 MAX_JOBS = 1024
 #: Most posterior draws integrated by ``--nbody``.
 MAX_NBODY = 10_000
+#: Longest N-body horizon in orbits of the outermost planet (10^7 orbits take hours per draw).
+MAX_NBODY_ORBITS = 1e7
 #: Largest prior file read (bundled priors are a few hundred bytes).
 MAX_PRIOR_FILE_BYTES = 1 << 20
 
@@ -62,7 +65,8 @@ class Mode(str, enum.Enum):
 
 #: Option name -> command-line flag, for messages.
 _FLAG = {"n_draws": "--draws", "seed": "--seed", "mode": "--mode", "ecc_prior": "--prior",
-         "incl_prior": "--incl-prior", "max_steps": "--max-steps", "nbody": "--nbody", "jobs": "--jobs",
+         "incl_prior": "--incl-prior", "max_steps": "--max-steps", "nbody": "--nbody",
+         "nbody_orbits": "--nbody-orbits", "jobs": "--jobs",
          "limit": "--limit", "where": "--where", "columns": "--columns", "scheduler": "--scheduler"}
 
 
@@ -155,6 +159,7 @@ class AnalysisOptions:
     quiet : no progress bar
     max_steps : cap on MCMC steps per walker (None = the sampler's default), >= 1
     nbody : posterior draws integrated with rebound (0 = none), 0..MAX_NBODY
+    nbody_orbits : N-body horizon in orbits of the outermost planet, in (0, MAX_NBODY_ORBITS]
     jobs : worker processes (0 = one per core), 0..MAX_JOBS
     """
 
@@ -167,6 +172,7 @@ class AnalysisOptions:
     quiet: bool = True
     max_steps: int | None = None
     nbody: int = 0
+    nbody_orbits: float = 1000.0
     jobs: int = 1
 
     def __post_init__(self):
@@ -185,6 +191,12 @@ class AnalysisOptions:
         if self.max_steps is not None:
             put("max_steps", _int("max_steps", self.max_steps, 1, None))
         put("nbody", _int("nbody", self.nbody, 0, MAX_NBODY))
+        orbits = self.nbody_orbits
+        if isinstance(orbits, bool) or not isinstance(orbits, (int, float)) or not math.isfinite(orbits) \
+                or not 0 < orbits <= MAX_NBODY_ORBITS:
+            raise InputError(f"{_name('nbody_orbits')} must be a number in (0, {MAX_NBODY_ORBITS:g}] orbits; "
+                             f"got {orbits!r:.40}", field="nbody_orbits")
+        put("nbody_orbits", float(orbits))
         put("jobs", _int("jobs", self.jobs, 0, MAX_JOBS, " (0 = one per core)"))
         for k in ("require_stable", "quiet"):
             if not isinstance(getattr(self, k), bool):
