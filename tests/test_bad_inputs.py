@@ -270,3 +270,34 @@ def test_unreadable_file(tmp_path, capsys):
         _assert_clean_refusal(rc, out, err, path, ["cannot read"])
     finally:
         path.chmod(0o600)
+
+
+def test_msini_above_mass_within_errors_warns_on_one_line(tmp_path, capsys):
+    f = tmp_path / "w.toml"
+    f.write_text('name = "Warn"\n[star]\nmass = 1.0\n[[planet]]\nname = "Warn b"\nperiod = 3.0\n'
+                 'msini = { value = 10.5, err = 1.0 }\nmass = { value = 10.0, err = 1.0 }\n')
+    rc, out, err = _run(["report", str(f), "--json", *FAST], capsys)
+    assert rc == 0, err
+    lines = err.splitlines()
+    assert len(lines) == 1 and lines[0].startswith("archsys: warning: ") and "m sin i" in lines[0]
+
+
+def test_terminal_escapes_in_messages_are_escaped(tmp_path, capsys):
+    # a unit string holding ESC and NUL reaches the terminal only as visible escapes
+    f = tmp_path / "esc.toml"
+    f.write_text('name = "Esc"\n[star]\nmass = 1.0\n[[planet]]\nname = "Esc b"\n'
+                 'period = { value = 3.0, unit = "\\u001b[2J\\u0000d" }\n')
+    rc, out, err = _run(["report", str(f)], capsys)
+    assert rc == 2
+    assert "\x1b" not in err and "\x00" not in err
+    assert "\\x1b[2J" in err and len(err.splitlines()) == 1
+
+
+@pytest.mark.parametrize("name", [r"Velmora\u001b]0;pwned\u0007", r"A\u202eB", r"Tab\u0000Nul"])
+def test_control_characters_in_system_names_refused(name, tmp_path, capsys):
+    # escape sequences, bidirectional overrides and NUL never reach text, LaTeX, HTML or Markdown
+    f = tmp_path / "ctl.toml"
+    f.write_text(f'name = "{name}"\n[star]\nmass = 1.0\n[[planet]]\nname = "b"\nperiod = 3.0\n')
+    rc, out, err = _run(["report", str(f), "--out", str(tmp_path / "o")], capsys)
+    _assert_clean_refusal(rc, out, err, f, ["control characters"])
+    assert not (tmp_path / "o").exists()
