@@ -41,7 +41,8 @@ import numpy as np
 from .. import __version__
 from ..errors import InputError
 from ..options import FAST_DRAWS, AnalysisOptions, SurveyOptions, split_keywords
-from .catalog import group_systems, parse_where, read_catalog, select
+from .catalog import group_systems, read_catalog
+from .where import parse_where, select
 from .columns import bind, canonical_map, load_column_map, where_names
 from .lock import SurveyLock
 from .store import STORE_NAME, SurveyStore, header_of, write_csv

@@ -21,7 +21,7 @@ import warnings
 import numpy as np
 
 from ..errors import ConvergenceWarning, InputError
-from .columns import system_mapping
+from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
 __all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "dask_client",
