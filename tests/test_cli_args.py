@@ -227,3 +227,20 @@ def test_survey_options_and_keywords():
     assert a.n_draws == 50 and a.jobs == 0 and s.limit == 3 and s.where == ("n_planets>=2",)
     with pytest.raises(TypeError):
         split_keywords(modes="fast")
+
+
+def test_readme_options_example_runs(tmp_path, monkeypatch):
+    # the "Options in Python" example of the README, exactly as written, on an invented catalogue
+    import re
+    text = (ROOT / "README.md").read_text()
+    section = text[text.index("## Options in Python"):text.index("## The JSON document")]
+    code = re.search(r"```python\n(.*?)```", section, re.S).group(1)
+    (tmp_path / "catalogue.csv").write_text(
+        "system,planet,period,period_err,star_mass\n"
+        + "".join(f"S{i},S{i} {c},{p * (1 + i / 10):.3f},0.001,1.0\n"
+                  for i in range(3) for c, p in zip("bcd", (3.0, 5.1, 9.7))))
+    monkeypatch.chdir(tmp_path)
+    ns = {"__name__": "__main__"}
+    exec(compile(code, "README.md", "exec"), ns)
+    assert ns["pop"]["counts"]["systems_analysed"] == 3
+    assert (tmp_path / "survey" / "population.json").exists()
