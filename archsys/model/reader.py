@@ -27,8 +27,9 @@ __all__ = ["read_system", "build_system", "parse_quantity", "MAX_PLANETS", "REFE
 
 #: Largest system we accept; far above any known system, it bounds memory use.
 MAX_PLANETS = 64
-#: Values of the top-level key ``reference_plane`` (what ``inclination`` is measured from).
-REFERENCE_PLANES = ("sky",)
+#: Values of the top-level key ``reference_plane`` (what ``inclination`` is measured from): the sky
+#: plane of RV and transit work, or the ecliptic / invariable plane of solar-system elements.
+REFERENCE_PLANES = ("sky", "ecliptic", "invariable")
 
 
 
@@ -244,7 +245,7 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
     rp = data.get("reference_plane")
     if rp is not None and rp not in REFERENCE_PLANES:
         P.add("field 'reference_plane'", f"must be one of {', '.join(repr(x) for x in REFERENCE_PLANES)} "
-                                         f"(inclinations are to the sky plane); got {rp!r:.40}")
+                                         f"(the plane inclinations are measured from); got {rp!r:.40}")
     _check_notes(data.get("notes"), "field 'notes'", P)
 
     star = None
