@@ -131,6 +131,13 @@ def _write_report_files(results, args):
     for name, stem in renamed:
         _note(f"note: system '{name}' is written as '{stem}.*' (its file name would collide with another "
               f"system's)")
+    from .output.formats import short_name
+    for r, stem in zip(results, stems):        # planets' corner plots (same rule as output.figures)
+        doc = r.document
+        letters = [short_name(p.get("name", "?"), doc.get("system", "")) for p in doc.get("planets", [])]
+        for name, pstem in unique_stems(letters, fallback="planet", reserved=("system",))[1]:
+            _note(f"note: planet '{name}' of '{doc.get('system')}': its corner plot is '{stem}_corner_{pstem}' "
+                  f"(the file name would collide with another's)")
     where = [d for d in (args.out, args.figures) if d]
     _note(f"wrote {len(st.written)} files to {' and '.join(where)}")
 

@@ -231,6 +231,25 @@ def test_same_system_name_twice(tmp_path, capsys):
     assert len(json.loads((out / "Twin-2.json").read_text())["planets"]) == 3
 
 
+def test_colliding_planet_names_get_distinct_corner_plots(tmp_path, capsys):
+    body = 'name = "Pax"\n[star]\nmass = 0.9\n'
+    for j, p in enumerate(("b/1", "b_1", "\U0001F600")):
+        body += (f'[[planet]]\nname = "{p}"\nperiod = {{ value = {3.0 * 1.9 ** j:.4f}, err = 0.001 }}\n'
+                 'k = { value = 3.0, err = 0.5 }\necc = { value = 0.1, err = 0.03 }\n'
+                 'omega = { value = 80.0, err = 20.0 }\n')
+    f = tmp_path / "p.toml"
+    f.write_text(body, encoding="utf-8")
+    out = tmp_path / "out"
+    rc, _, err = _run(["report", str(f), *FAST, "--out", str(out)], capsys)
+    assert rc == 0, err
+    corners = sorted(p.name for p in (out / "figures").glob("Pax_corner_*.png"))
+    assert "Pax_corner_system.png" in corners
+    assert "Pax_corner_b_1.png" in corners and any(c.startswith("Pax_corner_b_1-") for c in corners)
+    assert "Pax_corner_planet.png" in corners          # the emoji name, not a second 'system' plot
+    notes = [x for x in err.splitlines() if "corner plot" in x]
+    assert len(notes) == 1 and "'b/1'" in notes[0]
+
+
 def test_colliding_planet_stems_in_corner_plots(tmp_path, capsys):
     from archsys.output.files import unique_stems
     stems, renamed = unique_stems(["b/1", "b_1"], fallback="planet", reserved=("system",))
