@@ -101,7 +101,15 @@ def _cmd_report(args):
         get_preset(args.preset)
     systems = [read_system(f) for f in files]   # validate everything before any output
     _warn_unused(opts)
-    results = [analyze(s, opts) for s in systems]
+    from .progress import progress_bar
+    bar = progress_bar(len(systems), quiet=args.quiet or len(systems) < 2, desc="report")
+    results = []
+    try:
+        for s in systems:
+            results.append(analyze(s, opts))
+            bar.update(1)
+    finally:
+        bar.close()
     if args.out or args.figures:
         _write_report_files(results, args)
     fmt = "json" if args.json else args.format

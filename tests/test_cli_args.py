@@ -244,3 +244,12 @@ def test_readme_options_example_runs(tmp_path, monkeypatch):
     exec(compile(code, "README.md", "exec"), ns)
     assert ns["pop"]["counts"]["systems_analysed"] == 3
     assert (tmp_path / "survey" / "population.json").exists()
+
+
+def test_report_of_several_files_shows_progress_on_stderr(capsys):
+    # a piped report of several systems is not silent: a tqdm bar on stderr counts the systems
+    rc, out, err = _run(["report", *FAST], capsys)          # the bundled demo systems
+    assert rc == 0
+    assert "report" in err and "3/3" in err
+    rc, out, err = _run(["report", *FAST, "--quiet"], capsys)
+    assert rc == 0 and err == ""

@@ -12,7 +12,6 @@ import json
 import os
 import pathlib
 import re
-import sys
 import threading
 import time
 import traceback
@@ -21,6 +20,7 @@ import warnings
 import numpy as np
 
 from ..errors import ConvergenceWarning, InputError
+from ..progress import progress_bar
 from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
@@ -185,26 +185,8 @@ def process_system(task):
 
 
 # --------------------------------------------------------------------------
-# Progress line
+# Progress: archsys.progress.progress_bar (re-exported here)
 # --------------------------------------------------------------------------
-
-def progress_bar(total, quiet=False, stream=None, skipped=0, desc="survey"):
-    """A tqdm progress bar on standard error (or ``stream``); disabled when ``quiet``.
-
-    On a terminal it redraws every 0.5 s; written to a file or a pipe it writes a
-    line at most every 30 s, so logs stay short.  The rejected count is shown
-    as a postfix (``bar.set_postfix_str``).
-    """
-    from tqdm import tqdm
-    stream = stream or sys.stderr
-    tty = bool(getattr(stream, "isatty", lambda: False)())
-    bar = tqdm(total=total, file=stream, disable=quiet or total == 0, desc=desc, unit="system",
-               mininterval=0.5 if tty else 30.0, maxinterval=60.0, smoothing=0.05, dynamic_ncols=tty,
-               ascii=not tty, leave=True)
-    if skipped and not bar.disable:
-        bar.set_postfix_str(f"{skipped} resumed", refresh=False)
-    return bar
-
 
 # --------------------------------------------------------------------------
 # Executors
