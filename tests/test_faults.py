@@ -175,7 +175,7 @@ def test_several_systems_all_or_nothing(tmp_path, capsys):
     b = _system(tmp_path, "Bexa", fname="b.toml")
     out = tmp_path / "out"
     (out / "Bexa.json").mkdir(parents=True)
-    rc, _, err = _run(["report", str(a), str(b), *FAST, "--out", str(out)], capsys)
+    rc, _, err = _run(["report", str(a), str(b), *FAST, "--quiet", "--out", str(out)], capsys)
     _one_line_exit_2(rc, err, "Bexa.json")
     assert _files(out) == []
 
