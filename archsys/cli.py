@@ -139,7 +139,7 @@ def _write_report_files(results, args):
     for name, stem in renamed:
         _note(f"note: system '{name}' is written as '{stem}.*' (its file name would collide with another "
               f"system's)")
-    from .output.formats import short_name
+    from .output.numbers import short_name
     for r, stem in zip(results, stems):        # planets' corner plots (same rule as output.figures)
         doc = r.document
         letters = [short_name(p.get("name", "?"), doc.get("system", "")) for p in doc.get("planets", [])]
