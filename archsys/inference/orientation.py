@@ -98,7 +98,13 @@ def prior_orientations(rng, n, npl, sigma_prior):
                 "cosI": cosI, "sigma": np.full(n, np.nan), "psi": None}
     sig = np.radians(sigma_prior.sample(rng, n))
     psi = sig[:, None] * np.sqrt(-2.0 * np.log(rng.uniform(1e-300, 1.0, (n, npl))))
-    psi = np.minimum(psi, np.pi)   # the Rayleigh is truncated at pi; tails beyond matter only for sigma >~ 60 deg
+    for _ in range(200):           # the Rayleigh is truncated at pi (as the density is): redraw beyond it
+        over = psi > np.pi
+        if not over.any():
+            break
+        rows = np.nonzero(over)[0]
+        psi[over] = sig[rows] * np.sqrt(-2.0 * np.log(rng.uniform(1e-300, 1.0, rows.size)))
+    psi = np.minimum(psi, np.pi)
     phi = rng.uniform(-np.pi, np.pi, (n, npl))
     sinI = np.sqrt(1.0 - cosI ** 2)[:, None]
     nx = np.sin(psi) * np.cos(phi)
