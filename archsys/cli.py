@@ -140,6 +140,14 @@ def build_parser():
     s.add_argument("--scheduler", default=None, metavar="ADDRESS", help="Dask scheduler address")
     s.add_argument("--limit", type=int, default=None, help="analyse at most N systems (after --where)")
     s.add_argument("--no-figures", action="store_true")
+    t = s.add_argument_group("transit multiplicity (population mutual inclinations; geometric only)")
+    t.add_argument("--transit-planets", default=None, metavar="EXPR",
+                   help="row expression for the planets counted as transiting (default 'transiting == true'; "
+                        "'off' skips the fit)")
+    t.add_argument("--transit-period", type=float, nargs=2, default=None, metavar=("MIN", "MAX"),
+                   help="detectability cut in period [day] (default: range of the counted planets)")
+    t.add_argument("--transit-radius", type=float, nargs=2, default=None, metavar=("MIN", "MAX"),
+                   help="detectability cut in planet radius [Earth radii] (default: none)")
     s.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(s)
     s.set_defaults(func=_cmd_survey, jobs=0)   # survey: one worker per core by default

@@ -372,7 +372,7 @@ def _manifest(cat, cmap, opts, seed):
 def run_survey(catalog, out, *, columns=None, where=(), resume=False, scheduler=None, limit=None,
                figures=True, seed=0, draws=None, mode="auto", ecc_prior=None, incl_prior=None,
                require_stable=False, max_steps=None, nbody=0, jobs=0, quiet=True, debug=False,
-               stream=None):
+               stream=None, transit=None):
     """Run a survey of ``catalog`` into directory ``out``; returns the population document.
 
     ``jobs``: 1 = serial, N = N local processes, 0 = one process per core
@@ -396,6 +396,8 @@ def run_survey(catalog, out, *, columns=None, where=(), resume=False, scheduler=
     cmap = bind(load_column_map(columns) if columns else canonical_map(cat.columns), cat)
     names = where_names(cmap, cat.columns)
     nodes = [parse_where(w, names) for w in where]
+    from .multiplicity_block import check_settings          # transit multiplicity (issue 14)
+    transit = check_settings(transit, cmap, cat.columns)
     opts = _analysis_options(seed, draws, mode, ecc_prior, incl_prior, require_stable, max_steps, nbody)
     groups, orphans = group_systems(cat, cmap.system)
     selected = [g for g in groups if select(g, nodes)]
@@ -426,12 +428,12 @@ def run_survey(catalog, out, *, columns=None, where=(), resume=False, scheduler=
         finally:
             prog.close()
         return _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts,
-                       list(where), limit, figures)
+                       list(where), limit, figures, transit)
     finally:
         store.close()
 
 
-def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, where, limit, figures):
+def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, where, limit, figures, transit=None):
     from .hierarchical import eccentricity_population, tilt_population
     from .population import population_statistics
     status = store.systems(ids)
@@ -483,6 +485,9 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, w
             "rayleigh": None, "n_planets": 0,
             "reason": "no analysed posterior provides planet tilts 'psi' (direct Monte Carlo draws do not "
                       "sample mutual inclinations); the MCMC mode of transiting multis would"}
+    from .multiplicity_block import transit_multiplicity    # population answer beside the per-system fit
+    pop["transit_multiplicity"] = transit_multiplicity(selected, cmap, cat.columns, cat.units, transit, int(seed),
+                                                       pop["mutual_inclination_population"])
 
     write_csv(out / "systems.csv", header_of(ok_rows, _FIRST_SYSTEM_COLS), ok_rows)
     write_csv(out / "planets.csv", header_of(planets, ("system", "planet")), planets)
@@ -560,15 +565,23 @@ def run_survey_cli(args) -> int:
                      figures=not args.no_figures, seed=args.seed, draws=args.draws, mode=args.mode,
                      ecc_prior=args.ecc_prior, incl_prior=args.incl_prior, require_stable=args.require_stable,
                      max_steps=args.max_steps, nbody=args.nbody, jobs=args.jobs, quiet=args.quiet,
-                     debug=getattr(args, "debug", False))
+                     debug=getattr(args, "debug", False), transit=_transit_settings(args))
     c = pop["counts"]
     if not args.quiet:
         sys.stderr.write(f"archsys survey: {c['systems_selected']} systems: {c['systems_analysed']} analysed, "
                          f"{c['systems_rejected']} rejected (see {pathlib.Path(args.out) / 'rejects.csv'})\n")
+        from .multiplicity_block import summary_lines
+        sys.stderr.writelines(f"archsys survey: {line}\n" for line in summary_lines(pop))
     if c["rejected_analysis_error"]:
         sys.stderr.write(f"archsys survey: warning: {c['rejected_analysis_error']} systems failed inside the "
                          f"analysis (reason 'analysis failed: ...' in rejects.csv); please report them\n")
     return 0
+
+
+def _transit_settings(args):
+    from .multiplicity_block import MultiplicitySettings
+    return MultiplicitySettings.from_cli(getattr(args, "transit_planets", None), getattr(args, "transit_period", None),
+                                         getattr(args, "transit_radius", None))
 
 
 def survey_benchmark(catalog, columns=None, jobs=1, out=None, mode="fast", draws=None, where=(),
