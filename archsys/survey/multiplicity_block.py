@@ -66,8 +66,8 @@ class MultiplicitySettings:
     min_hill: float = GLADMAN_HILL
     n_per_multiplicity: int = 10000
     n_grid: int = 40
-    n_steps: int = 4000
-    n_burn: int = 1000
+    n_steps: int = 2000
+    n_burn: int = 500
     off_reason: str = "switched off (--transit-planets off)"
 
     @classmethod

@@ -13,15 +13,15 @@ conditioned on ``k >= 1``:
 
 with ``A`` the simulated tables of :class:`~.multiplicity.MultiplicityModel`
 (linear interpolation in ``ln sigma``), ``pi_N`` the truncated Poisson law of
-mean ``mbar`` and ``S`` the transit probability of a single planet.  The
+mean ``mbar`` (tabulated on a fine ``mbar`` grid) and ``S`` the transit probability of a single planet.  The
 ``p_k`` are Monte Carlo estimates with common random numbers; they are floored
 at :data:`P_FLOOR` so that a bin the simulation never fills excludes a
 parameter value strongly instead of infinitely.
 
 Priors (choices, stated in the output): ``ln sigma`` uniform on
 :data:`SIGMA_RANGE_DEG`, ``mbar`` uniform on [1, :data:`MBAR_MAX`], ``f``
-uniform on [0, 1].  Sampled with emcee (stretch moves, all walkers in one
-vectorised call).
+uniform on [0, 1].  Sampled with emcee (differential-evolution moves, all
+walkers in one vectorised call).
 
 Excess of single-transit systems
 --------------------------------
@@ -63,6 +63,14 @@ class CountModel:
         self.tables = model.tables(np.exp(self.log_sig))                 # (G, n_max, K)
         self.single = model.single_transit_probability()
         self.n_max, self.k_max = model.n_max, model.k_max
+        self._mbar = np.linspace(1.0, MBAR_MAX, 1401)        # pmf tabulated in mbar, linear interpolation
+        self._pmf_tab = truncated_poisson_pmf(poisson_rate_for_mean(self._mbar, self.n_max), self.n_max)
+
+    def _pmf(self, mbar):
+        x = np.interp(mbar, self._mbar, np.arange(self._mbar.size))
+        i = np.minimum(x.astype(int), self._mbar.size - 2)
+        t = (x - i)[:, None]
+        return (1.0 - t) * self._pmf_tab[i] + t * self._pmf_tab[i + 1]
 
     def probabilities(self, log_sigma, mbar, f):
         """p_k (W, K) for walkers (W,), normalised over k = 1..K."""
@@ -71,7 +79,7 @@ class CountModel:
         i = np.minimum(x.astype(int), self.log_sig.size - 2)
         t = (x - i)[:, None, None]
         A = (1.0 - t) * self.tables[i] + t * self.tables[i + 1]              # (W, n_max, K)
-        pi = truncated_poisson_pmf(poisson_rate_for_mean(np.atleast_1d(mbar), self.n_max), self.n_max)
+        pi = self._pmf(np.atleast_1d(mbar))
         q = (1.0 - np.atleast_1d(f))[:, None] * np.einsum("wn,wnk->wk", pi, A)
         q[:, 0] += np.atleast_1d(f) * self.single
         return q / q.sum(axis=1, keepdims=True)
@@ -92,7 +100,7 @@ def _log_prior(theta, lo, hi, free_f):
     return ok
 
 
-def fit_counts(cm, counts, mixture=True, bins=None, seed=0, n_walkers=32, n_steps=1500, n_burn=500):
+def fit_counts(cm, counts, mixture=True, bins=None, seed=0, n_walkers=32, n_steps=2000, n_burn=500):
     """Posterior samples of (sigma [deg], mbar, f) given counts n_1..n_K.
 
     Parameters
@@ -143,7 +151,9 @@ def fit_counts(cm, counts, mixture=True, bins=None, seed=0, n_walkers=32, n_step
     box_lo = np.array([lo, 1.0, 0.0])[free] + 1e-6
     box_hi = np.array([hi, MBAR_MAX, 1.0])[free] - 1e-6
     p0 = np.clip(p0, box_lo, box_hi)
-    sampler = emcee.EnsembleSampler(n_walkers, len(free), log_prob, vectorize=True)
+    # differential-evolution moves: the posterior is a curved, degenerate ridge in (sigma, mbar, f)
+    moves = [(emcee.moves.DEMove(), 0.8), (emcee.moves.DESnookerMove(), 0.2)]
+    sampler = emcee.EnsembleSampler(n_walkers, len(free), log_prob, vectorize=True, moves=moves)
     sampler.random_state = np.random.RandomState(int(rng.integers(2 ** 31))).get_state()
     sampler.run_mcmc(p0, n_steps, progress=False)
     x = sampler.get_chain(discard=n_burn, flat=True)
