@@ -191,7 +191,12 @@ def _side_by_side(per_system, sigma_pop):
 
 
 def transit_multiplicity(groups, cmap, cat_columns, cat_units, settings=None, seed=0, per_system_fit=None):
-    """The ``transit_multiplicity`` block of population.json (see module docstring)."""
+    """The ``transit_multiplicity`` block of population.json (see module docstring); JSON-ready, no NaN."""
+    from ..output.document import _finite
+    return _finite(_block(groups, cmap, cat_columns, cat_units, settings, seed, per_system_fit))
+
+
+def _block(groups, cmap, cat_columns, cat_units, settings, seed, per_system_fit):
     st = settings or MultiplicitySettings()
     if not st.planets:
         return {"fit": None, "reason": st.off_reason, "side_by_side": _side_by_side(per_system_fit, None)}
