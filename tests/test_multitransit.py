@@ -6,7 +6,6 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from archsys.physics import constants as C
 from archsys.physics import multitransit as mt
 from archsys.survey import multiplicity as mp
 

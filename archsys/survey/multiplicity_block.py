@@ -27,6 +27,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..errors import InputError
+from ..physics.constants import R_EARTH_M, R_SUN_M
 from .catalog import evaluate, parse_where
 from .columns import system_mapping, where_names
 from .multiplicity import (GLADMAN_HILL, K_MAX, N_MAX, PERIOD_JITTER_DEX, Detectability, MultiplicityModel,
@@ -151,7 +152,7 @@ def observed_transits(groups, cmap, cat_columns, cat_units, planets_expr):
             except Exception:  # noqa: BLE001
                 P = R = None
             if R is None and pl.get("ror") and "value" in pl["ror"] and rs:
-                R = float(pl["ror"]["value"]) * rs * 109.07637     # R_sun / R_earth, IAU 2015 B3 nominal
+                R = float(pl["ror"]["value"]) * rs * R_SUN_M / R_EARTH_M     # IAU 2015 B3 nominal radii
             if P is None or not (P > 0 and math.isfinite(P)):
                 info["no_period"] += 1
                 continue
