@@ -27,6 +27,12 @@ Intrinsic systems
   only**: no pipeline completeness (signal-to-noise, number of transits,
   duty cycle) is modelled.
 
+Arrays
+------
+Systems of one multiplicity ``N`` are dense ``(n_systems, N)`` arrays, so no
+slot is padding; Python loops run only over ``N <= n_max``, over the planet
+slots of the spacing step and over the sigma grid, never over systems.
+
 Tables
 ------
 Given ``N``, the distribution of the number ``k`` of transiting detectable

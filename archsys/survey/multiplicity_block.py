@@ -268,6 +268,10 @@ def _block(groups, cmap, cat_columns, cat_units, settings, seed, per_system_fit)
         out["posterior_predictive"] = count_summary(posterior_predictive(cm, fit["theta"], n, rng))
         return out
 
+    if mix["sigma_deg"]["lo95"] < 2.0 * SIGMA_RANGE_DEG[0]:
+        block["sigma_note"] = ("the counts do not resolve sigma below the width of the transit band (about R*/a): "
+                               "the lower part of the sigma posterior follows the log-uniform prior down to "
+                               f"{SIGMA_RANGE_DEG[0]} deg; quote the upper bounds (hi, hi95)")
     block["fit"] = {"two_populations": public(mix), "one_population": public(one),
                     "one_population_multis_only": {k: v for k, v in multis.items() if k not in ("samples", "theta")}}
     block["single_excess"] = single_excess(cm, counts, multis, rng)

@@ -168,7 +168,9 @@ def fit_counts(cm, counts, mixture=True, bins=None, seed=0, n_walkers=32, n_step
            "max_log_likelihood": float(-res.fun) if np.isfinite(res.fun) else None,
            "diagnostics": {"walkers": n_walkers, "steps": n_steps, "burn_in": n_burn,
                            "acceptance_fraction": float(np.mean(sampler.acceptance_fraction)),
-                           "autocorrelation_time": tau}}
+                           "autocorrelation_time": tau,
+                           "kept_steps_over_max_tau": ((n_steps - n_burn) / max(tau)
+                                                       if all(t is not None and t > 0 for t in tau) else None)}}
     if mixture:
         out["single_fraction"] = interval(samples[:, 2])
         out["mean_multiplicity_all_systems"] = interval((1 - samples[:, 2]) * samples[:, 1] + samples[:, 2])
