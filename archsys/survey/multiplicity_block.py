@@ -177,11 +177,11 @@ def _side_by_side(per_system, sigma_pop):
         "per_system_posteriors": {
             "sigma_deg": ray.get("sigma_deg") if ray else None,
             "n_planets": (per_system or {}).get("n_planets"),
-            "assumptions": "tilts psi of the planets of transiting multis sampled per system (MCMC) and fitted as "
-                           "independent objects with the Hogg, Myers & Bovy (2010) estimator (approximate: the "
-                           "planets of one system share a dispersion); uses impact parameters and transit "
-                           "durations where given; only systems with two or more transiting planets; null in "
-                           "--mode fast",
+            "assumptions": "tilts psi of the planets of transiting multis sampled per system by the joint model "
+                           "and fitted as independent objects with the Hogg, Myers & Bovy (2010) estimator "
+                           "(approximate: the planets of one system share a dispersion); uses the impact "
+                           "parameters where given; only systems whose planets all transit, two or more; null "
+                           "in --mode fast",
             "reason": None if ray else (per_system or {}).get("reason")},
         "transit_multiplicity": {
             "sigma_deg": sigma_pop,
