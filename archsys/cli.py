@@ -150,6 +150,8 @@ def build_parser():
                    help="detectability cut in period [day] (default: range of the counted planets)")
     t.add_argument("--transit-radius", type=float, nargs=2, default=None, metavar=("MIN", "MAX"),
                    help="detectability cut in planet radius [Earth radii] (default: none)")
+    t.add_argument("--transit-second", choices=["single", "isotropic"], default=None,
+                   help="second population: one planet per system (default) or mutually isotropic orbits")
     s.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(s)
     s.set_defaults(func=_cmd_survey, jobs=0)   # survey: one worker per core by default

@@ -110,3 +110,24 @@ def test_period_law_against_its_cdf():
         v = np.asarray(v)
         return np.where(v < xb, (np.exp(v) - 1.0) / 10.0, w1 + (v - xb)) / (w1 + w2)
     assert stats.kstest(x, cdf).pvalue > 1e-3
+
+
+def test_isotropic_second_population_is_poisson_binomial():
+    # Probability theory (common practice): with mutually isotropic orbit normals each planet transits
+    # independently with probability eps_j, so k is Poisson-binomial.  The exact recursion of hot_tables
+    # must match a brute-force simulation of isotropic normals seen by isotropic observers.
+    rng = np.random.default_rng(8)
+    n = 1500
+    pool = mp.PlanetPool.from_transits(np.exp(rng.uniform(0, 3, n)), rng.lognormal(0.7, 0.5, n),
+                                       np.ones(n), np.ones(n))
+    det = mp.Detectability((1.0, 20.0))
+    model = mp.MultiplicityModel(pool, det, n_per_multiplicity=50_000, n_max=4, k_max=4, seed=1)
+    H = model.hot_tables()                                        # (n_max, k_max)
+    g = model._groups[2]                                          # three planets
+    m = len(g["u"])
+    psi = np.arccos(2.0 * rng.random((m, 3)) - 1.0)              # isotropic normals, independent
+    hit = mt.transit_mask(psi, g["node"], 2.0 * g["u"] - 1.0, g["eps"], g["det"]).sum(axis=1)
+    for k in (1, 2):
+        frac = np.mean(hit == k)
+        assert H[2, k - 1] == pytest.approx(frac, abs=5 * math.sqrt(frac / m) + 1e-6)
+    assert H[0, 0] == pytest.approx(model.single_transit_probability(), rel=1e-12)

@@ -181,12 +181,13 @@ def _catalogue(path, n_systems=40, with_flag=True):
 def test_survey_writes_block_figure_and_side_by_side(tmp_path, capsys):
     cat = _catalogue(tmp_path / "inv.csv")
     rc = main(["survey", str(cat), "--out", str(tmp_path / "o"), "--mode", "fast", "--jobs", "1",
-               "--transit-period", "1", "200"])
+               "--transit-period", "1", "200", "--transit-second", "isotropic"])
     assert rc == 0
     import json
     pop = json.loads((tmp_path / "o" / "population.json").read_text())
     b = pop["transit_multiplicity"]
     assert b["detectability"]["period_day"] == [1.0, 200.0]
+    assert b["model"]["second_population"] == "isotropic"
     assert b["observed"]["n_systems"] == 40 and b["fit"]["two_populations"]["sigma_deg"]["median"] > 0
     sbs = b["side_by_side"]
     assert set(sbs) == {"per_system_posteriors", "transit_multiplicity"}

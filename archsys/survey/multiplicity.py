@@ -8,7 +8,10 @@ Intrinsic systems
   mean ``mbar`` is a model parameter.  The other fraction ``f`` holds one
   planet only: intrinsically single planets, or dynamically hot systems whose
   other planets never transit with it (the two are the same for transit
-  counts to first order).  ``f = 0`` is the one-population model.
+  counts to first order).  ``f = 0`` is the one-population model.  As an
+  alternative second population (``second="isotropic"``), the fraction ``f``
+  holds dynamically hot systems with the same multiplicity law whose orbit
+  normals are mutually isotropic (:meth:`MultiplicityModel.hot_tables`).
 * Planets: ``(P, Rp)`` pairs resampled from a pool of observed transiting
   planets with weights ``1/epsilon = a/(R* + Rp)`` (inverse geometric transit
   probability, so the pool stands for the intrinsic distribution), each period
@@ -223,6 +226,20 @@ def _counts(g, sigma_rad, k_max, isotropic_observers=False):
     return np.bincount(np.minimum(k, k_max), weights=w, minlength=k_max + 1)
 
 
+def _hot_counts(g, k_max):
+    """Mean Poisson-binomial P(k), k = 1..k_max (last bin >= k_max), of independent transits with p = eps * det."""
+    p = np.where(g["det"], g["eps"], 0.0)                                          # (m, n)
+    prob = np.zeros((p.shape[0], k_max + 1))
+    prob[:, 0] = 1.0
+    for j in range(p.shape[1]):
+        pj = p[:, j:j + 1]
+        moved = prob * pj
+        prob *= 1.0 - pj
+        prob[:, 1:] += moved[:, :-1]
+        prob[:, -1] += moved[:, -1]                  # the top bin keeps k >= k_max
+    return prob.mean(axis=0)[1:]
+
+
 class MultiplicityModel:
     """Pre-drawn systems of each multiplicity 1..n_max (common random numbers) and their transit tables.
 
@@ -262,6 +279,15 @@ class MultiplicityModel:
             for i, s in enumerate(sig):
                 out[i, j, :] = _counts(g, s, self.k_max)[1:] / self.m
         return out
+
+    def hot_tables(self):
+        """``H[N-1, k-1]``: P(k transiting detectable planets | N planets with independent isotropic orbit normals).
+
+        For mutually isotropic orbits every planet transits independently with
+        probability ``epsilon_j``, so k follows a Poisson-binomial law, computed
+        exactly per system (recursion over the planet slots) and averaged.
+        """
+        return np.stack([_hot_counts(g, self.k_max) for g in self._groups])
 
     def single_transit_probability(self):
         """P(the one planet of an intrinsically single system transits and is detectable)."""

@@ -49,7 +49,8 @@ ASSUMPTIONS = [
     "orbit normals tilted from one reference plane per system by psi ~ Rayleigh(sigma) at uniform nodes; "
     "isotropic observers",
     "flat population: zero-truncated Poisson multiplicity (truncated at n_max); second population (fraction f): "
-    "one planet only (intrinsically single or dynamically hot)",
+    "one planet only (intrinsically single or dynamically hot; 'single') or the same multiplicity law with "
+    "mutually isotropic orbits ('isotropic'), see model.second_population",
     "periods, radii and hosts resampled from the counted planets weighted by a/(R* + Rp) (inverse transit "
     "probability), periods jittered; adjacent planets at least min_hill mutual Hill radii apart "
     "(masses from radii, Weiss & Marcy 2014)",
@@ -70,9 +71,10 @@ class MultiplicitySettings:
     n_steps: int = 2000
     n_burn: int = 500
     off_reason: str = "switched off (--transit-planets off)"
+    second_population: str = "single"        # or "isotropic" (see multiplicity_fit.SECOND_POPULATIONS)
 
     @classmethod
-    def from_cli(cls, planets=None, period=None, radius=None):
+    def from_cli(cls, planets=None, period=None, radius=None, second=None):
         """Settings from ``--transit-planets`` (``off`` switches the block off), ``--transit-period``,
         ``--transit-radius`` (MIN MAX pairs); one-line InputError on bad values."""
         for name, rng in (("--transit-period", period), ("--transit-radius", radius)):
@@ -81,7 +83,7 @@ class MultiplicitySettings:
         if planets is not None and planets.strip().lower() == "off":
             return cls(planets=None)
         return cls(planets=planets or cls.planets, period_day=tuple(period) if period else None,
-                   radius_rearth=tuple(radius) if radius else None)
+                   radius_rearth=tuple(radius) if radius else None, second_population=second or "single")
 
 
 def check_settings(settings, cmap, cat_columns):
@@ -234,7 +236,7 @@ def _block(groups, cmap, cat_columns, cat_units, settings, seed, per_system_fit)
         "model": {"assumptions": ASSUMPTIONS, "n_max": N_MAX, "k_bins": _labels(), "min_hill": st.min_hill,
                   "periods": "resampled from the counted planets (weights a/(R* + Rp), jitter "
                              f"{PERIOD_JITTER_DEX} dex)",
-                  "pool_planets": len(in_pool), "systems_per_multiplicity": st.n_per_multiplicity,
+                  "second_population": st.second_population, "pool_planets": len(in_pool), "systems_per_multiplicity": st.n_per_multiplicity,
                   "sigma_grid": {"n": st.n_grid, "deg": list(SIGMA_RANGE_DEG), "interpolation": "linear in ln sigma"},
                   "likelihood": "multinomial over k = 1..7+ conditioned on k >= 1, probabilities simulated with "
                                 "common random numbers (fixed seed)",
@@ -255,7 +257,7 @@ def _block(groups, cmap, cat_columns, cat_units, settings, seed, per_system_fit)
                                     [r["star_mass"] for r in in_pool], [r["star_radius"] for r in in_pool])
     model = MultiplicityModel(pool, det, n_per_multiplicity=st.n_per_multiplicity, min_hill=st.min_hill,
                               seed=seed)
-    cm = CountModel(model, n_grid=st.n_grid)
+    cm = CountModel(model, n_grid=st.n_grid, second=st.second_population)
     rng = np.random.default_rng(np.random.SeedSequence([int(seed), 0x5EE]))
     n = int(counts.sum())
     kw = {"n_steps": st.n_steps, "n_burn": st.n_burn}

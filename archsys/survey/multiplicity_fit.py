@@ -13,7 +13,10 @@ conditioned on ``k >= 1``:
 
 with ``A`` the simulated tables of :class:`~.multiplicity.MultiplicityModel`
 (linear interpolation in ``ln sigma``), ``pi_N`` the truncated Poisson law of
-mean ``mbar`` (tabulated on a fine ``mbar`` grid) and ``S`` the transit probability of a single planet.  The
+mean ``mbar`` (tabulated on a fine ``mbar`` grid) and ``S`` the transit
+probability of a single planet; with the isotropic second population the last
+term is ``f sum_N pi_N H_kN`` instead (``H`` from
+:meth:`~.multiplicity.MultiplicityModel.hot_tables`).  The
 ``p_k`` are Monte Carlo estimates with common random numbers; they are floored
 at :data:`P_FLOOR` so that a bin the simulation never fills excludes a
 parameter value strongly instead of infinitely.
@@ -41,13 +44,15 @@ import numpy as np
 from .hierarchical import interval
 from .multiplicity import poisson_rate_for_mean, truncated_poisson_pmf
 
-__all__ = ["CountModel", "fit_counts", "single_excess", "posterior_predictive", "SIGMA_RANGE_DEG",
+__all__ = ["CountModel", "SECOND_POPULATIONS", "fit_counts", "single_excess", "posterior_predictive", "SIGMA_RANGE_DEG",
            "MBAR_MAX", "P_FLOOR"]
 
 #: Prior range of the tilt dispersion sigma [deg] (log-uniform; a choice).
 SIGMA_RANGE_DEG = (0.1, 45.0)
 #: Upper end of the uniform prior on the mean multiplicity of the flat population.
 MBAR_MAX = 8.0
+#: Second populations: one planet per system, or mutually isotropic orbits (same multiplicity law).
+SECOND_POPULATIONS = ("single", "isotropic")
 #: Floor of the simulated multinomial probabilities.
 P_FLOOR = 1e-9
 _N_GRID = 48
@@ -56,8 +61,11 @@ _N_GRID = 48
 class CountModel:
     """Tables on a sigma grid and the vectorised multinomial log-likelihood of (ln sigma, mbar, f)."""
 
-    def __init__(self, model, n_grid=_N_GRID, sigma_range_deg=SIGMA_RANGE_DEG):
-        self.model = model
+    def __init__(self, model, n_grid=_N_GRID, sigma_range_deg=SIGMA_RANGE_DEG, second="single"):
+        if second not in SECOND_POPULATIONS:
+            raise ValueError(f"second population must be one of {', '.join(SECOND_POPULATIONS)}; got {second!r}")
+        self.model, self.second = model, second
+        self.hot = model.hot_tables() if second == "isotropic" else None
         self.log_sig = np.linspace(math.log(math.radians(sigma_range_deg[0])),
                                    math.log(math.radians(sigma_range_deg[1])), n_grid)
         self.tables = model.tables(np.exp(self.log_sig))                 # (G, n_max, K)
@@ -81,7 +89,10 @@ class CountModel:
         A = (1.0 - t) * self.tables[i] + t * self.tables[i + 1]              # (W, n_max, K)
         pi = self._pmf(np.atleast_1d(mbar))
         q = (1.0 - np.atleast_1d(f))[:, None] * np.einsum("wn,wnk->wk", pi, A)
-        q[:, 0] += np.atleast_1d(f) * self.single
+        if self.hot is None:
+            q[:, 0] += np.atleast_1d(f) * self.single
+        else:
+            q += np.atleast_1d(f)[:, None] * (pi @ self.hot)
         return q / q.sum(axis=1, keepdims=True)
 
     def log_like(self, theta, counts, bins=None):

@@ -580,8 +580,8 @@ def run_survey_cli(args) -> int:
 
 def _transit_settings(args):
     from .multiplicity_block import MultiplicitySettings
-    return MultiplicitySettings.from_cli(getattr(args, "transit_planets", None), getattr(args, "transit_period", None),
-                                         getattr(args, "transit_radius", None))
+    return MultiplicitySettings.from_cli(*(getattr(args, f"transit_{k}", None)
+                                           for k in ("planets", "period", "radius", "second")))
 
 
 def survey_benchmark(catalog, columns=None, jobs=1, out=None, mode="fast", draws=None, where=(),
