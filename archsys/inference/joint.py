@@ -52,8 +52,8 @@ __all__ = ["sample_joint", "MASS_CAP", "N_TAU", "BURN_TAU", "MAX_POOL_FACTOR"]
 MASS_CAP = 0.08
 #: The proposals may grow to this many times the requested draws (rejections by a stability prior in
 #: tension with the data need many); they are drawn in chunks of at most MAX_CHUNK.
-MAX_POOL_FACTOR = 256
-MAX_CHUNK = 200_000
+MAX_POOL_FACTOR = 64
+MAX_CHUNK = 100_000
 
 
 # --------------------------------------------------------------------------- the engine

@@ -237,6 +237,13 @@ class OrientationModel:
             "jnf": arr(jnf), "nf": np.array([self.fixed_node[j] for j in jnf]),
             "top_b": 1.0 + self.ror[jb], "nt": arr(self.non_transit), "top_nt": 1.0 + self.ror[self.non_transit],
         }
+        gi = []
+        for j in ji:
+            meas = self.system.planets[j].quantities["inclination"]
+            i0 = math.radians(meas.center)
+            gi.append((math.cos(i0), max(abs(math.sin(i0)) * math.radians(meas.sigma), 1e-6)))
+        self._gi_y = np.array([x[0] for x in gi])
+        self._gi_s = np.array([x[1] for x in gi])
         self._gb_y = np.array([self._b_gauss[j][0] for j in jb])
         self._gb_s = np.array([self._b_gauss[j][1] for j in jb])
         self._g0_b = self.g0[jb] if jb else np.zeros(0)
@@ -293,7 +300,13 @@ class OrientationModel:
             u[:, V["jall_b"]] = beta[:, V["jall_b"]] * gb
             log_jac += np.sum(np.log(gb), axis=1)
         if len(V["ji"]):
-            u[:, V["ji"]] = th[:, V["ci"]]
+            if self.b_std:
+                mean, sd = self._gauss_conditional(self._gi_y, self._gi_s, np.ones(len(V["ji"])),
+                                                   c["cosI"][:, None], sig[:, None])
+                u[:, V["ji"]] = mean + sd * th[:, V["ci"]]
+                log_jac += np.sum(np.log(sd), axis=1)
+            else:
+                u[:, V["ji"]] = th[:, V["ci"]]
         if len(V["jf"]):
             u[:, V["jf"]] = V["cf"]
         if len(V["jz"]):
@@ -318,6 +331,15 @@ class OrientationModel:
         w = 1.0 / (sigma[:, None] ** 2 + self._ref_s2[None, :] + 1e-300)
         prec = w.sum(axis=1)
         return (w * self._ref_y[None, :]).sum(axis=1) / prec, 1.0 / np.sqrt(prec)
+
+    @staticmethod
+    def _gauss_conditional(y, s, g, cosI, sigma):
+        """Mean and width of x given (cos I, sigma) when |cos i| = x g has the Gaussian prior
+        N(cos I, (sigma sin I)^2) and x the Gaussian summary N(y, s^2)."""
+        tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
+        prec = 1.0 / (tau * tau) + 1.0 / (s * s)
+        mean = (cosI / g / (tau * tau) + y / (s * s)) / prec
+        return mean, 1.0 / np.sqrt(prec)
 
     def _beta_conditional(self, jb, cosI, sigma):
         """Mean and width of the impact parameter of planet j given (cos I, sigma) in a Gaussian
@@ -396,7 +418,7 @@ class OrientationModel:
             if self.node_info:
                 th[:, self.ix["node_ref"]] = rng.uniform(-np.pi, np.pi, n_try)
             us = []
-            b_start = {}
+            b_start, incl_start = {}, {}
             for j, k in enumerate(self.kinds):
                 p = self.system.planets[j]
                 if k == "b" and j not in self.b_fixed:
@@ -408,7 +430,7 @@ class OrientationModel:
                     us.append(bj * self.g0[j])
                 elif k == "incl":
                     cj = np.cos(np.radians(p.quantities["inclination"].sample(rng, n_try)))
-                    th[:, self.ix[f"cosi{j}"]] = cj
+                    incl_start[j] = cj
                     us.append(cj)
                 elif k == "fixed":
                     us.append(np.full(n_try, self.fixed_cos[j]))
@@ -428,6 +450,13 @@ class OrientationModel:
                     th[:, self.ix[f"beta{j}"]] = (bj - mean) / sd
                 else:
                     th[:, self.ix[f"beta{j}"]] = bj
+            for j, cj in incl_start.items():
+                if self.b_std:
+                    k = list(self._vec["ji"]).index(j)
+                    mean, sd = self._gauss_conditional(self._gi_y[k], self._gi_s[k], 1.0, cos_start, sig)
+                    th[:, self.ix[f"cosi{j}"]] = (cj - mean) / sd
+                else:
+                    th[:, self.ix[f"cosi{j}"]] = cj
             if self._ref_info:
                 mean, sd = self._ref_conditional(sig)
                 th[:, self.ix["cosI"]] = (cos_start - mean) / sd
