@@ -820,10 +820,11 @@ def make_figures(draws, document, preset=None, truths=None, priors=None):
     if draws is None:
         return items
     sets = [("system", system_parameters(draws, document), f"{name}: system parameters")]
+    from .files import unique_stems
+    letters, _ = unique_stems([_letter(pl["name"], name) for pl in document.get("planets", [])],
+                              fallback="planet", reserved=("system",))   # "b/1" vs "b_1"; never "system"
     for j, pl in enumerate(document.get("planets", [])):
-        letter = _letter(pl["name"], name)
-        from .files import safe_name
-        sets.append((f"corner_{safe_name(letter)}", planet_parameters(draws, document, j), pl["name"]))
+        sets.append((f"corner_{letters[j]}", planet_parameters(draws, document, j), pl["name"]))
     for key, params, label in sets:
         kept, skipped = usable_parameters(params)
         if len(kept) < 2:
