@@ -226,3 +226,15 @@ def test_face_on_orbit_has_no_finite_true_mass():
     d = direct_draws(sysm, n=50, seed=1)
     assert np.all(np.isnan(d["mass"])) and np.all(np.isfinite(d["a"]))
     np.testing.assert_allclose(d["a"][:, 0], kepler.a_au(10.0, 1.0 + d["msini"][:, 0]), rtol=1e-14)
+
+
+def test_direct_true_mass_stays_below_the_cap_near_face_on():
+    # A planet lighter than its star (common practice: below 0.08 M_sun, the hydrogen-burning limit):
+    # nearly face-on draws with K would give m sin i / sin i above it; those rows are redrawn.
+    from archsys.model.reader import build_system
+    from archsys.inference.draws import direct_draws
+    s = build_system({"name": "Z", "star": {"mass": 1.0}, "planet": [
+        {"name": "Z b", "period": 10.0, "k": {"value": 30.0, "err": 2.0},
+         "inclination": {"value": 179.5, "err": 1.0}}]}, source="<test>")
+    d = direct_draws(s, n=2000, seed=0)
+    assert np.nanmax(d["mass"]) < 0.08 < d["m_star"].min()

@@ -74,19 +74,24 @@ def direct_draws(system, n=DEFAULT_DRAWS, seed=0) -> Posterior:
     Planets are labelled by period order (the reader sorts them), so a draw in
     which an outer planet's period falls below an inner one's is rejected and the
     whole row redrawn: the draws follow the product of the summaries truncated to
-    ordered periods.  Rows are redrawn only when needed, so systems whose period
+    ordered periods (and to true masses below ``MASS_CAP``).  Rows are redrawn only when needed, so systems whose period
     summaries do not overlap get exactly the draws of a single pass.
     """
     rng = np.random.default_rng(seed)
     draws, notes = _draw_rows(system, rng, n)
-    bad = _order_broken(draws["period"])
+    bad = _order_broken(draws["period"]) | _too_heavy(draws["mass"])
     rounds = 0
     while bad.any() and rounds < MAX_ORDER_ROUNDS:
         sub, _ = _draw_rows(system, rng, int(bad.sum()))
         for k, v in draws.items():
             v[bad] = sub[k]
-        bad = _order_broken(draws["period"])
+        bad = _order_broken(draws["period"]) | _too_heavy(draws["mass"])
         rounds += 1
+    if bad.any() and _too_heavy(draws["mass"]).any():
+        j = int(np.argmax(np.any(draws["mass"][bad] >= MASS_CAP, axis=0)))
+        raise InputError(f"planet '{system.planet_names[j]}': nearly face-on orbit: the true mass m sin i / sin i "
+                         f"exceeds {MASS_CAP} M_sun in most draws; check the inclination",
+                         source=system.source)
     if bad.any():
         j = int(np.argmax(np.any(np.diff(draws["period"][bad], axis=1) < 0, axis=0)))
         names = system.planet_names
@@ -96,6 +101,18 @@ def direct_draws(system, n=DEFAULT_DRAWS, seed=0) -> Posterior:
     return Posterior(system, draws, "direct", seed=seed, notes=notes,
                      sampler={"method": "direct Monte Carlo", "draws": n,
                               "why": "no joint constraint binds: summaries are independent"})
+
+
+#: Upper bound of every true mass [M_sun] (about 84 M_J, the hydrogen-burning limit; common practice):
+#: rows whose true mass from m sin i / sin i exceeds it (nearly face-on draws) are redrawn, as in the
+#: joint engine.
+MASS_CAP = 0.08
+
+
+def _too_heavy(mass):
+    """Rows (draws) where some true mass reaches the cap (nearly face-on orbits), shape (n,)."""
+    with np.errstate(invalid="ignore"):
+        return np.any(mass >= MASS_CAP, axis=1)
 
 
 def _order_broken(P):
