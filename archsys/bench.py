@@ -19,6 +19,11 @@ survey_full_*
     first 40 of them (target: >= 5x faster, 2 workers >= 1.8x).
 survey_systems_per_s, survey_seconds, survey_speedup_2_jobs
     the open catalogue in fast mode with 1 and 2 worker processes (target < 2 min, speed-up >= 1.7).
+multiplicity_systems_per_s, multiplicity_systems_per_s_2_cores, multiplicity_vs_bare_numpy
+    the transit-multiplicity forward model (intrinsic systems drawn, spaced, tilted, observed and counted;
+    mean multiplicity 3, 30 % singles) over 10^6 systems in one process and in two processes
+    (target >= 10^6 systems per second on 2 cores); the ratio is the time bare numpy needs to draw the
+    same random numbers over the model's time (1 = the random numbers are the whole cost).
 stability_analytic_vs_nbody_cost
     cost of one N-body MEGNO integration per draw over the cost of the analytic verdicts per draw
     (needs rebound).
@@ -114,8 +119,44 @@ def bench_stability(n_draws=4):
             "stability_analytic_vs_nbody_cost": t_nb / t_an}
 
 
+def _multiplicity_pool():
+    from .survey.multiplicity import Detectability, PlanetPool
+    rng = np.random.default_rng(0)
+    n = 3000
+    P = np.exp(rng.uniform(np.log(0.5), np.log(400.0), n))
+    R = rng.lognormal(np.log(2.2), 0.6, n)
+    return PlanetPool.from_transits(P, R, np.full(n, 0.95), np.full(n, 0.95)), Detectability((0.5, 400.0))
+
+
+def _multiplicity_chunk(args):
+    """Simulate ``n`` systems (seeded) and return the wall time; top level so spawned workers can import it."""
+    from .survey.multiplicity import simulate_counts
+    seed, n = args
+    pool, det = _multiplicity_pool()
+    t0 = time.perf_counter()
+    simulate_counts(pool, det, np.radians(2.0), 3.0, 0.3, n, np.random.default_rng(seed))
+    return time.perf_counter() - t0
+
+
+def bench_multiplicity(n=1_000_000):
+    import multiprocessing as mp
+    from concurrent.futures import ProcessPoolExecutor
+    t_one = min(_multiplicity_chunk((s, n)) for s in range(2))
+    rng = np.random.default_rng(1)
+    n_rand = int(n * (2 + 4 * 2.4))          # per system: host, observer; per planet: index, jitter, tilt, node
+    t_bare = _best(lambda: rng.random(n_rand), repeat=2)
+    with ProcessPoolExecutor(max_workers=2, mp_context=mp.get_context("spawn")) as ex:
+        list(ex.map(_multiplicity_chunk, [(0, 1000), (1, 1000)]))             # start-up and imports
+        t0 = time.perf_counter()
+        list(ex.map(_multiplicity_chunk, [(2, n), (3, n)]))
+        t_two = time.perf_counter() - t0
+    return {"multiplicity_systems_per_s": n / t_one, "multiplicity_systems_per_s_2_cores": 2 * n / t_two,
+            "multiplicity_vs_bare_numpy": t_bare / t_one}
+
+
 BENCHES = {"kepler": bench_kepler, "scores": bench_scores, "posterior": bench_posterior,
-           "survey": bench_survey, "survey_full": bench_survey_full, "stability": bench_stability}
+           "survey": bench_survey, "survey_full": bench_survey_full, "stability": bench_stability,
+           "multiplicity": bench_multiplicity}
 
 
 def run(skip=(), quick=False, log=None):

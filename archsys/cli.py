@@ -202,11 +202,16 @@ def _cmd_survey(args):
     sopts = SurveyOptions(columns=args.columns, where=tuple(args.where or ()), resume=args.resume,
                           scheduler=args.scheduler, limit=args.limit, figures=not args.no_figures)
     _warn_unused(opts)
-    pop = run_survey(args.catalog, args.out, opts, sopts, debug=getattr(args, "debug", False))
+    from .survey.multiplicity_block import MultiplicitySettings, summary_lines
+    transit = MultiplicitySettings.from_cli(args.transit_planets, args.transit_period, args.transit_radius,
+                                            args.transit_second)
+    pop = run_survey(args.catalog, args.out, opts, sopts, debug=getattr(args, "debug", False), transit=transit)
     c = pop["counts"]
     if not args.quiet:
         _note(f"survey: {c['systems_selected']} systems: {c['systems_analysed']} analysed, "
               f"{c['systems_rejected']} rejected (see {os.path.join(args.out, 'rejects.csv')})")
+        for line in summary_lines(pop):
+            _note(f"survey: {line}")
     for line in pop.get("_notes", []):
         _note(line)
     if c["rejected_analysis_error"]:
@@ -264,6 +269,16 @@ def build_parser():
     s.add_argument("--scheduler", default=None, metavar="ADDRESS", help="Dask scheduler address")
     s.add_argument("--limit", type=int, default=None, help="analyse at most N systems (after --where)")
     s.add_argument("--no-figures", action="store_true")
+    t = s.add_argument_group("transit multiplicity (population mutual inclinations; geometric only)")
+    t.add_argument("--transit-planets", default=None, metavar="EXPR",
+                   help="row expression for the planets counted as transiting (default 'transiting == true'; "
+                        "'off' skips the fit)")
+    t.add_argument("--transit-period", type=float, nargs=2, default=None, metavar=("MIN", "MAX"),
+                   help="detectability cut in period [day] (default: range of the counted planets)")
+    t.add_argument("--transit-radius", type=float, nargs=2, default=None, metavar=("MIN", "MAX"),
+                   help="detectability cut in planet radius [Earth radii] (default: none)")
+    t.add_argument("--transit-second", choices=["single", "isotropic"], default=None,
+                   help="second population: one planet per system (default) or mutually isotropic orbits")
     s.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(s)
     s.set_defaults(func=_cmd_survey, jobs=0)   # survey: one worker per core by default

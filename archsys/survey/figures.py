@@ -149,6 +149,11 @@ def _save(fig, stem: pathlib.Path):
         atomic_write(stem.with_suffix(f".{ext}"), buf.getvalue(), mode="wb")
 
 
+def _transit_figure(block):
+    from .multiplicity_figure import plot_transit_multiplicity
+    return plot_transit_multiplicity(block)
+
+
 def survey_figures(pop, systems, pairs, planets, out_dir):
     """Write every survey figure to ``out_dir`` (PNG and PDF); returns the file stems."""
     import matplotlib
@@ -163,7 +168,8 @@ def survey_figures(pop, systems, pairs, planets, out_dir):
                 ("multiplicity", lambda: plot_multiplicity(pop.get("multiplicity", {}))),
                 ("gap_complexity", lambda: plot_gap_complexity(systems)),
                 ("eccentricity_population",
-                 lambda: plot_eccentricity_population(planets, pop.get("eccentricity_population")))):
+                 lambda: plot_eccentricity_population(planets, pop.get("eccentricity_population"))),
+                ("transit_multiplicity", lambda: _transit_figure(pop.get("transit_multiplicity")))):
             fig = make()
             try:
                 _save(fig, out_dir / name)

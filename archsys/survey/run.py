@@ -79,7 +79,7 @@ def _manifest(cat, cmap, opts):
 
 
 def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: SurveyOptions | None = None,
-               *, debug=False, stream=None, **keywords):
+               *, debug=False, stream=None, transit=None, **keywords):
     """Run a survey of ``catalog`` into directory ``out``; returns the population document.
 
     ``options``: :class:`~archsys.options.AnalysisOptions` (``jobs``: 1 =
@@ -110,6 +110,8 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
     cmap = bind(load_column_map(sv.columns) if sv.columns else canonical_map(cat.columns), cat)
     names = where_names(cmap, cat.columns)
     nodes = [parse_where(w, names) for w in sv.where]
+    from .multiplicity_block import check_settings          # transit multiplicity (issue 14)
+    transit = check_settings(transit, cmap, cat.columns)
     base = replace(opts, quiet=True, jobs=1)          # what every system is analysed with
     groups, orphans = group_systems(cat, cmap.system)
     selected = [g for g in groups if select(g, nodes)]
@@ -143,7 +145,7 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
                     client = None                     # closed by run_tasks
                 finally:
                     bar.close()
-                return _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv)
+                return _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv, transit)
             except BaseException:
                 if store.count() == 0:                # nothing stored: leave no empty store behind
                     store.close()
@@ -156,7 +158,7 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
             client.close()
 
 
-def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv):
+def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, transit=None):
     from ..output.files import atomic_write, staged
     from .hierarchical import eccentricity_population, tilt_population
     from .population import population_statistics
@@ -213,6 +215,9 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv):
             "rayleigh": None, "n_planets": 0,
             "reason": "no analysed posterior provides planet tilts 'psi' (direct Monte Carlo draws do not "
                       "sample mutual inclinations); the MCMC mode of transiting multis would"}
+    from .multiplicity_block import transit_multiplicity    # population answer beside the per-system fit
+    pop["transit_multiplicity"] = transit_multiplicity(selected, cmap, cat.columns, cat.units, transit, int(seed),
+                                                       pop["mutual_inclination_population"])
 
     with staged(out):           # every file of the run, or none
         write_csv(out / "systems.csv", header_of(ok_rows, _FIRST_SYSTEM_COLS), ok_rows)
