@@ -416,7 +416,7 @@ def _dir(path, what):
     return p
 
 
-def write_outputs(result, out_dir=None, fig_dir=None, preset=None):
+def write_outputs(result, out_dir=None, fig_dir=None, preset=None, corner_params=None):
     """Write every report format, chains, provenance and figures of ``result``.
 
     Into ``out_dir``: ``<name>.json``, ``.md``, ``.html``, ``.tex``, ``.txt``,
@@ -444,7 +444,7 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None):
     out = _dir(out_dir, "output folder") if out_dir is not None else None
     figs_at = _dir(fig_dir, "figure folder") if fig_dir is not None else out / "figures"
 
-    figures = make_figures(_draws_of(result), doc, preset=preset_name)
+    figures = make_figures(_draws_of(result), doc, preset=preset_name, corner_params=corner_params)
     fig_blobs = figure_files(figures, stem)                # {file name: bytes}
     files = {}                                             # path -> (bytes or str, mode)
     for fname, blob in fig_blobs.items():

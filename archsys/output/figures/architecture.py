@@ -116,6 +116,7 @@ def architecture_figure(results, preset=None, fig=None, shade_periods=None, shad
             height = fig.get_size_inches()[1]
         ax = fig.add_subplot(111)
         xs, used, masses = [], set(), []
+        brackets, segments, row_marker, labels = [], [], {}, []
         for i, doc in enumerate(docs):
             y = n - 1 - i
             mstar = median((doc.get("star") or {}).get("mass_msun")) or 1.0
@@ -134,18 +135,17 @@ def architecture_figure(results, preset=None, fig=None, shade_periods=None, shad
                 m, basis = _planet_mass(pl)
                 pos.append(a)
                 xs += [a * (1 - e), a * (1 + e)]
+                d = _marker_pt(m if m is not None else 1.0, p)
+                row_marker[y] = max(row_marker.get(y, 0.0), d)
                 if m is not None:
                     rh = a * (m * MEARTH_MSUN / (3.0 * mstar)) ** (1.0 / 3.0)
-                    yb, yt = y - 0.24, y - 0.13
-                    ax.plot([a - rh, a - rh, a + rh, a + rh], [yt, yb, yb, yt], color=HILL_GREY,
-                            lw=0.75 * p.line_width, solid_joinstyle="miter", zorder=3)
+                    brackets.append((a - rh, a + rh, y, d))     # drawn once the axes size is known
                     xs += [a - rh, a + rh]
                     used.add("hill")
                 if e > 0:
                     ax.plot([a * (1 - e), a * (1 + e)], [y, y], color=PALETTE["sky_blue"],
                             lw=2.0 * p.line_width, solid_capstyle="butt", zorder=2, alpha=0.9)
                     used.add("orbit")
-                d = _marker_pt(m if m is not None else 1.0, p)
                 face = {"true": PALETTE["blue"], "minimum": "white", "unknown": "white"}[basis]
                 edge = GREY_EDGE if basis == "unknown" else PALETTE["blue"]
                 ax.plot([a], [y], marker="o", ms=d, mfc=face, mec=edge, mew=0.9 * p.line_width, ls="none", zorder=4)
@@ -153,9 +153,11 @@ def architecture_figure(results, preset=None, fig=None, shade_periods=None, shad
                 if m is not None:
                     masses.append(m)
                 if n <= 12:
-                    ax.annotate(letter(pl["name"], doc.get("system")), (a, y), xytext=(0, 0.5 * d + 1.0),
-                                textcoords="offset points", ha="center", va="bottom",
-                                fontsize=p.small_pt - 1, zorder=5)
+                    name = letter(pl["name"], doc.get("system"))
+                    if len(name) > 3 and len(name.split()[-1]) <= 3:     # 'Proxima Cen b' in another system
+                        name = name.split()[-1]
+                    labels.append(ax.annotate(name, (a, y), xytext=(0, 0.5 * d + 1.0), textcoords="offset points",
+                                              ha="center", va="bottom", fontsize=p.small_pt - 1, zorder=5))
             for q_i, q in enumerate(doc.get("pairs", []) or []):
                 if q_i + 1 >= len(pos) or pos[q_i] is None or pos[q_i + 1] is None:
                     continue
@@ -163,8 +165,7 @@ def architecture_figure(results, preset=None, fig=None, shade_periods=None, shad
                 st = VERDICT_STYLES[key]
                 x1, x2 = pos[q_i], pos[q_i + 1]
                 gap = (x2 / x1) ** 0.08            # a visible gap between neighbouring pairs
-                ax.plot([x1 * gap, x2 / gap], [y - 0.36, y - 0.36], color=st["color"], ls=st["linestyle"],
-                        lw=1.4 * p.line_width, solid_capstyle="butt", zorder=3)
+                segments.append((x1 * gap, x2 / gap, y, st))
                 used.add(key)
         xs = np.array([x for x in xs if x > 0])
         if xs.size == 0:
@@ -184,7 +185,32 @@ def architecture_figure(results, preset=None, fig=None, shade_periods=None, shad
         for yy in np.arange(0.5, n - 0.5):
             ax.axhline(yy, color="#cccccc", lw=0.5, zorder=0)
         _legend_and_margins(fig, ax, p, used, height, masses, resize, shade_label)
+        # glyphs under the markers, placed in points below each marker's edge
+        upp = (ax.get_ylim()[1] - ax.get_ylim()[0]) / (ax.get_position().height * fig.get_size_inches()[1] * 72.0)
+        s_pt = p.font_pt / 8.0
+        for x0_, x1_, y, d in brackets:
+            top = y - (0.5 * d + 1.0 * s_pt) * upp
+            ax.plot([x0_, x0_, x1_, x1_], [top, top - 2.6 * s_pt * upp, top - 2.6 * s_pt * upp, top],
+                    color=HILL_GREY, lw=0.75 * p.line_width, solid_joinstyle="miter", zorder=3)
+        _drop_colliding(fig, labels)
+        for x0_, x1_, y, st in segments:
+            ys = max(y - (0.5 * row_marker.get(y, 0.0) + 6.0 * s_pt) * upp, y - 0.44)
+            ax.plot([x0_, x1_], [ys, ys], color=st["color"], ls=st["linestyle"], lw=1.4 * p.line_width,
+                    solid_capstyle="butt", zorder=3)
     return fig
+
+
+def _drop_colliding(fig, labels):
+    """Hide planet labels that would run into a label already kept (close pairs); the left one wins."""
+    fig.canvas.draw()
+    r = fig.canvas.get_renderer()
+    kept = []
+    for t in sorted(labels, key=lambda t: (t.xy[1], t.xy[0])):
+        bb = t.get_window_extent(r).expanded(1.15, 1.0)
+        if any(bb.overlaps(k) for k in kept):
+            t.set_visible(False)
+        else:
+            kept.append(bb)
 
 
 def _legend_handles(p, used, masses, shade_label):
