@@ -46,6 +46,8 @@ def _add_analysis_options(p):
     g.add_argument("--max-steps", type=int, default=None, help="cap on MCMC steps per walker")
     g.add_argument("--nbody", type=int, default=0, metavar="N",
                    help="integrate N posterior draws with rebound and MEGNO (extra 'nbody')")
+    g.add_argument("--nbody-orbits", type=float, default=1000.0, metavar="ORBITS",
+                   help="N-body horizon in orbits of the outermost planet (default 1000)")
     g.add_argument("--jobs", type=int, default=1,
                    help="worker processes (report: N-body checks; survey: systems, default one per core)")
     g.add_argument("--quiet", action="store_true", help="no progress bar")
@@ -59,7 +61,7 @@ def _options(args):
         raise InputError(f"--draws must be at least 10; got {n}")
     return AnalysisOptions(n_draws=n, seed=args.seed, mode=args.mode, ecc_prior=args.ecc_prior,
                            incl_prior=args.incl_prior, require_stable=args.require_stable,
-                           quiet=args.quiet, max_steps=args.max_steps, nbody=args.nbody, jobs=args.jobs)
+                           quiet=args.quiet, max_steps=args.max_steps, nbody=args.nbody, nbody_orbits=args.nbody_orbits, jobs=args.jobs)
 
 
 def _cmd_report(args):

@@ -28,6 +28,7 @@ class AnalysisOptions:
     quiet: bool = True
     max_steps: int | None = None
     nbody: int = 0              # number of draws to integrate (0 = no N-body check)
+    nbody_orbits: float = 1000.0  # N-body horizon in orbits of the outermost planet
     jobs: int = 1
 
     def as_dict(self):
@@ -44,12 +45,9 @@ class Analysis:
 
 
 def _posterior(system, opts: AnalysisOptions) -> Posterior:
-    try:
-        from .inference import sampler
-    except ImportError:  # the MCMC engine is optional until it lands
-        sampler = None
-    # "fast" trades depth for speed in large surveys: direct draws only, never MCMC
-    if sampler is not None and opts.mode not in ("direct", "fast"):
+    from .inference import sampler
+    # "fast" trades depth for speed in large surveys: direct draws only, never the joint engine
+    if opts.mode not in ("direct", "fast"):
         if opts.mode == "mcmc" or sampler.needs_mcmc(system, opts):
             return sampler.sample_system(system, opts)
     return direct_draws(system, n=opts.n_draws, seed=opts.seed)
@@ -63,7 +61,8 @@ def analyze(system, options: AnalysisOptions | None = None) -> Analysis:
     scores = compute_scores(post, opts)
     if opts.nbody and system.n_planets >= 2:
         from .scores.nbody_check import nbody_block
-        scores["system"]["nbody"] = nbody_block(post, opts.nbody, jobs=opts.jobs, seed=opts.seed)
+        scores["system"]["nbody"] = nbody_block(post, opts.nbody, jobs=opts.jobs, seed=opts.seed,
+                                                  n_orbits=opts.nbody_orbits)
     res = Analysis(system, post, scores, opts)
     res.document = build_document(res)
     return res

@@ -12,13 +12,14 @@ import numpy as np
 
 from ..errors import InputError
 from ..physics import kepler, transit
-from ..physics.constants import MEARTH_MSUN
+from ..physics.constants import MEARTH_MSUN, REARTH_AU, RSUN_AU
 from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
 from .posterior import Posterior
 
 __all__ = ["direct_draws", "eccentricity_draws", "DEFAULT_DRAWS"]
 
 DEFAULT_DRAWS = 4000
+RSUN_REARTH = RSUN_AU / REARTH_AU
 
 
 def _redraw_valid(sample, valid, rng, n, max_rounds=200):
@@ -114,6 +115,7 @@ def _draw_rows(system, rng, n):
     P, e, w = np.empty(shape), np.empty(shape), np.empty(shape)
     msini, mass = np.full(shape, np.nan), np.full(shape, np.nan)
     inc, node = np.full(shape, np.nan), np.full(shape, np.nan)
+    radius = np.full(shape, np.nan)
     a = np.empty(shape)
     notes = {}
     for j, pl in enumerate(system.planets):
@@ -121,6 +123,11 @@ def _draw_rows(system, rng, n):
         note = {}
         P[:, j] = pl.period.sample(rng, n)
         e[:, j], w[:, j], note["ecc"] = eccentricity_draws(pl, rng, n)
+        # radius [R_earth]: given, or Rp/R* times the stellar radius
+        if "radius" in q:
+            radius[:, j] = q["radius"].sample(rng, n)
+        elif "ror" in q and st.radius is not None:
+            radius[:, j] = q["ror"].sample(rng, n) * r_star * RSUN_REARTH
         # masses (M_sun) before inclinations; Kepler III needs M* + m
         if "mass" in q:
             mass[:, j] = q["mass"].sample(rng, n) * MEARTH_MSUN
@@ -132,11 +139,11 @@ def _draw_rows(system, rng, n):
             k_draws = q["k"].sample(rng, n)
             msini[:, j] = kepler.msini_from_k_msun(P[:, j], k_draws, m_star, e[:, j])
             note.setdefault("mass", "minimum (from K)")
-        elif "mass" not in q and "radius" in q:
-            r = q["radius"].sample(rng, n)
-            mass[:, j] = (mass_from_radius_mearth(r) * 10 ** (SCATTER_DEX * rng.standard_normal(n))
+        elif "mass" not in q and np.isfinite(radius[:, j]).any():
+            mass[:, j] = (mass_from_radius_mearth(radius[:, j]) * 10 ** (SCATTER_DEX * rng.standard_normal(n))
                           * MEARTH_MSUN)
-            note["mass"] = "from radius (mass-radius relation)"
+            note["mass"] = ("from radius (mass-radius relation)" if "radius" in q
+                            else "from Rp/R* x R* (mass-radius relation)")
         m_for_a = np.where(np.isfinite(mass[:, j]), mass[:, j], np.nan_to_num(msini[:, j]))
         a[:, j] = kepler.a_au(P[:, j], m_star + m_for_a)
         # inclination to the sky
@@ -174,7 +181,10 @@ def _draw_rows(system, rng, n):
             mass[:, j] = np.where(np.isfinite(mass[:, j]) & (mass[:, j] > 0), mass[:, j], np.nan)
             a[:, j] = np.where(np.isfinite(mass[:, j]), kepler.a_au(P[:, j], m_star + np.nan_to_num(mass[:, j])),
                                a[:, j])
+        # a true mass with a known inclination also has a minimum mass
+        if note.get("mass") == "true" and np.isfinite(inc[:, j]).any():
+            msini[:, j] = mass[:, j] * np.sin(inc[:, j])
         notes[pl.name] = note
     draws = dict(m_star=m_star, r_star=r_star, rho_star=rho, period=P, a=a, ecc=e, omega=w,
-                 msini=msini, mass=mass, inc=inc, node=node)
+                 msini=msini, mass=mass, inc=inc, node=node, radius=radius)
     return draws, notes

@@ -19,7 +19,7 @@ import numpy as np
 
 __all__ = ["Posterior", "PLANET_KEYS", "SYSTEM_KEYS"]
 
-PLANET_KEYS = ("period", "a", "ecc", "omega", "msini", "mass", "inc", "node", "psi")
+PLANET_KEYS = ("period", "a", "ecc", "omega", "msini", "mass", "inc", "node", "psi", "radius")
 SYSTEM_KEYS = ("m_star", "r_star", "rho_star", "sigma_mutual", "ref_inc")
 
 

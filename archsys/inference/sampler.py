@@ -184,7 +184,16 @@ class _Progress:
 
 
 def sample_system(system, opts) -> Posterior:
-    """MCMC posterior of ``system`` under ``opts`` (see module docstring)."""
+    """Joint posterior of ``system`` under ``opts`` (the joint engine, :mod:`archsys.inference.joint`)."""
+    from .joint import sample_joint
+    return sample_joint(system, opts)
+
+
+def sample_full_model(system, opts) -> Posterior:
+    """The v0.1.0 engine: one emcee run over every parameter of the system at once.
+
+    Kept only as the baseline of ``python -m archsys.bench`` (the joint engine replaces it).
+    """
     t0 = time.perf_counter()
     ep, sp = _priors(system, opts)
     model = SystemModel(system, ep, sp, require_stable=opts.require_stable)
@@ -242,6 +251,7 @@ def sample_system(system, opts) -> Posterior:
     if len(flat) > opts.n_draws:
         flat = flat[np.linspace(0, len(flat) - 1, opts.n_draws).round().astype(int)]
     post = _to_posterior(model, system, flat, opts, rng)
+    post.wall_seconds = time.perf_counter() - t0
     post.sampler = {
         "method": "MCMC (emcee ensemble sampler, differential-evolution + stretch moves)",
         "why": _why(system, opts),
@@ -258,7 +268,6 @@ def sample_system(system, opts) -> Posterior:
         "target_tau_multiple": n_tau,
         "acceptance_fraction": round(float(np.mean(sampler.acceptance_fraction)), 3),
         "log_prob_evaluations": int(steps * nwalkers),
-        "wall_seconds": round(time.perf_counter() - t0, 2),
         "parameters": model.names,
     }
     post.prior = {"eccentricity": {"name": ep.name, "citation": ep.citation, "from_memory": ep.from_memory},

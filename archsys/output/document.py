@@ -44,14 +44,17 @@ def _planet_entry(post, j, pl):
         entry["msini_mearth"] = summarize(msini, 1.0 / MEARTH_MSUN)
     entry["mass_basis"] = basis or "unknown (no K, mass or radius)"
     ecc_basis = note.get("ecc", "")
-    if ecc_basis != "assumed circular" or post.method == "mcmc":
+    if ecc_basis != "assumed circular" or post.method != "direct":
         entry["ecc"] = summarize(d["ecc"][:, j])
     entry["ecc_basis"] = ecc_basis
-    if post.method == "mcmc" or "omega" in pl.quantities or ecc_basis.startswith("from"):
+    if post.method != "direct" or "omega" in pl.quantities or ecc_basis.startswith("from"):
         entry["omega_deg"] = summarize_angle(np.degrees(d["omega"][:, j]))
     if np.isfinite(d["inc"][:, j]).any():
         entry["inclination_deg"] = summarize(np.degrees(d["inc"][:, j]))
         entry["inclination_basis"] = note.get("inc", "")
+    radius = d.get("radius")
+    if radius is not None and np.isfinite(radius[:, j]).any():
+        entry["radius_rearth"] = summarize(radius[:, j])
     if pl.transiting is not None:
         entry["transiting"] = pl.transiting
     return entry

@@ -11,14 +11,18 @@ import numpy as np
 from ..physics import nbody
 from .common import effective_mass
 
-__all__ = ["nbody_block", "N_ORBITS"]
+__all__ = ["nbody_block", "N_ORBITS_OUTER"]
 
-#: Length of each integration in orbits of the innermost planet.
-N_ORBITS = 3000
+#: Default length of each integration in orbits of the *outermost* planet (``--nbody-orbits``).
+#: Counting in inner orbits would judge a wide system after a few orbits of its outer pair; MEGNO
+#: separates chaotic from quasi-periodic orbits after ~10^3 orbits of the pair concerned
+#: (common practice).  The secular time-scales are longer still: say so beside the result.
+N_ORBITS_OUTER = 1000
 
 
-def nbody_block(post, n_draws, jobs=1, seed=0, n_orbits=N_ORBITS):
-    """Integrate ``n_draws`` posterior draws; returns the JSON block."""
+def nbody_block(post, n_draws, jobs=1, seed=0, n_orbits=N_ORBITS_OUTER):
+    """Integrate ``n_draws`` posterior draws for ``n_orbits`` orbits of the outermost planet;
+    returns the JSON block."""
     if not nbody.nbody_available():
         from ..errors import InputError
         raise InputError("--nbody needs the optional extra: pip install 'archsys[nbody]'")
@@ -34,15 +38,23 @@ def nbody_block(post, n_draws, jobs=1, seed=0, n_orbits=N_ORBITS):
     inc = np.where(np.isfinite(d["inc"]), d["inc"], np.pi / 2)[ok]
     node = d["node"][ok] if np.isfinite(d["node"][ok]).all() else np.zeros_like(inc)
     M0 = rng.uniform(0, 2 * np.pi, inc.shape)
+    # the integrator counts inner orbits: convert the horizon with the median period ratio
+    P = d["period"][ok]
+    ratio = float(np.median(P[:, -1] / P[:, 0]))
+    n_inner = float(n_orbits) * ratio
     res = nbody.megno_draws(d["m_star"][ok], m[ok], d["a"][ok], d["ecc"][ok], inc, d["omega"][ok], node, M0,
-                            n_orbits=n_orbits, jobs=jobs, seed=seed)
+                            n_orbits=n_inner, jobs=jobs, seed=seed)
+    years = float(n_orbits) * float(np.median(P[:, -1])) / 365.25
     return {
         "draws": n,
-        "orbits_of_inner_planet": n_orbits,
+        "orbits_of_outer_planet": float(n_orbits),
+        "orbits_of_inner_planet": round(n_inner, 1),
+        "horizon_years": round(years, 3),
         "integrator": "rebound WHFast + MEGNO",
         "chaotic_fraction": float(np.mean(res.chaotic)),
         "encounter_fraction": float(np.mean(res.encounter)),
         "megno": {"median": float(np.nanmedian(res.megno)), "max": float(np.nanmax(res.megno))},
         "orientation": "posterior orientations" if psi is not None else "coplanar, edge-on (no orientation posterior)",
-        "note": "MEGNO near 2 means quasi-periodic over the integrated span; a finite integration cannot prove long-term stability",
+        "note": ("MEGNO near 2 means quasi-periodic over the integrated span; a finite integration cannot prove "
+                 "long-term stability, and secular evolution acts on longer time-scales than this horizon"),
     }

@@ -1,0 +1,448 @@
+"""The orientation block of the joint engine: reference plane, dispersion and orbit normals.
+
+The joint posterior of a system is nearly separable: periods, the star,
+eccentricities and masses are independent given their summaries, and the
+planets couple only through the hierarchical orientation model (a common
+reference plane and a mutual-inclination dispersion sigma), the transit
+geometry, non-crossing orbits and (optionally) stability.  The engine
+(:mod:`archsys.inference.joint`) therefore draws everything except the
+orientations exactly, and samples only this block with emcee.
+
+Hierarchical model
+------------------
+Each orbit normal is tilted from the reference normal by psi ~ Rayleigh(sigma)
+at a uniform azimuth: a density Rayleigh(psi; sigma) / (2 pi sin psi) per unit
+solid angle, truncated at psi = pi.  On the sphere, (cos i, Omega) are
+uniform coordinates (area element d cos i d Omega), so this is also the
+density in (cos i, Omega).  Orbit normals in the sky frame (z towards the
+observer): n = (sin i sin Omega, -sin i cos Omega, cos i).
+
+Parameters per planet (by what the data say about its orientation)
+-------------------------------------------------------------------
+``b``      transiting (impact-parameter summary, or ``transiting = true``):
+           the true impact parameter beta in [0, 1 + Rp/R*].  |cos i| =
+           beta g with g = (1 + e sin w) / ((1 - e^2) a/R*) (Winn 2010 eq. 7),
+           so the impact-parameter likelihood is separable; g varies from
+           draw to draw with the star, the period and the eccentricity, and
+           the engine corrects for that by importance weights (g0 here is the
+           median).  Transits cannot tell i from 180 - i: the prior is summed
+           over both signs of cos i and a sign is drawn afterwards.
+``incl``   a sky inclination summary: signed cos i in [-1, 1].
+``fixed``  an exact inclination: no parameter.
+``free``   no orientation data: z with cos i = tanh(atanh(cos I) + sigma z)
+           (non-centred, no funnel between sigma and the orientation).
+Nodes: w with Omega = Omega_ref + 2 arctan(sigma w) (a bijection onto
+(-pi, pi) for every sigma; no funnel); an exact node has no parameter, a node
+summary is a likelihood on the wrapped angle.
+
+Per system: log sigma [rad] (prior from a ``mutual_inclination_sigma`` prior
+file, in degrees), cos I_ref (flat: isotropic; in [0, 1] when every planet's
+sign of cos i is unobservable, else in [-1, 1]) and Omega_ref (free only when
+some node is known; otherwise rotation about the line of sight is a symmetry).
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+__all__ = ["OrientationModel", "log_tilt_density", "orbit_normals", "prior_orientations",
+           "classify"]
+
+_NEG = -np.inf
+
+
+def orbit_normals(cos_i, node):
+    """Unit orbit normals (..., 3) in the sky frame from cos i and the node [rad]."""
+    sin_i = np.sqrt(np.clip(1.0 - cos_i * cos_i, 0.0, 1.0))
+    return np.stack([sin_i * np.sin(node), -sin_i * np.cos(node), cos_i], axis=-1)
+
+
+def log_tilt_density(cos_psi, sigma):
+    """log [Rayleigh(psi; sigma) / (2 pi sin psi)] per unit solid angle, truncated at psi = pi."""
+    psi = np.arccos(np.clip(cos_psi, -1.0, 1.0))
+    s2 = sigma * sigma
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        ratio = np.where(psi > 1e-6, psi / np.maximum(np.sin(psi), 1e-300), 1.0)
+        log_norm = np.log1p(-np.exp(-np.pi ** 2 / (2.0 * s2)))
+        return np.log(ratio) - np.log(2.0 * np.pi * s2) - 0.5 * psi * psi / s2 - log_norm
+
+
+def classify(system, has_scale):
+    """Orientation kind of each planet: 'b', 'incl', 'fixed' or 'free' (see module docstring).
+
+    ``has_scale``: whether a/R* can be computed (stellar radius or density known).
+    """
+    kinds = []
+    for p in system.planets:
+        q = p.quantities
+        if "inclination" in q:
+            kinds.append("fixed" if q["inclination"].kind == "exact" else "incl")
+        elif ("b" in q or p.transiting) and has_scale:
+            kinds.append("b")
+        else:
+            kinds.append("free")
+    return kinds
+
+
+def prior_orientations(rng, n, npl, sigma_prior):
+    """Orientations drawn exactly from the hierarchical prior (no orientation data).
+
+    One planet: isotropic.  Several: isotropic reference plane, sigma from its
+    prior (degrees), Rayleigh tilts at uniform azimuths.  Returns cos_i, node,
+    cosI, sigma [rad], psi, each (n,) or (n, npl).
+    """
+    cosI = rng.uniform(0.0, 1.0, n)      # the mirror image (cos I < 0) is equivalent
+    if npl == 1:
+        return {"cos_i": cosI[:, None], "node": rng.uniform(-np.pi, np.pi, (n, 1)),
+                "cosI": cosI, "sigma": np.full(n, np.nan), "psi": None}
+    sig = np.radians(sigma_prior.sample(rng, n))
+    psi = sig[:, None] * np.sqrt(-2.0 * np.log(rng.uniform(1e-300, 1.0, (n, npl))))
+    psi = np.minimum(psi, np.pi)   # the Rayleigh is truncated at pi; tails beyond matter only for sigma >~ 60 deg
+    phi = rng.uniform(-np.pi, np.pi, (n, npl))
+    sinI = np.sqrt(1.0 - cosI ** 2)[:, None]
+    nx = np.sin(psi) * np.cos(phi)
+    ny_r, nz_r = np.sin(psi) * np.sin(phi), np.cos(psi)
+    nz = cosI[:, None] * nz_r + sinI * ny_r
+    ny = cosI[:, None] * ny_r - sinI * nz_r
+    return {"cos_i": nz, "node": np.arctan2(nx, -ny), "cosI": cosI, "sigma": sig, "psi": psi}
+
+
+class OrientationModel:
+    """Log-density of the orientation block, vectorised over walkers (or draws).
+
+    Parameters
+    ----------
+    system : System
+    sigma_prior : Prior
+        Prior on sigma in degrees.
+    g0 : ndarray (n_planets,)
+        |cos i| per unit impact parameter at the median of the other parameters
+        (NaN for planets without transit geometry).
+    g_nt : ndarray (n_planets,)
+        Lower bound of g over the draws, for the non-transit condition inside
+        the sampler (so that its support covers every draw's exact condition).
+    """
+
+    def __init__(self, system, sigma_prior, g0, g_nt, standardise=True):
+        self.b_std = standardise
+        self.system = system
+        self.sigma_prior = sigma_prior
+        self.np_ = system.n_planets
+        self.g0 = np.asarray(g0, float)
+        self.g_nt = np.asarray(g_nt, float)
+        self.kinds = classify(system, True)
+        for j, k in enumerate(self.kinds):
+            if k == "b" and not np.isfinite(self.g0[j]):
+                self.kinds[j] = "free"
+        self.folded = np.array([k == "b" for k in self.kinds])
+        self.names, self.ix = [], {}
+
+        def add(name):
+            self.ix[name] = len(self.names)
+            self.names.append(name)
+
+        add("logsigma")
+        add("cosI")
+        planets = system.planets
+        self.node_info = any("ascending_node" in p.quantities for p in planets)
+        if self.node_info:
+            add("node_ref")
+        self.signed_any = any(k in ("incl", "fixed") for k in self.kinds)
+        self.cosI_lo = -1.0 if self.signed_any else 0.0
+        self.b_fixed = {}
+        self.ror = np.zeros(self.np_)
+        for j, (p, k) in enumerate(zip(planets, self.kinds)):
+            q = p.quantities
+            if "ror" in q:
+                self.ror[j] = q["ror"].center
+            if k == "b":
+                if "b" in q and q["b"].kind == "exact":
+                    self.b_fixed[j] = float(q["b"].value)
+                else:
+                    add(f"beta{j}")
+            elif k == "incl":
+                add(f"cosi{j}")
+            elif k == "free":
+                add(f"z{j}")
+            node = q.get("ascending_node")
+            if node is None or node.kind != "exact":
+                add(f"w{j}")
+        self.ndim = len(self.names)
+        self.fixed_cos = {j: math.cos(math.radians(p.quantities["inclination"].value))
+                          for j, (p, k) in enumerate(zip(planets, self.kinds)) if k == "fixed"}
+        self.fixed_node = {j: math.radians(p.quantities["ascending_node"].value)
+                           for j, p in enumerate(planets)
+                           if "ascending_node" in p.quantities and p.quantities["ascending_node"].kind == "exact"}
+        self.node_like = [(j, math.radians(p.quantities["ascending_node"].value),
+                           math.radians(p.quantities["ascending_node"].sigma))
+                          for j, p in enumerate(planets)
+                          if "ascending_node" in p.quantities and p.quantities["ascending_node"].kind != "exact"]
+        self._b_gauss = {}
+        for j, (p, k) in enumerate(zip(planets, self.kinds)):
+            if k == "b" and j not in self.b_fixed:
+                gp = p.quantities["b"].gauss_params() if "b" in p.quantities else None
+                top = 1.0 + self.ror[j]
+                if gp is None:
+                    self._b_gauss[j] = (0.5 * top, top / math.sqrt(12.0))
+                else:
+                    cen, sm, sp = gp
+                    widths = [w for w in (sm, sp) if math.isfinite(w)]
+                    self._b_gauss[j] = (cen, max(float(np.mean(widths)), 1e-6))
+        #: Gaussian summaries of |cos i| of the planets with orientation data, for the standardised
+        #: coordinate of the reference plane (see _ref_conditional)
+        ref = []
+        if self.b_std:
+            for j, k in enumerate(self.kinds):
+                if k == "b":
+                    y, sd = self._b_gauss.get(j, (self.b_fixed.get(j, 0.0), 0.0))
+                    ref.append((y * self.g0[j], sd * self.g0[j]))
+                elif k == "incl":
+                    meas = planets[j].quantities["inclination"]
+                    i0 = math.radians(meas.center)
+                    ref.append((math.cos(i0), abs(math.sin(i0)) * math.radians(meas.sigma)))
+                elif k == "fixed":
+                    ref.append((self.fixed_cos[j], 0.0))
+        self._ref_info = bool(ref)
+        self._ref_y = np.array([r[0] for r in ref])
+        self._ref_s2 = np.array([r[1] for r in ref]) ** 2
+        self.b_like = [(j, p.quantities["b"]) for j, (p, k) in enumerate(zip(planets, self.kinds))
+                       if k == "b" and "b" in p.quantities and p.quantities["b"].kind != "exact"]
+        self.i_like = [(j, p.quantities["inclination"]) for j, (p, k) in enumerate(zip(planets, self.kinds))
+                       if k == "incl"]
+        transits = any(p.transiting or "b" in p.quantities for p in planets)
+        self.non_transit = [j for j, p in enumerate(planets)
+                            if transits and p.transiting is False and "b" not in p.quantities
+                            and np.isfinite(self.g_nt[j])]
+        self._vectorise()
+
+    def _vectorise(self):
+        """Index arrays so that unpack and log_prob never loop over planets."""
+        ix, K = self.ix, self.kinds
+        jb = [j for j, k in enumerate(K) if k == "b" and j not in self.b_fixed]
+        jbf = sorted(self.b_fixed)
+        ji = [j for j, k in enumerate(K) if k == "incl"]
+        jf = [j for j, k in enumerate(K) if k == "fixed"]
+        jz = [j for j, k in enumerate(K) if k == "free"]
+        jw = [j for j in range(self.np_) if j not in self.fixed_node]
+        jnf = sorted(self.fixed_node)
+        arr = lambda x: np.array(x, dtype=int)  # noqa: E731
+        self._vec = {
+            "jb": arr(jb), "cb": arr([ix[f"beta{j}"] for j in jb]), "jbf": arr(jbf),
+            "bf": np.array([self.b_fixed[j] for j in jbf]), "jall_b": arr(sorted(jb + jbf)),
+            "ji": arr(ji), "ci": arr([ix[f"cosi{j}"] for j in ji]),
+            "jf": arr(jf), "cf": np.array([self.fixed_cos[j] for j in jf]),
+            "jz": arr(jz), "cz": arr([ix[f"z{j}"] for j in jz]),
+            "jw": arr(jw), "cw": arr([ix[f"w{j}"] for j in jw]),
+            "jnf": arr(jnf), "nf": np.array([self.fixed_node[j] for j in jnf]),
+            "top_b": 1.0 + self.ror[jb], "nt": arr(self.non_transit), "top_nt": 1.0 + self.ror[self.non_transit],
+        }
+        self._gb_y = np.array([self._b_gauss[j][0] for j in jb])
+        self._gb_s = np.array([self._b_gauss[j][1] for j in jb])
+        self._g0_b = self.g0[jb] if jb else np.zeros(0)
+        # vectorised split-normal likelihood of the impact parameters
+        rows = [(np.searchsorted(jb, j), meas.gauss_params()) for j, meas in self.b_like]
+        rows = [(k, gp) for k, gp in rows if gp is not None]
+        self._bl = None
+        if rows:
+            cen = np.array([gp[0] for _, gp in rows])
+            sm = np.array([gp[1] for _, gp in rows])
+            sp = np.array([gp[2] for _, gp in rows])
+            asym = np.isfinite(sm) & np.isfinite(sp) & (sm != sp)
+            self._bl = (arr([k for k, _ in rows]), cen, 1.0 / sm, 1.0 / sp,
+                        np.where(asym, np.log(sm), 0.0), np.where(asym, np.log(sp), 0.0))
+
+    # ------------------------------------------------------------------
+    def unpack(self, theta, g=None):
+        """Physical orientation quantities from parameter rows (m, ndim).
+
+        ``g`` (m, n_planets) or (n_planets,): |cos i| per unit impact parameter
+        (default ``g0``).  ``u`` is cos i, folded (>= 0) for 'b' planets.
+        """
+        th = np.atleast_2d(theta)
+        m = th.shape[0]
+        g = self.g0 if g is None else g
+        g = np.broadcast_to(np.asarray(g, float), (m, self.np_))
+        ix = self.ix
+        c = {"sigma": np.exp(th[:, ix["logsigma"]]), "logsigma": th[:, ix["logsigma"]]}
+        if self._ref_info:
+            mean, sd = self._ref_conditional(c["sigma"])
+            c["cosI"] = mean + sd * th[:, ix["cosI"]]
+            log_jac0 = np.log(sd)
+        else:
+            c["cosI"] = th[:, ix["cosI"]]
+            log_jac0 = 0.0
+        c["node_ref"] = th[:, ix["node_ref"]] if self.node_info else np.zeros(m)
+        sig = c["sigma"]
+        u = np.empty((m, self.np_))
+        node = np.empty((m, self.np_))
+        beta = np.full((m, self.np_), np.nan)
+        log_jac = np.zeros(m) + log_jac0
+        V = self._vec
+        if len(V["jb"]):
+            if self.b_std:
+                mean, sd = self._beta_conditional(V["jb"], c["cosI"][:, None], sig[:, None])
+                beta[:, V["jb"]] = mean + sd * th[:, V["cb"]]
+                log_jac += np.sum(np.log(sd), axis=1)
+            else:
+                beta[:, V["jb"]] = th[:, V["cb"]]
+        if len(V["jbf"]):
+            beta[:, V["jbf"]] = V["bf"]
+        if len(V["jall_b"]):
+            gb = g[:, V["jall_b"]]
+            u[:, V["jall_b"]] = beta[:, V["jall_b"]] * gb
+            log_jac += np.sum(np.log(gb), axis=1)
+        if len(V["ji"]):
+            u[:, V["ji"]] = th[:, V["ci"]]
+        if len(V["jf"]):
+            u[:, V["jf"]] = V["cf"]
+        if len(V["jz"]):
+            A = np.arctanh(np.clip(c["cosI"], -1.0 + 1e-12, 1.0 - 1e-12))[:, None]
+            uz = np.tanh(A + sig[:, None] * th[:, V["cz"]])
+            u[:, V["jz"]] = uz
+            with np.errstate(divide="ignore"):
+                log_jac += np.sum(np.log(sig[:, None] * np.maximum(1.0 - uz * uz, 0.0)), axis=1)
+        if len(V["jw"]):
+            sw = sig[:, None] * th[:, V["cw"]]
+            node[:, V["jw"]] = c["node_ref"][:, None] + 2.0 * np.arctan(sw)
+            log_jac += np.sum(np.log(2.0 * sig[:, None] / (1.0 + sw * sw)), axis=1)
+        if len(V["jnf"]):
+            node[:, V["jnf"]] = V["nf"]
+        c.update(u=u, node=node, log_jac=log_jac, beta=beta)
+        return c
+
+    def _ref_conditional(self, sigma):
+        """Mean and width of cos I given sigma in a Gaussian approximation: each planet with
+        orientation data has |cos i| ~ N(cos I, sigma^2 + s_j^2).  The sampled coordinate is cos I
+        standardised by them (this removes the funnel between sigma and the reference plane)."""
+        w = 1.0 / (sigma[:, None] ** 2 + self._ref_s2[None, :] + 1e-300)
+        prec = w.sum(axis=1)
+        return (w * self._ref_y[None, :]).sum(axis=1) / prec, 1.0 / np.sqrt(prec)
+
+    def _beta_conditional(self, jb, cosI, sigma):
+        """Mean and width of the impact parameter of planet j given (cos I, sigma) in a Gaussian
+        approximation (prior |cos i| ~ N(cos I, (sigma sin I)^2), summary ~ N(y, s^2)).
+
+        The sampled coordinate is beta standardised by them: this removes the funnel between
+        sigma and the impact parameters (the exact density is still evaluated in beta)."""
+        k = np.searchsorted(self._vec["jb"], jb)
+        g, y, s = self._g0_b[k], self._gb_y[k], self._gb_s[k]
+        tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
+        prec = 1.0 / (tau * tau) + 1.0 / (s * s)
+        mean = (cosI / g / (tau * tau) + y / (s * s)) / prec
+        return mean, 1.0 / np.sqrt(prec)
+
+    def ref_normal(self, c):
+        return orbit_normals(np.clip(c["cosI"], -1.0, 1.0), c["node_ref"])
+
+    def sign_terms(self, c):
+        """log prior densities (m, n_planets, 2) of the orbit normal with cos i = +|u| and -|u|
+        (for signed planets the first entry is the density at the signed u)."""
+        nref = self.ref_normal(c)
+        u = c["u"]
+        au = np.where(self.folded, np.abs(u), u)
+        si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
+        node = c["node"]
+        common = si * (np.sin(node) * nref[:, 0:1] - np.cos(node) * nref[:, 1:2])
+        zpart = au * nref[:, 2:3]
+        sig = c["sigma"][:, None]
+        return np.stack([log_tilt_density(common + zpart, sig),
+                         log_tilt_density(common - zpart, sig)], axis=-1)
+
+    def log_prob(self, theta, g=None, g_nt=None):
+        """Log-density of the orientation block (m,), with the geometry factor ``g``.
+
+        ``g_nt`` is the factor used in the non-transit condition |cos i| > (1 + Rp/R*) g;
+        inside the sampler it is the lower bound ``self.g_nt``.
+        """
+        th = np.atleast_2d(theta)
+        c = self.unpack(th, g)
+        ok = (c["cosI"] >= self.cosI_lo) & (c["cosI"] <= 1.0)
+        V = self._vec
+        if len(V["jb"]):
+            bj = c["beta"][:, V["jb"]]
+            ok &= np.all((bj >= 0.0) & (bj <= V["top_b"]), axis=1)
+        ok &= np.all(np.abs(c["u"]) <= 1.0, axis=1)
+        if len(V["nt"]):
+            gnt = self.g_nt if g_nt is None else g_nt
+            gnt = np.broadcast_to(np.asarray(gnt, float), c["u"].shape)
+            ok &= np.all(np.abs(c["u"][:, V["nt"]]) > V["top_nt"] * gnt[:, V["nt"]], axis=1)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            terms = self.sign_terms(c)
+            orient = np.where(self.folded, np.logaddexp(terms[..., 0], terms[..., 1]), terms[..., 0])
+            sig_deg = np.degrees(c["sigma"])
+            lp = (np.sum(orient, axis=1) + c["log_jac"]
+                  + self.sigma_prior.logpdf(np.where(ok, sig_deg, 1.0)) + c["logsigma"])
+            if self._bl is not None:
+                k, cen, inv_m, inv_p, lw_m, lw_p = self._bl
+                d = c["beta"][:, V["jb"][k]] - cen
+                neg = d < 0
+                r = d * np.where(neg, inv_m, inv_p)
+                lp += np.sum(-0.5 * r * r - np.where(neg, lw_m, lw_p), axis=1)
+            for j, meas in self.i_like:
+                lp += meas.log_likelihood(np.degrees(np.arccos(np.clip(c["u"][:, j], -1.0, 1.0))))
+            for j, mu, sd in self.node_like:
+                d = (c["node"][:, j] - mu + np.pi) % (2 * np.pi) - np.pi
+                lp += -0.5 * (d / sd) ** 2
+        return np.where(ok & np.isfinite(lp), lp, _NEG)
+
+    def initial(self, rng, nwalkers, n_try=4096, rounds=10):
+        """Walker starts: broad draws filtered by the log-density, best-first."""
+        cand = []
+        for _ in range(rounds):
+            th = np.empty((n_try, self.ndim))
+            th[:, self.ix["logsigma"]] = np.log(np.radians(10 ** rng.uniform(-0.7, 1.3, n_try)))
+            th[:, self.ix["cosI"]] = rng.uniform(self.cosI_lo, 1.0, n_try)
+            if self.node_info:
+                th[:, self.ix["node_ref"]] = rng.uniform(-np.pi, np.pi, n_try)
+            us = []
+            b_start = {}
+            for j, k in enumerate(self.kinds):
+                p = self.system.planets[j]
+                if k == "b" and j not in self.b_fixed:
+                    if "b" in p.quantities:
+                        bj = np.clip(p.quantities["b"].sample(rng, n_try), 0.0, 1.0 + self.ror[j])
+                    else:
+                        bj = rng.uniform(0.0, 1.0 + self.ror[j], n_try)
+                    b_start[j] = bj
+                    us.append(bj * self.g0[j])
+                elif k == "incl":
+                    cj = np.cos(np.radians(p.quantities["inclination"].sample(rng, n_try)))
+                    th[:, self.ix[f"cosi{j}"]] = cj
+                    us.append(cj)
+                elif k == "fixed":
+                    us.append(np.full(n_try, self.fixed_cos[j]))
+                if f"z{j}" in self.ix:
+                    th[:, self.ix[f"z{j}"]] = rng.standard_normal(n_try)
+                if f"w{j}" in self.ix:
+                    th[:, self.ix[f"w{j}"]] = rng.standard_normal(n_try)
+            if us:   # start the reference plane among the known orientations
+                pick = np.stack(us, axis=1)[np.arange(n_try), rng.integers(0, len(us), n_try)]
+                jitter = np.radians(10 ** rng.uniform(-1.0, 0.7, n_try)) * rng.standard_normal(n_try)
+                th[:, self.ix["cosI"]] = np.clip(pick + jitter, self.cosI_lo, 1.0)
+            sig = np.exp(th[:, self.ix["logsigma"]])
+            cos_start = th[:, self.ix["cosI"]].copy()
+            for j, bj in b_start.items():
+                if self.b_std:
+                    mean, sd = self._beta_conditional(j, cos_start, sig)
+                    th[:, self.ix[f"beta{j}"]] = (bj - mean) / sd
+                else:
+                    th[:, self.ix[f"beta{j}"]] = bj
+            if self._ref_info:
+                mean, sd = self._ref_conditional(sig)
+                th[:, self.ix["cosI"]] = (cos_start - mean) / sd
+            lp = self.log_prob(th)
+            good = np.isfinite(lp)
+            if good.any():
+                cand.append((th[good], lp[good]))
+            if sum(len(x[0]) for x in cand) >= 8 * nwalkers:
+                break
+        if not cand:
+            return None
+        th = np.concatenate([x[0] for x in cand])
+        lp = np.concatenate([x[1] for x in cand])
+        order = np.argsort(-lp)[: 4 * nwalkers]
+        if len(order) < nwalkers:
+            pick = rng.choice(order, nwalkers, replace=True)
+            return th[pick] + 1e-6 * rng.standard_normal((nwalkers, self.ndim)) * np.maximum(np.abs(th[pick]), 1e-3)
+        return th[rng.choice(order, nwalkers, replace=False)]
