@@ -166,6 +166,8 @@ def text_boxes(fig):
     Tick labels (major and minor, inside the view), axis labels, titles, axes
     and figure texts, annotations and legend texts.
     """
+    if not isinstance(fig.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(fig)
     fig.canvas.draw()
     renderer = fig.canvas.get_renderer()
     texts = []
@@ -216,6 +218,8 @@ def text_overlaps(fig, tol_px=0.5):
 
 def overlaps_axes(fig, artists, tol_px=0.5):
     """Artists (figure texts, legends) whose drawn box overlaps the frame of any axes."""
+    if not isinstance(fig.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(fig)
     fig.canvas.draw()
     renderer = fig.canvas.get_renderer()
     out = []

@@ -66,7 +66,14 @@ def split_parameters(params, max_params):
             merged[-1] = merged[-1] + part
         else:
             merged.append(part)
-    return merged
+    for i, part in enumerate(merged):             # no one-parameter figure: borrow from a neighbour
+        j = i - 1 if i > 0 else i + 1
+        if len(part) == 1 and len(merged) > 1 and len(merged[j]) >= 3:
+            if j < i:
+                merged[i] = [merged[j].pop()] + part
+            else:
+                merged[i] = part + [merged[j].pop(0)]
+    return [m for m in merged if m]
 
 
 def _axis_range(q, x):
@@ -423,7 +430,11 @@ def _values_block(fig, axes, kept, data, skipped, p, title, truths, priors):
     note += [f"skipped {lab}: {why}" for lab, why in skipped]
     if K == 1:
         ax = axes.flat[0]
-        ax.set_title(values[-1], fontsize=p.small_pt, loc="left")
+        t = ax.set_title(values[-1], fontsize=p.small_pt, loc="left", pad=3)
+        renderer = fig.canvas.get_renderer()
+        H = fig.get_size_inches()[1]
+        need = (t.get_window_extent(renderer).height + 8) / fig.dpi
+        fig.subplots_adjust(top=1 - need / H)
         return
     box = axes[0, K - 1].get_position()
     renderer = fig.canvas.get_renderer()
