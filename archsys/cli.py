@@ -116,7 +116,10 @@ def _cmd_stack(args):
     from .stacking import collect_documents, sort_documents, write_stacked_figure
     has_files = any(str(f).lower().endswith(".toml") for f in args.inputs)
     docs = collect_documents(args.inputs, options=_options(args) if has_files else None, where=args.where)
-    docs = sort_documents(docs, args.sort_by)
+    key = args.sort_by
+    if key and args.descending and not key.startswith("-"):
+        key = "-" + key
+    docs = sort_documents(docs, key)
     for path in write_stacked_figure(docs, args.figures, stem=args.name, preset=args.preset, limit=args.limit):
         sys.stdout.write(f"{path}\n")
     return 0
@@ -178,7 +181,9 @@ def build_parser():
     k.add_argument("--sort-by", default=None, metavar="KEY",
                    help="row order, '-KEY' descending: name, n_planets, star_mass, a_inner, a_outer, period_inner, "
                         "period_outer, total_mass, min_hill_separation, gap_complexity, hill_stable_probability, "
-                        "or a numeric column of a survey's systems.csv (default: input order)")
+                        "or a numeric column of a survey's systems.csv (default: input order); "
+                        "write --sort-by=-KEY for descending")
+    k.add_argument("--descending", action="store_true", help="sort from the largest value down")
     k.add_argument("--where", action="append", default=[], metavar="EXPR",
                    help="select systems of a survey folder (the survey's --where language; repeatable)")
     k.add_argument("--limit", type=int, default=None, help="draw at most N systems (after sorting)")

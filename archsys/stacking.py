@@ -90,7 +90,7 @@ def _survey_documents(folder, where=()):
                for r in pair_rows.get(g.system, [])]
         doc = {"system": g.system, "star": {"mass_msun": {"median": _num(srow.get("star_mass_msun_median"))}},
                "planets": pls, "pairs": prs,
-               "_columns": {k: _num(v) for k, v in srow.items() if _num(v) is not None}}
+               "_columns": {k: _num(v) for k, v in srow.items()}}
         gc = _num(srow.get("gap_complexity_median"))
         if gc is not None:
             doc["gap_complexity"] = {"median": gc}
