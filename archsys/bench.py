@@ -11,8 +11,12 @@ kepler_draws_per_s, kepler_vs_bare_numpy
     bare-numpy time / archsys time (1 = no overhead; target >= 0.6).
 scores_draws_per_s, scores_seconds
     every score on 10^5 draws of the six-planet demo (Velmora).
-posterior_seconds, posterior_neff_per_s, posterior_logprob_per_s, posterior_converged
-    the joint posterior of the six-planet demo to convergence (target < 30 s).
+posterior_seconds, posterior_neff_per_s, posterior_neff_per_s_vs_v010, posterior_v010_*
+    the joint posterior of the six-planet demo, and the v0.1.0 engine (one emcee run over every
+    parameter) on the same system in the same run (target: >= 5x the effective samples per second).
+survey_full_*
+    the open catalogue's RV systems in full mode (1 and 2 workers), and both engines on the same
+    first 40 of them (target: >= 5x faster, 2 workers >= 1.8x).
 survey_systems_per_s, survey_seconds, survey_speedup_2_jobs
     the open catalogue in fast mode with 1 and 2 worker processes (target < 2 min, speed-up >= 1.7).
 stability_analytic_vs_nbody_cost
@@ -71,17 +75,13 @@ def bench_scores(n=100_000):
 
 
 def bench_posterior():
-    from . import read_system
-    from .inference.sampler import sample_system
-    from .pipeline import AnalysisOptions
-    s = read_system(_demo("velmora"))
-    t0 = time.perf_counter()
-    post = sample_system(s, AnalysisOptions(seed=0, quiet=True))
-    t = time.perf_counter() - t0
-    smp = post.sampler
-    return {"posterior_seconds": t, "posterior_neff_per_s": smp["min_n_eff"] / t,
-            "posterior_logprob_per_s": smp["log_prob_evaluations"] / t,
-            "posterior_converged": smp["converged"], "posterior_tau_max": smp["max_autocorrelation_time"]}
+    from .bench_engine import bench_posterior as side_by_side
+    return side_by_side(_demo("velmora"))
+
+
+def bench_survey_full():
+    from .bench_engine import bench_survey_full as side_by_side
+    return side_by_side()
 
 
 def bench_survey():
@@ -107,22 +107,21 @@ def bench_stability(n_draws=4):
     from . import read_system
     from .inference.draws import direct_draws
     from .scores.pairs import amd_arrays, pair_arrays
-    from .scores.nbody_check import N_ORBITS
     post = direct_draws(read_system(_demo("velmora")), n=100_000, seed=0)
     t_an = _best(lambda: (pair_arrays(post), amd_arrays(post)), repeat=2) / post.n_draws
-    t_nb = nbody.time_per_draw(n_draws=n_draws, n_orbits=N_ORBITS)
+    t_nb = nbody.time_per_draw(n_draws=n_draws, n_orbits=3000)     # 3000 inner orbits per draw
     return {"stability_analytic_seconds_per_draw": t_an, "stability_nbody_seconds_per_draw": t_nb,
             "stability_analytic_vs_nbody_cost": t_nb / t_an}
 
 
 BENCHES = {"kepler": bench_kepler, "scores": bench_scores, "posterior": bench_posterior,
-           "survey": bench_survey, "stability": bench_stability}
+           "survey": bench_survey, "survey_full": bench_survey_full, "stability": bench_stability}
 
 
 def run(skip=(), quick=False, log=None):
     out = {}
     for name, fn in BENCHES.items():
-        if name in skip or (quick and name in ("posterior", "survey")):
+        if name in skip or (quick and name in ("posterior", "survey", "survey_full")):
             continue
         try:
             res = fn()

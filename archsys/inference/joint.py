@@ -50,8 +50,10 @@ __all__ = ["sample_joint", "MASS_CAP", "N_TAU", "BURN_TAU", "MAX_POOL_FACTOR"]
 
 #: Upper bound of every true mass [M_sun] (about 84 M_J, the hydrogen-burning limit; common practice).
 MASS_CAP = 0.08
-#: The weighted pool may grow to this many times the requested draws.
-MAX_POOL_FACTOR = 64
+#: The proposals may grow to this many times the requested draws (rejections by a stability prior in
+#: tension with the data need many); they are drawn in chunks of at most MAX_CHUNK.
+MAX_POOL_FACTOR = 256
+MAX_CHUNK = 200_000
 
 
 # --------------------------------------------------------------------------- the engine
@@ -180,12 +182,16 @@ def sample_joint(system, opts) -> Posterior:
                       for p in system.planets)
     orient_free = not orient_data
     hier = npl >= 2 and orient_data
-    pilot, _, _ = exact_draws(system, rng_pilot, 2048, ecc_priors)
-    g_pilot = geometry_factor(system, pilot)
-    with np.errstate(all="ignore"), warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        g0 = np.nanmedian(g_pilot, axis=0)
-        g_nt = 0.8 * np.nanmin(g_pilot, axis=0)
+    if orient_data and (system.star.radius is not None or system.star.density is not None):
+        # the geometry factor's median (sampled coordinates) and lower bound (non-transit support)
+        pilot, _, _ = exact_draws(system, rng_pilot, 2048, ecc_priors)
+        g_pilot = geometry_factor(system, pilot)
+        with np.errstate(all="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            g0 = np.nanmedian(g_pilot, axis=0)
+            g_nt = 0.8 * np.nanmin(g_pilot, axis=0)
+    else:
+        g0 = g_nt = np.full(npl, np.nan)
     model = OrientationModel(system, sp, g0, g_nt, standardise=B_STANDARDISE)
     kinds = model.kinds
     chain, info, proposal = None, None, None
@@ -200,7 +206,7 @@ def sample_joint(system, opts) -> Posterior:
                              "stellar radius")
     pieces, total_ess, pool = [], 0.0, 0
     rejected = dict.fromkeys(_REASONS, 0)
-    chunk = 2 * n
+    chunk = int(1.3 * n) + 16
     while True:
         piece, why_bad = _pool_piece(system, opts, model, kinds, chain if chain is not None else proposal, hier, orient_free,
                                      ecc_priors, sp, rng_pool, chunk)
@@ -210,13 +216,14 @@ def sample_joint(system, opts) -> Posterior:
         pool += chunk
         lw = np.concatenate([p["logw"] for p in pieces])
         good = np.isfinite(lw)
+        total_ess = 0.0
         if good.any():
             w = np.exp(lw[good] - lw[good].max())
             total_ess = float(w.sum() ** 2 / np.sum(w * w))
         if total_ess >= n or pool >= MAX_POOL_FACTOR * n:
             break
         rate = max(total_ess / pool, 1.0 / (MAX_POOL_FACTOR * n))
-        chunk = int(min(max(n, 1.2 * (n - total_ess) / rate), MAX_POOL_FACTOR * n - pool))
+        chunk = int(min(max(n, 1.2 * (n - total_ess) / rate), MAX_POOL_FACTOR * n - pool, MAX_CHUNK))
     if not good.any():
         worst = max(rejected, key=rejected.get)
         raise InputError(f"{system.source}: no draw satisfies the joint constraints; every one of {pool} draws "
@@ -263,7 +270,7 @@ KHAT_MAX = 0.7
 def _try_proposal(model, rng, n):
     """The independent orientation proposal if its importance weights are healthy, else (None, info)."""
     prop = OrientationProposal(model)
-    m = max(4 * n, 4000)
+    m = max(2 * n, 4000)
     th, lq = prop.sample(rng, m)
     with np.errstate(all="ignore"):
         lw = model.log_prob(th) - lq
@@ -297,6 +304,10 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
     if hier:
         if isinstance(chain, OrientationProposal):
             theta, lq = chain.sample(rng, m)
+            with np.errstate(all="ignore"):
+                inside = np.isfinite(model.log_prob(theta))
+            # proposals outside the orientation block's support are not rejections by the data
+            logw[~inside] = -np.inf
         else:
             theta = chain[rng.integers(0, len(chain), m)]
             with np.errstate(all="ignore"):
@@ -379,4 +390,6 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
             mask[np.flatnonzero(live)[~st]] = True
             reject(mask, "stability")
     bad = {k: v for k, v in bad.items() if v}
-    return {"draws": draws, "logw": logw, "notes": notes}, bad
+    live = np.isfinite(logw)        # keep only draws that can be resampled (memory stays small)
+    draws = {k: v[live] for k, v in draws.items()}
+    return {"draws": draws, "logw": logw[live], "notes": notes}, bad

@@ -48,7 +48,7 @@ def nbody_block(post, n_draws, jobs=1, seed=0, n_orbits=N_ORBITS_OUTER):
     return {
         "draws": n,
         "orbits_of_outer_planet": float(n_orbits),
-        "orbits_of_inner_planet": round(n_inner, 1),
+        "orbits_of_inner_planet": round(n_inner, 6),
         "horizon_years": round(years, 3),
         "integrator": "rebound WHFast + MEGNO",
         "chaotic_fraction": float(np.mean(res.chaotic)),
