@@ -191,8 +191,14 @@ def write_stacked_figure(docs, fig_dir, stem="architecture_stack", preset=None, 
     if not docs:
         raise InputError("stacked figure: no system to draw (check --where and the inputs)")
     p = get_preset(preset)
-    row = 0.32 * p.font_pt / 8.0 if len(docs) > 12 else None
-    per_page = max(1, int((p.page_height_in - 1.2 * p.font_pt / 8.0) / (0.32 * p.font_pt / 8.0)))
+    s = p.font_pt / 8.0
+    n = len(docs)
+    row = (0.5 if n <= 3 else 0.42 if n <= 12 else 0.32) * s
+    overhead = 1.4 * s                               # axis labels and a two-row legend
+    per_page = max(1, int((p.page_height_in - overhead) / row))
+    if n > per_page:                                 # several pages: compact rows
+        row = 0.32 * s
+        per_page = max(1, int((p.page_height_in - overhead) / row))
     pages = [docs[i:i + per_page] for i in range(0, len(docs), per_page)]
     items = []
     for k, page in enumerate(pages):

@@ -99,3 +99,19 @@ def test_corner_params_choose_the_paper_figure(korrin):
         with pytest.raises(InputError, match="do not fit one slide figure"):
             F.make_figures(draws, doc, preset="slide", corner_params=many)
     assert np.all(np.isfinite(sel[0].figure.get_size_inches()))
+
+
+@pytest.mark.parametrize("preset", ["one-column", "slide"])
+def test_many_systems_are_split_into_pages_that_fit(tmp_path, preset):
+    import matplotlib.image
+    from archsys.output.style import PRESETS
+    from archsys.stacking import write_stacked_figure
+    d = _survey_folder(tmp_path)
+    docs = collect_documents([d]) * 12                      # 36 rows
+    paths = write_stacked_figure(docs, tmp_path / "f", stem="many", preset=preset)
+    pngs = sorted(p for p in paths if p.suffix == ".png")
+    assert len(pngs) >= 2 and pngs[0].name == "many_1.png"
+    p = PRESETS[preset]
+    for png in pngs:
+        h_in = matplotlib.image.imread(str(png)).shape[0] / p.dpi
+        assert h_in <= p.page_height_in + 0.05, (png.name, h_in)

@@ -17,7 +17,7 @@ from ..style import ORDER_STYLES, VERDICT_STYLES
 from .architecture import architecture_figure
 from .common import FigureItem, text_overlaps
 from .corner import CONTOUR_LEVELS, CONTOUR_NOTE, corner_figure, split_parameters
-from .params import (CornerParam, _mutual_inclination, choose_parameters, planet_parameters,
+from .params import (CornerParam, _mutual_inclination, choose_parameters, planet_parameters,  # noqa: F401
                      system_parameters, usable_parameters)
 from .period_ratio import period_ratio_figure, resonances_between
 from .sets import figure_files, make_figures, plot_saved
