@@ -78,6 +78,16 @@ def make_figures(draws, document, preset=None, truths=None, priors=None, corner_
     name = document.get("system", "system")
     if priors is None:
         priors = _document_priors(document)
+    chosen, chosen_skipped = [], []
+    limit = p.max_corner_params()
+    if corner_params and draws is not None:          # check the author's choice before drawing anything
+        chosen, chosen_skipped = usable_parameters(choose_parameters(draws, document, corner_params))
+        if not chosen:
+            raise InputError("--corner-params: none of the chosen parameters varies across the draws")
+        if len(chosen) > limit:
+            raise InputError(f"--corner-params: {len(chosen)} parameters do not fit one {p.name} figure "
+                             f"(at most {limit} keep panels at least {p.min_panel_in:.2f} in wide); "
+                             "choose fewer or a wider --preset")
     items = [FigureItem("architecture", architecture_figure([document], preset=p),
                         f"Architecture of {name}: {ARCHITECTURE_CAPTION}", p)]
     if document.get("pairs"):
@@ -92,7 +102,6 @@ def make_figures(draws, document, preset=None, truths=None, priors=None, corner_
     for j, pl in enumerate(document.get("planets", [])):
         sets.append((f"corner_{safe_name(letter(pl['name'], name))}", planet_parameters(draws, document, j),
                      pl["name"]))
-    limit = p.max_corner_params()
     for fname, params, label in sets:
         kept, skipped = usable_parameters(params)
         if len(kept) < 2:
@@ -102,16 +111,9 @@ def make_figures(draws, document, preset=None, truths=None, priors=None, corner_
             stem = fname if len(parts) == 1 else f"{fname}_{i + 1}"
             items.append(_corner_item(stem, label, part, skipped if i == 0 else [], truths, priors, p,
                                       (i + 1, len(parts)) if len(parts) > 1 else None))
-    if corner_params:
-        chosen, skipped = usable_parameters(choose_parameters(draws, document, corner_params))
-        if not chosen:
-            raise InputError("--corner-params: none of the chosen parameters varies across the draws")
-        if len(chosen) > limit:
-            raise InputError(f"--corner-params: {len(chosen)} parameters do not fit one {p.name} figure "
-                             f"(at most {limit} keep panels at least {p.min_panel_in:.2f} in wide); "
-                             "choose fewer or a wider --preset")
-        items.append(_corner_item("corner_selected", f"{name}: chosen parameters", chosen, skipped, truths,
-                                  priors, p))
+    if chosen:
+        items.append(_corner_item("corner_selected", f"{name}: chosen parameters", chosen, chosen_skipped,
+                                  truths, priors, p))
     return items
 
 
