@@ -219,7 +219,7 @@ def _legend_handles(p, used, masses, shade_label):
     ms = sorted(masses) or [1.0]
     sizes = [m for m in decades if ms[0] / 4 <= m <= ms[-1] * 4] or [1]
     if len(sizes) == 1:
-        sizes = [sizes[0], sizes[0] * 10]
+        sizes = [sizes[0] // 10, sizes[0]] if sizes[0] >= 10 else [1, 10]
     filled = "true" in used or "minimum" not in used
     for m in sizes:
         h.append(Line2D([], [], marker="o", ls="none", ms=_marker_pt(m, p), mew=0.9 * p.line_width,
