@@ -98,7 +98,7 @@ def test_population_sections_present(multis):
 
 
 def test_auto_mode_mcmc_gives_tilt_population(tmp_path, capsys):
-    """Transiting triples in auto mode run the MCMC, whose tilts psi feed the inclination fit."""
+    """Transiting triples in auto mode run the joint engine, whose tilts psi feed the inclination fit."""
     out = tmp_path / "tri"
     rc = main(["survey", str(OEC), "--out", str(out), "--columns", str(COLUMNS), "--mode", "auto",
                "--draws", "200", "--max-steps", "500", "--where", "n_planets>=3", "--where", "transiting==1",
@@ -111,7 +111,7 @@ def test_auto_mode_mcmc_gives_tilt_population(tmp_path, capsys):
     assert mi["interim_prior"].startswith("rayleigh-marginal:")
     assert ("ess_warning" in mi) == (mi["ess_min"] < 10)      # thin importance weights are flagged
     systems = list(csv.DictReader(io.StringIO((out / "systems.csv").read_text())))
-    assert all(s["sampler"].startswith("MCMC") for s in systems)
+    assert all(s["sampler"].startswith("joint engine") for s in systems)
     assert "chain stopped" not in capsys.readouterr().err      # warnings go to systems.csv instead
 
 
