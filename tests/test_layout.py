@@ -29,7 +29,7 @@ def velmora():
     import archsys
     from archsys.pipeline import AnalysisOptions, analyze
     res = analyze(archsys.read_system(ROOT / "demo_systems" / "velmora.toml"),
-                  AnalysisOptions(mode="direct", n_draws=800, quiet=True, seed=1))
+                  AnalysisOptions(mode="direct", n_draws=500, quiet=True, seed=1))
     draws = dict(res.posterior.draws)
     rng = np.random.default_rng(5)
     n, k = draws["ecc"].shape

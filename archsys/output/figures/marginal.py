@@ -90,10 +90,11 @@ class PanelTicks(matplotlib.ticker.Locator):
             steps = [5.0, 10.0, 15.0, 20.0, 30.0, 40.0, 45.0, 60.0, 90.0, 120.0, 180.0]
         else:
             e0 = int(math.floor(math.log10(b - a))) - 2
-            steps = [f * 10.0 ** e for e in range(e0, e0 + 4) for f in (1, 2, 2.5, 3, 4, 5, 6)]
-        fits, over = [], []
+            steps = [f * 10.0 ** e for e in range(e0, e0 + 4) for f in (1, 2, 5)]
+            steps += [f * 10.0 ** e for e in range(e0, e0 + 4) for f in (2.5, 3, 4, 6)]   # second choice
+        fits, multi = [], []
         for step in steps:
-            if (b - a) / step > self.nbins + 2:
+            if (b - a) / step > max(self.nbins, 5) + 2:
                 continue
             k0 = math.ceil(a / step - 1e-9)
             t = [round(k * step, 12) for k in range(k0, int(math.floor(b / step + 1e-9)) + 1)]
@@ -101,10 +102,12 @@ class PanelTicks(matplotlib.ticker.Locator):
                 if len(t) >= min(2, self.nbins):
                     return t
                 fits.append(t)
-            elif t and len(t) == self.nbins + 1 and self.nbins >= 2:
-                over.append(t)
-        if fits and len(fits[0]) < min(2, self.nbins) and over:
-            return over[0]                      # two-tick steps skip this range: one more, crowding decides
+            elif 3 <= len(t) <= 5:
+                multi.append(t)
+        if self.nbins >= 2 and multi:               # no step gives two ticks: the ends of a finer set
+            odd = [t for t in multi if len(t) % 2 == 1]
+            t = (odd or multi)[0]
+            return [t[0], t[-1]]
         return fits[0] if fits else []
 
 
