@@ -94,15 +94,17 @@ def _spread(x):
 
 
 def _compact_angle(deg):
-    """Angles in [0, 360) or [-180, 180), whichever gives the narrower 68 % interval."""
+    """Angles in [0, 360) or [-180, 180), whichever gives the narrower central 99 % (then 68 %) interval."""
     a = np.asarray(deg, dtype=float) % 360.0
     b = (a + 180.0) % 360.0 - 180.0
     fa, fb = a[np.isfinite(a)], b[np.isfinite(b)]
     if fa.size < 10:
         return a
-    wa = np.diff(np.quantile(fa, (0.158655, 0.841345)))[0]
-    wb = np.diff(np.quantile(fb, (0.158655, 0.841345)))[0]
-    return b if wb < wa else a
+
+    def width(x):
+        return (round(float(np.diff(np.quantile(x, (0.005, 0.995)))[0]), 6),
+                float(np.diff(np.quantile(x, (0.158655, 0.841345)))[0]))
+    return b if width(fb) < width(fa) else a
 
 
 def planet_parameters(draws, document, j):
