@@ -317,3 +317,18 @@ def test_orientation_coverage_300_systems():
 def test_orientation_coverage_on_the_mcmc_path():
     # The emcee path of the orientation block (--mode mcmc): 60 systems, binomial sd 6 %, band 2.5 sd.
     assert 0.53 <= _orientation_coverage(60, seed=29, mode="mcmc") <= 0.83
+
+
+def test_crossing_orbits_in_every_draw_are_refused_naming_the_pair():
+    # Open catalogue (../shared/data): GJ 1061 lists e = 0.31, 0.29, 0.53 without errors (upper limits in
+    # the discovery paper, from memory); read as exact values the orbits of b and c cross in every draw
+    # (a_c / a_b = (6.689 / 3.204)^(2/3) = 1.634 and 1.31 > 1.634 x 0.71 = 1.16, hand calculation).
+    from archsys.errors import InputError
+    s = build_system({"name": "GJ 1061", "star": {"mass": 0.12}, "planet": [
+        {"name": "GJ 1061 b", "period": 3.204, "msini": 1.37, "ecc": 0.31},
+        {"name": "GJ 1061 c", "period": 6.689, "msini": 1.74, "ecc": 0.29},
+        {"name": "GJ 1061 d", "period": 13.031, "msini": 1.64, "ecc": 0.53}]}, source="<test>")
+    with pytest.raises(InputError) as exc:
+        analyze(s, _opts(n_draws=200))
+    msg = str(exc.value)
+    assert "'GJ 1061 b' and 'GJ 1061 c' cross in 100 %" in msg and "\n" not in msg

@@ -52,8 +52,8 @@ __all__ = ["sample_joint", "MASS_CAP", "N_TAU", "BURN_TAU", "MAX_POOL_FACTOR"]
 MASS_CAP = 0.08
 #: The proposals may grow to this many times the requested draws (rejections by a stability prior in
 #: tension with the data need many); they are drawn in chunks of at most MAX_CHUNK.
-MAX_POOL_FACTOR = 256
-MAX_CHUNK = 200_000
+MAX_POOL_FACTOR = 64
+MAX_CHUNK = 100_000
 
 
 # --------------------------------------------------------------------------- the engine
@@ -206,10 +206,14 @@ def sample_joint(system, opts) -> Posterior:
                              "stellar radius")
     pieces, total_ess, pool = [], 0.0, 0
     rejected = dict.fromkeys(_REASONS, 0)
+    crossing_by_pair = None
     chunk = int(1.3 * n) + 16
     while True:
         piece, why_bad = _pool_piece(system, opts, model, kinds, chain if chain is not None else proposal, hier, orient_free,
                                      ecc_priors, sp, rng_pool, chunk)
+        pair_cross = why_bad.pop("crossing_by_pair", None)
+        if pair_cross is not None:
+            crossing_by_pair = pair_cross if crossing_by_pair is None else crossing_by_pair + pair_cross
         for k, v in why_bad.items():
             rejected[k] += v
         pieces.append(piece)
@@ -226,8 +230,14 @@ def sample_joint(system, opts) -> Posterior:
         chunk = int(min(max(n, 1.2 * (n - total_ess) / rate), MAX_POOL_FACTOR * n - pool, MAX_CHUNK))
     if not good.any():
         worst = max(rejected, key=rejected.get)
+        detail = ""
+        if worst == "crossing" and crossing_by_pair is not None:
+            j = int(np.argmax(crossing_by_pair))
+            names = system.planet_names
+            detail = (f" (the orbits of '{names[j]}' and '{names[j + 1]}' cross in "
+                      f"{100.0 * crossing_by_pair[j] / pool:.0f} % of draws; are the eccentricities limits?)")
         raise InputError(f"{system.source}: no draw satisfies the joint constraints; every one of {pool} draws "
-                         f"failed, most often on {_REASONS[worst]}; check the inputs")
+                         f"failed, most often on {_REASONS[worst]}{detail}; check the inputs")
     if total_ess < n:
         warnings.warn(f"{system.name}: importance effective sample size {total_ess:.0f} < {n} requested draws "
                       f"after {pool} proposals (most rejected on {_REASONS[max(rejected, key=rejected.get)]}); "
@@ -377,7 +387,9 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
     a = kepler.a_au(P, ms[:, None] + np.nan_to_num(mass))
     if npl >= 2:
         reject(np.any(np.diff(P, axis=1) <= 0, axis=1), "period_order")
-        reject(np.any(a[:, :-1] * (1 + e[:, :-1]) >= a[:, 1:] * (1 - e[:, 1:]), axis=1), "crossing")
+        cross = a[:, :-1] * (1 + e[:, :-1]) >= a[:, 1:] * (1 - e[:, 1:])
+        bad["crossing_by_pair"] = cross.sum(axis=0)
+        reject(np.any(cross, axis=1), "crossing")
     draws = dict(m_star=ms, r_star=d["r_star"], rho_star=d["rho_star"], period=P, a=a, ecc=e, omega=d["omega"],
                  msini=msini, mass=mass, inc=np.arccos(cos_i), node=node, radius=d["radius"])
     if psi is not None:
@@ -389,7 +401,7 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
             mask = np.zeros(m, dtype=bool)
             mask[np.flatnonzero(live)[~st]] = True
             reject(mask, "stability")
-    bad = {k: v for k, v in bad.items() if v}
+    bad = {k: v for k, v in bad.items() if np.any(v)}
     live = np.isfinite(logw)        # keep only draws that can be resampled (memory stays small)
     draws = {k: v[live] for k, v in draws.items()}
     return {"draws": draws, "logw": logw[live], "notes": notes}, bad

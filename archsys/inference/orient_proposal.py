@@ -91,12 +91,12 @@ class OrientationProposal:
         self.cdf = np.concatenate([[0.0], np.cumsum(self.p)])
         self.width = np.diff(self.grid)
         self.cols = {"logsigma": ix["logsigma"], "cosI": ix["cosI"]}
-        self.std_cols = [ix[n] for n in model.names if n.startswith("beta")]
+        self.std_cols = [ix[n] for n in model.names if n.startswith("beta") or n.startswith("cosi")]
         if model._ref_info:
             self.std_cols.append(ix["cosI"])
         self.w_cols = [ix[n] for n in model.names if n.startswith("w")]
         self.z_cols = [ix[n] for n in model.names if n.startswith("z")]
-        self.i_cols = [ix[n] for n in model.names if n.startswith("cosi")]
+        self.i_cols = []      # sky inclinations are standardised like impact parameters
         self.node_ref = "node_ref" in ix
 
     def _prior_scales(self, cosI):

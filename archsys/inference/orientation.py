@@ -237,6 +237,13 @@ class OrientationModel:
             "jnf": arr(jnf), "nf": np.array([self.fixed_node[j] for j in jnf]),
             "top_b": 1.0 + self.ror[jb], "nt": arr(self.non_transit), "top_nt": 1.0 + self.ror[self.non_transit],
         }
+        gi = []
+        for j in ji:
+            meas = self.system.planets[j].quantities["inclination"]
+            i0 = math.radians(meas.center)
+            gi.append((math.cos(i0), max(abs(math.sin(i0)) * math.radians(meas.sigma), 1e-6)))
+        self._gi_y = np.array([x[0] for x in gi])
+        self._gi_s = np.array([x[1] for x in gi])
         self._gb_y = np.array([self._b_gauss[j][0] for j in jb])
         self._gb_s = np.array([self._b_gauss[j][1] for j in jb])
         self._g0_b = self.g0[jb] if jb else np.zeros(0)
@@ -293,7 +300,13 @@ class OrientationModel:
             u[:, V["jall_b"]] = beta[:, V["jall_b"]] * gb
             log_jac += np.sum(np.log(gb), axis=1)
         if len(V["ji"]):
-            u[:, V["ji"]] = th[:, V["ci"]]
+            if self.b_std:
+                mean, sd = self._gauss_conditional(self._gi_y, self._gi_s, np.ones(len(V["ji"])),
+                                                   c["cosI"][:, None], sig[:, None])
+                u[:, V["ji"]] = mean + sd * th[:, V["ci"]]
+                log_jac += np.sum(np.log(sd), axis=1)
+            else:
+                u[:, V["ji"]] = th[:, V["ci"]]
         if len(V["jf"]):
             u[:, V["jf"]] = V["cf"]
         if len(V["jz"]):
@@ -318,6 +331,15 @@ class OrientationModel:
         w = 1.0 / (sigma[:, None] ** 2 + self._ref_s2[None, :] + 1e-300)
         prec = w.sum(axis=1)
         return (w * self._ref_y[None, :]).sum(axis=1) / prec, 1.0 / np.sqrt(prec)
+
+    @staticmethod
+    def _gauss_conditional(y, s, g, cosI, sigma):
+        """Mean and width of x given (cos I, sigma) when |cos i| = x g has the Gaussian prior
+        N(cos I, (sigma sin I)^2) and x the Gaussian summary N(y, s^2)."""
+        tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
+        prec = 1.0 / (tau * tau) + 1.0 / (s * s)
+        mean = (cosI / g / (tau * tau) + y / (s * s)) / prec
+        return mean, 1.0 / np.sqrt(prec)
 
     def _beta_conditional(self, jb, cosI, sigma):
         """Mean and width of the impact parameter of planet j given (cos I, sigma) in a Gaussian
@@ -385,64 +407,3 @@ class OrientationModel:
                 d = (c["node"][:, j] - mu + np.pi) % (2 * np.pi) - np.pi
                 lp += -0.5 * (d / sd) ** 2
         return np.where(ok & np.isfinite(lp), lp, _NEG)
-
-    def initial(self, rng, nwalkers, n_try=4096, rounds=10):
-        """Walker starts: broad draws filtered by the log-density, best-first."""
-        cand = []
-        for _ in range(rounds):
-            th = np.empty((n_try, self.ndim))
-            th[:, self.ix["logsigma"]] = np.log(np.radians(10 ** rng.uniform(-0.7, 1.3, n_try)))
-            th[:, self.ix["cosI"]] = rng.uniform(self.cosI_lo, 1.0, n_try)
-            if self.node_info:
-                th[:, self.ix["node_ref"]] = rng.uniform(-np.pi, np.pi, n_try)
-            us = []
-            b_start = {}
-            for j, k in enumerate(self.kinds):
-                p = self.system.planets[j]
-                if k == "b" and j not in self.b_fixed:
-                    if "b" in p.quantities:
-                        bj = np.clip(p.quantities["b"].sample(rng, n_try), 0.0, 1.0 + self.ror[j])
-                    else:
-                        bj = rng.uniform(0.0, 1.0 + self.ror[j], n_try)
-                    b_start[j] = bj
-                    us.append(bj * self.g0[j])
-                elif k == "incl":
-                    cj = np.cos(np.radians(p.quantities["inclination"].sample(rng, n_try)))
-                    th[:, self.ix[f"cosi{j}"]] = cj
-                    us.append(cj)
-                elif k == "fixed":
-                    us.append(np.full(n_try, self.fixed_cos[j]))
-                if f"z{j}" in self.ix:
-                    th[:, self.ix[f"z{j}"]] = rng.standard_normal(n_try)
-                if f"w{j}" in self.ix:
-                    th[:, self.ix[f"w{j}"]] = rng.standard_normal(n_try)
-            if us:   # start the reference plane among the known orientations
-                pick = np.stack(us, axis=1)[np.arange(n_try), rng.integers(0, len(us), n_try)]
-                jitter = np.radians(10 ** rng.uniform(-1.0, 0.7, n_try)) * rng.standard_normal(n_try)
-                th[:, self.ix["cosI"]] = np.clip(pick + jitter, self.cosI_lo, 1.0)
-            sig = np.exp(th[:, self.ix["logsigma"]])
-            cos_start = th[:, self.ix["cosI"]].copy()
-            for j, bj in b_start.items():
-                if self.b_std:
-                    mean, sd = self._beta_conditional(j, cos_start, sig)
-                    th[:, self.ix[f"beta{j}"]] = (bj - mean) / sd
-                else:
-                    th[:, self.ix[f"beta{j}"]] = bj
-            if self._ref_info:
-                mean, sd = self._ref_conditional(sig)
-                th[:, self.ix["cosI"]] = (cos_start - mean) / sd
-            lp = self.log_prob(th)
-            good = np.isfinite(lp)
-            if good.any():
-                cand.append((th[good], lp[good]))
-            if sum(len(x[0]) for x in cand) >= 8 * nwalkers:
-                break
-        if not cand:
-            return None
-        th = np.concatenate([x[0] for x in cand])
-        lp = np.concatenate([x[1] for x in cand])
-        order = np.argsort(-lp)[: 4 * nwalkers]
-        if len(order) < nwalkers:
-            pick = rng.choice(order, nwalkers, replace=True)
-            return th[pick] + 1e-6 * rng.standard_normal((nwalkers, self.ndim)) * np.maximum(np.abs(th[pick]), 1e-3)
-        return th[rng.choice(order, nwalkers, replace=False)]

@@ -84,9 +84,9 @@ import math
 
 import numpy as np
 
-from ..physics import kepler, transit
-from ..physics.constants import MEARTH_MSUN, RSUN_AU
-from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
+from ...physics import kepler, transit
+from ...physics.constants import MEARTH_MSUN, RSUN_AU
+from ...physics.massradius import mass_from_radius_mearth
 
 __all__ = ["SystemModel", "MASS_CAP", "PERIOD_FREE_REL"]
 
@@ -443,7 +443,7 @@ class SystemModel:
         return ll
 
     def _stable(self, c):
-        from ..physics import amd, hill
+        from ...physics import amd, hill
         m = self.full_masses(c)
         a, e = c["a"], c["ecc"]
         ms = c["m_star"][:, None]
