@@ -106,9 +106,9 @@ def bench_stability(n_draws=4):
         return {"stability_note": "rebound not installed (pip install 'archsys[nbody]')"}
     from . import read_system
     from .inference.draws import direct_draws
-    from .scores.pairs import amd_arrays, pair_arrays
+    from .scores import per_draw_arrays
     post = direct_draws(read_system(_demo("velmora")), n=100_000, seed=0)
-    t_an = _best(lambda: (pair_arrays(post), amd_arrays(post)), repeat=2) / post.n_draws
+    t_an = _best(lambda: per_draw_arrays(post), repeat=2) / post.n_draws
     t_nb = nbody.time_per_draw(n_draws=n_draws, n_orbits=3000)     # 3000 inner orbits per draw
     return {"stability_analytic_seconds_per_draw": t_an, "stability_nbody_seconds_per_draw": t_nb,
             "stability_analytic_vs_nbody_cost": t_nb / t_an}

@@ -65,11 +65,7 @@ def analyze(system, options: AnalysisOptions | None = None) -> Analysis:
     opts = options or AnalysisOptions()
     post = _posterior(system, opts)
     from .scores import compute_scores
-    scores = compute_scores(post, opts)
-    if opts.nbody and system.n_planets >= 2:
-        from .scores.nbody_check import nbody_block
-        scores["system"]["nbody"] = nbody_block(post, opts.nbody, jobs=opts.jobs, seed=opts.seed,
-                                                  n_orbits=opts.nbody_orbits)
+    scores = compute_scores(post, opts)       # every registered score (the N-body check when asked)
     res = Analysis(system, post, scores, opts)
     res.document = build_document(res)
     return res

@@ -51,6 +51,11 @@ def _check_numbers(node, path=""):
         if "median" in node:
             assert {"median", "lo", "hi"} <= set(node), path
             m, lo, hi = node["median"], node["lo"], node["hi"]
+            if node.get("infinite_fraction"):          # README "Infinite values": infinite percentiles are null
+                assert 0 < node["infinite_fraction"] <= 1, path
+                vals = [v for v in (lo, m, hi) if v is not None]
+                assert vals == sorted(vals) and (hi is None), path
+                return
             assert all(isinstance(v, (int, float)) and math.isfinite(v) for v in (m, lo, hi)), path
             assert lo <= m <= hi, path
             return

@@ -289,8 +289,9 @@ def test_new_keys_rendered_everywhere(result, tmp_path):
     for s in (md, ht):
         assert "3:2" in s and "42 %" in s and "A new verdict sentence." in s
         assert "0.40 ± 0.10" in s                                # offset 0.004 +/- 0.001 as percent
-        assert "flatness: max mutual inclination" in s
-        assert "foo widget" in s and "tilt" in s
+        assert "largest mutual inclination" in s                  # label from the column metadata
+        assert "flatness: max mutual inclination" not in s        # never a label made from the JSON key
+        assert "foo_widget_deg" in s and "tilt_deg" in s          # keys nobody describes: shown, under the raw key
     assert "3:2" in tex and r"$0.40 \pm 0.10$" in tex and "42\\,\\%" in tex
     assert r"$\sigma_\mathrm{mut}$" in tex
     _check_balanced(tex)

@@ -15,6 +15,8 @@ import numpy as np
 from .. import __version__
 from ..inference.summary import summarize, summarize_angle
 from ..physics.constants import MEARTH_MSUN
+from ..scores.common import barely_constrained, flat_ecc_prior
+from .wording import verdict_sentences
 
 __all__ = ["build_document", "DISCLAIMER", "SCHEMA_VERSION"]
 
@@ -52,12 +54,44 @@ def _planet_entry(post, j, pl):
     if np.isfinite(d["inc"][:, j]).any():
         entry["inclination_deg"] = summarize(np.degrees(d["inc"][:, j]))
         entry["inclination_basis"] = note.get("inc", "")
-    radius = d.get("radius")
-    if radius is not None and np.isfinite(radius[:, j]).any():
-        entry["radius_rearth"] = summarize(radius[:, j])
+    radius = post.get("radius")
+    if radius is not None and np.isfinite(np.asarray(radius, dtype=float)[:, j]).any():
+        entry["radius_rearth"] = summarize(np.asarray(radius, dtype=float)[:, j])
     if pl.transiting is not None:
         entry["transiting"] = pl.transiting
+    loose = _not_constrained(entry, post, j)
+    if loose:
+        entry["not_constrained_by_data"] = loose
     return entry
+
+
+def _not_constrained(entry, post, j):
+    """Document keys of a planet whose values come from the prior rather than the data."""
+    basis = str(entry.get("ecc_basis") or "")
+    if "prior only" in basis or ("ecc" in entry and "assumed" not in basis and "fixed" not in basis
+                                 and barely_constrained(post["ecc"][:, j], flat_ecc_prior(post))):
+        return ["ecc"]
+    return []
+
+
+def _priors_that_ran(post, opts):
+    """The posterior's prior record, or (when the sampler recorded none) the priors its options select."""
+    if post.prior or post.method == "direct":
+        return post.prior
+    from ..inference.priors import default_prior, load_prior
+    out = {}
+    for q, name in (("eccentricity", getattr(opts, "ecc_prior", None)),
+                    ("mutual_inclination_sigma", getattr(opts, "incl_prior", None))):
+        try:
+            pr = load_prior(name) if name else default_prior(q)
+        except Exception:                  # a prior that cannot be read here is still named
+            out[q] = {"name": str(name)}
+            continue
+        out[q] = {"name": pr.name, "citation": pr.citation, "from_memory": bool(pr.from_memory),
+                  "default": not name}
+    if getattr(opts, "require_stable", False):
+        out["stability"] = "Hill (Gladman 1993) and AMD (Laskar & Petit 2017) stability of every adjacent pair"
+    return out
 
 
 def build_document(res) -> dict:
@@ -77,6 +111,9 @@ def build_document(res) -> dict:
         "pairs": sc["pairs"],
     }
     doc.update({k: v for k, v in sc["system"].items()})
+    structured = _finite(sc.get("verdicts", []))
+    doc["verdicts"] = verdict_sentences(doc, structured)
+    doc["structured_verdicts"] = structured
     doc["sampler"] = dict(post.sampler)
     doc["disclaimer"] = DISCLAIMER
     doc["provenance"] = {
@@ -85,7 +122,7 @@ def build_document(res) -> dict:
         "seed": res.options.seed,
         "draws": post.n_draws,
         "options": res.options.as_dict(),
-        "priors": post.prior,
+        "priors": _priors_that_ran(post, res.options),
         "package_version": __version__,
         "versions": _versions(),
     }

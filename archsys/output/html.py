@@ -8,8 +8,7 @@ from __future__ import annotations
 import base64
 from html import escape
 
-from .formats import (document_tables, intro_line, provenance_items, sampler_items,
-                      verdict_lines)
+from .tables import document_tables, intro_line, provenance_items, sampler_items
 from .style import PALETTE
 
 __all__ = ["render_html", "html_cell"]
@@ -57,7 +56,8 @@ dt { font-weight: 600; } dd { margin: 0; word-break: break-word; }
 """ % {"blue": PALETTE["blue"], "green": PALETTE["bluish_green"], "orange": PALETTE["orange"],
        "red": PALETTE["vermillion"]}
 
-_VERDICT_KEYS = ("hill_stable_probability", "amd_stable_probability", "all_pairs_hill_stable_probability")
+_VERDICT_KEYS = ("hill_stable_probability", "amd_stable_probability", "all_pairs_hill_stable_probability",
+                 "amd.system_stable_probability")
 
 
 def html_cell(cell, key="", raw=None) -> str:
@@ -65,6 +65,8 @@ def html_cell(cell, key="", raw=None) -> str:
     kind = cell[0]
     if kind == "none":
         return '<span class="none">—</span>'
+    if kind == "inf":
+        return f"∞ ({escape(cell[1])} of draws infinite)"
     if kind == "pm":
         v, m, p = (escape(x) for x in cell[1:])
         if m == p:
@@ -82,17 +84,24 @@ def _head(col):
     return f"<th scope=\"col\">{escape(col.label)}{unit}</th>"
 
 
-def _table(table, raw_rows, caption):
+def _table(table, caption):
     out = ['<div class="scroll"><table>', f"<caption hidden>{escape(caption)}</caption>",
            "<thead><tr>" + "".join(_head(c) for c in table.columns) + "</tr></thead>", "<tbody>"]
-    for row, raw in zip(table.rows, raw_rows):
+    for r, (row, raw) in enumerate(zip(table.rows, table.raw)):
         cells = []
         for i, (col, cell) in enumerate(zip(table.columns, row)):
             tag = "th scope=\"row\"" if i == 0 else "td"
-            cells.append(f"<{tag}>{html_cell(cell, col.key, raw.get(col.key))}</{tag.split()[0]}>")
+            mark = escape(table.marks.get((r, col.key), ""))
+            cells.append(f"<{tag}>{html_cell(cell, col.key, raw.get(col.key))}{mark}</{tag.split()[0]}>")
         out.append("<tr>" + "".join(cells) + "</tr>")
     out += ["</tbody></table></div>"]
     return out
+
+
+def _lookup(raw, key):
+    for part in key.split("."):
+        raw = raw.get(part) if isinstance(raw, dict) else None
+    return raw
 
 
 def _kv_table(rows, raw):
@@ -100,7 +109,7 @@ def _kv_table(rows, raw):
            "value</th><th scope=\"col\">unit</th></tr></thead>", "<tbody>"]
     for col, cell in rows:
         cls = ' class="text"' if cell[0] == "text" else ""
-        out.append(f"<tr><th scope=\"row\">{escape(col.label)}</th><td{cls}>{html_cell(cell, col.key, raw.get(col.key))}"
+        out.append(f"<tr><th scope=\"row\">{escape(col.label)}</th><td{cls}>{html_cell(cell, col.key, _lookup(raw, col.key))}"
                    f"</td><td style=\"text-align:left\">{escape(col.unit)}</td></tr>")
     out.append("</tbody></table></div>")
     return out
@@ -137,17 +146,19 @@ def render_html(doc, figures=()) -> str:
     if (doc.get("sampler") or {}).get("converged") is False:
         L.append('<p class="warn">The chain did not reach the convergence criterion; treat intervals as rough.</p>')
     L += ['<section id="verdicts"><h2>Verdicts</h2><ul class="verdicts">']
-    L += [f"<li>{escape(v)}</li>" for v in verdict_lines(doc)] + ["</ul></section>"]
+    L += [f"<li>{escape(v)}</li>" for v in t.verdicts] + ["</ul></section>"]
+    L += ['<section id="priors"><h2>Priors</h2><ul class="notes">']
+    L += [f"<li>{escape(v)}</li>" for v in t.priors] + ["</ul></section>"]
     if t.star:
         L += ['<section id="star"><h2>Star</h2>'] + _kv_table(t.star, doc.get("star", {})) + ["</section>"]
     L += ['<section id="planets"><h2>Planets</h2>']
-    L += _table(t.planets, doc.get("planets", []), f"Planets of {name}")
+    L += _table(t.planets, f"Planets of {name}")
     if t.notes:
         L += ['<ul class="notes">'] + [f"<li>{escape(n)}</li>" for n in t.notes] + ["</ul>"]
     L.append("</section>")
     if t.pairs is not None:
         L += ['<section id="pairs"><h2>Adjacent pairs</h2>']
-        L += _table(t.pairs, doc.get("pairs", []), f"Adjacent pairs of {name}")
+        L += _table(t.pairs, f"Adjacent pairs of {name}")
         L += ['<ul class="notes"><li>Δ: separation in mutual Hill radii (Gladman 1993 criterion 2√3 for '
               "circular orbits); offset: fractional distance from the nearest mean-motion resonance.</li></ul>",
               "</section>"]

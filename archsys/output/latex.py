@@ -3,58 +3,28 @@ r"""LaTeX tables of the derived parameters, for ``\input`` into a paper.
 Values carry asymmetric errors as ``$x^{+a}_{-b}$`` (``$x \pm a$`` when the
 two agree after rounding), rounded by their uncertainty with
 :func:`archsys.output.numbers.round_uncertain`; units sit in a second header
-row.  Rules are plain ``\hline`` so the fragment compiles with any document
-class and no extra package.  Wide tables use ``table*`` (full page width in
-two-column classes).
+row.  Labels and units come from the table model (:mod:`archsys.output.tables`).
+
+:func:`render_latex` writes plain ``tabular`` environments with ``\hline`` rules, so
+the fragment compiles with any document class and no extra package (wide
+tables use ``table*``).  :func:`render_aastex` writes the same tables as AAS
+``deluxetable`` environments through astropy's AASTeX table writer
+(``astropy.io.ascii``, format ``aastex``), for the AAS journals' class.
 """
 from __future__ import annotations
 
-import unicodedata
+import io
 
 from .files import safe_name
-from .formats import document_tables, intro_line
+from .tables import document_tables, intro_line
+from .tex import escape
 
-__all__ = ["render_latex", "latex_cell", "escape", "standalone"]
-
-_SPECIAL = {"\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_",
-            "{": r"\{", "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}",
-            "–": "--", "—": "---", "−": "$-$", "±": r"$\pm$", "⊕": r"$\oplus$", "☉": r"$\odot$",
-            "★": r"$\star$", "°": r"$^\circ$", "≥": r"$\geq$", ">": "$>$", "<": "$<$", "|": r"$|$", "≤": r"$\leq$", "×": r"$\times$",
-            "⁻": "$^{-}$", "³": "$^{3}$", "¹": "$^{1}$", "²": "$^{2}$"}
-_GREEK_ALT = {"lamda": "lambda", "epsilon": "epsilon"}
+__all__ = ["render_latex", "render_aastex", "latex_cell", "escape", "standalone"]
 
 
-def _greek(ch):
-    try:
-        name = unicodedata.name(ch)
-    except ValueError:
-        return None
-    for pre, upper in (("GREEK SMALL LETTER ", False), ("GREEK CAPITAL LETTER ", True)):
-        if name.startswith(pre):
-            word = name[len(pre):].lower()
-            if " " in word:
-                return None
-            word = _GREEK_ALT.get(word, word)
-            if upper:
-                if word in {"alpha", "beta", "epsilon", "zeta", "eta", "iota", "kappa", "mu", "nu",
-                            "omicron", "rho", "tau", "chi"}:
-                    return None   # Latin look-alikes: keep the character
-                word = word.capitalize()
-            return f"$\\{word}$"
-    return None
-
-
-def escape(text) -> str:
-    """``text`` safe for LaTeX text mode (special characters and Greek letters mapped)."""
-    out = []
-    for ch in str(text):
-        if ch in _SPECIAL:
-            out.append(_SPECIAL[ch])
-        elif ord(ch) > 127 and (g := _greek(ch)):
-            out.append(g)
-        else:
-            out.append(ch)
-    return "".join(out)
+def _percent(text):
+    """'42 %' -> '42\\,\\%' (thin space, escaped per cent sign)."""
+    return escape(text.replace(" %", "%")).replace(r"\%", r"\,\%")
 
 
 def latex_cell(cell) -> str:
@@ -62,15 +32,19 @@ def latex_cell(cell) -> str:
     kind = cell[0]
     if kind == "none":
         return "--"
+    if kind == "raw":                       # already LaTeX (labels, units)
+        return cell[1]
+    if kind == "inf":
+        return f"$\\infty$ ({_percent(cell[1])} of draws)"
     if kind == "pm":
-        v, m, p = cell[1:]
+        v, m, p = (x.replace("∞", r"\infty") for x in cell[1:])
         if m == p:
             return f"${v} \\pm {p}$"
         return f"${v}^{{+{p}}}_{{-{m}}}$"
     if kind == "number":
         return f"${cell[1]}$" if cell[1] not in ("—",) else "--"
     if kind == "percent":
-        return escape(cell[1].replace(" %", "%")).replace(r"\%", r"\,\%")
+        return _percent(cell[1])
     return escape(cell[1])
 
 
@@ -87,8 +61,9 @@ def _tabular(table, caption, label, notes=()):
     if any(c.unit_latex for c in cols):
         L.append(" & ".join(_unit(c) for c in cols) + " \\\\")
     L.append("\\hline")
-    for row in table.rows:
-        L.append(" & ".join(latex_cell(c) for c in row) + " \\\\")
+    for i, row in enumerate(table.rows):
+        L.append(" & ".join(latex_cell(c) + escape(table.marks.get((i, col.key), ""))
+                            for c, col in zip(row, cols)) + " \\\\")
     L += ["\\hline", "\\end{tabular}"]
     if notes:
         L += ["\\par\\smallskip", "{\\footnotesize\\raggedright " + " ".join(escape(n) for n in notes) + "\\par}"]
@@ -125,7 +100,8 @@ def render_latex(doc) -> str:
          f"% input {prov.get('input_file', '?')} (sha256 {prov.get('input_sha256', '?')}), seed {prov.get('seed', '?')}",
          "% Plain \\hline rules: compiles with any class, no extra packages needed.", ""]
     basis = "Medians and central 68.3\\,\\% intervals"
-    L += _tabular(t.planets, f"Planets of {sysname}. {basis} of {how}.", f"tab:{key}-planets", t.notes)
+    L += _tabular(t.planets, f"Planets of {sysname}. {basis} of {how}.", f"tab:{key}-planets",
+                  t.notes + t.priors)
     if t.pairs is not None:
         pairs = _tabular(t.pairs, f"Adjacent pairs of {sysname}: period ratio, nearest mean-motion "
                          "resonance and fractional offset $\\delta$, separation $\\Delta$ in mutual Hill radii, "
@@ -134,8 +110,70 @@ def render_latex(doc) -> str:
     rows = t.star + t.system
     if rows:
         L += [""] + _kv_tabular(rows, f"Star and system-level quantities of {sysname}.", f"tab:{key}-system")
+    L += [""] + [_comment("Verdict: " + v) for v in t.verdicts]
     if doc.get("disclaimer"):
-        L += ["", "% " + doc["disclaimer"]]
+        L += ["", _comment(doc["disclaimer"])]
+    return "\n".join(L) + "\n"
+
+
+def _comment(text):
+    return "% " + " ".join(str(text).split())
+
+
+def _deluxetable(columns, rows, caption, label, comments=(), marks=None):
+    """One AAS ``deluxetable*`` through astropy's AASTeX writer (astropy.io.ascii format 'aastex')."""
+    from astropy.io import ascii as astropy_ascii
+    from astropy.table import Table as AstropyTable
+    names, seen = [], set()
+    for c in columns:                                    # astropy needs unique column names
+        n = c.latex
+        while n in seen:
+            n += "{}"
+        seen.add(n)
+        names.append(n)
+    marks = marks or {}
+    data = [[latex_cell(row[j]) + escape(marks.get((i, c.key), "")) for i, row in enumerate(rows)]
+            for j, c in enumerate(columns)]
+    tab = AstropyTable(data, names=names, dtype=[str] * len(names)) if rows else AstropyTable(names=names,
+                                                                                            dtype=[str] * len(names))
+    latexdict = {"tabletype": "deluxetable*", "caption": f"{caption}\\label{{{label}}}",
+                 "col_align": "l" + "c" * (len(names) - 1),
+                 "units": {n: c.unit_latex for n, c in zip(names, columns) if c.unit_latex}}
+    if comments:
+        latexdict["tablefoot"] = "\\tablecomments{" + " ".join(comments) + "}"
+    buf = io.StringIO()
+    astropy_ascii.write(tab, buf, format="aastex", latexdict=latexdict)
+    return buf.getvalue().rstrip("\n").splitlines()
+
+
+def render_aastex(doc) -> str:
+    r"""The tables of ``doc`` as AAS ``deluxetable*`` environments (for ``\input`` with the AASTeX class)."""
+    from ..scores.registry import Column
+    t = document_tables(doc)
+    name = doc.get("system", "system")
+    key = safe_name(name).lower()
+    prov = doc.get("provenance") or {}
+    sysname = escape(name)
+    L = [_comment(f"archsys {prov.get('package_version', '?')}: derived parameters of {name} (AASTeX deluxetable)"),
+         _comment(f"input {prov.get('input_file', '?')} (sha256 {prov.get('input_sha256', '?')}), "
+                  f"seed {prov.get('seed', '?')}"), ""]
+    notes = [escape(n) for n in t.notes + t.priors]
+    L += _deluxetable(t.planets.columns, t.planets.rows, f"Planets of {sysname}. Medians and central "
+                      f"68.3\\,\\% intervals of {escape(intro_line(doc))}.", f"tab:{key}-planets", notes,
+                      t.planets.marks)
+    if t.pairs is not None:
+        L += [""] + _deluxetable(t.pairs.columns, t.pairs.rows, f"Adjacent pairs of {sysname}.",
+                                 f"tab:{key}-pairs", marks=t.pairs.marks)
+    rows = t.star + t.system
+    if rows:
+        cols = [Column("quantity", "Quantity", "Quantity", fmt="text"), Column("value", "Value", "Value"),
+                Column("unit", "Unit", "Unit", fmt="text")]
+        body = [[("text", c.latex), cell, ("text", c.unit_latex)] for c, cell in rows]
+        L += [""] + _deluxetable(cols, [[("raw", r[0][1]), r[1], ("raw", r[2][1])] for r in body],
+                                 f"Star and system-level quantities of {sysname}.", f"tab:{key}-system")
+    L += [""] + [_comment("Verdict: " + v) for v in t.verdicts]
+    if doc.get("disclaimer"):
+        L += ["", _comment(doc["disclaimer"])]
     return "\n".join(L) + "\n"
 
 

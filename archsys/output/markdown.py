@@ -1,8 +1,7 @@
 """Markdown report (GitHub-flavoured pipe tables), rendered from the report document."""
 from __future__ import annotations
 
-from .formats import (document_tables, intro_line, provenance_items, sampler_items,
-                      verdict_lines)
+from .tables import document_tables, intro_line, provenance_items, sampler_items
 
 __all__ = ["render_markdown", "md_cell"]
 
@@ -12,10 +11,12 @@ def _esc(s):
 
 
 def md_cell(cell):
-    """Markdown text of a format-neutral cell (see :func:`archsys.output.formats.format_cell`)."""
+    """Markdown text of a format-neutral cell (see :func:`archsys.output.numbers.format_value`)."""
     kind = cell[0]
     if kind == "none":
         return "—"
+    if kind == "inf":
+        return f"∞ ({_esc(cell[1])} of draws infinite)"
     if kind == "pm":
         v, m, p = cell[1:]
         return f"{v} ± {p}" if m == p else f"{v} +{p}/−{m}"
@@ -30,8 +31,9 @@ def _table(table):
     cols = table.columns
     out = ["| " + " | ".join(_head(c) for c in cols) + " |",
            "|" + "|".join([":--"] + ["--:"] * (len(cols) - 1)) + "|"]
-    for row in table.rows:
-        out.append("| " + " | ".join(md_cell(c) for c in row) + " |")
+    for i, row in enumerate(table.rows):
+        out.append("| " + " | ".join(md_cell(c) + table.marks.get((i, col.key), "")
+                                      for c, col in zip(row, cols)) + " |")
     return out
 
 
@@ -71,7 +73,8 @@ def render_markdown(doc, figures=None) -> str:
               "mean-motion resonance; probabilities are fractions of the draws.", ""]
     if t.system:
         L += ["## System", ""] + _kv(t.system) + [""]
-    L += ["## Verdicts", ""] + [f"- {_esc(v)}" for v in verdict_lines(doc)] + [""]
+    L += ["## Verdicts", ""] + [f"- {_esc(v)}" for v in t.verdicts] + [""]
+    L += ["## Priors", ""] + [f"- {_esc(v)}" for v in t.priors] + [""]
     if figures:
         L += ["## Figures", ""]
         for caption, path in figures:

@@ -6,7 +6,8 @@ only when writing to a terminal.
 """
 from __future__ import annotations
 
-from .numbers import fmt_summary
+from .numbers import plain_cell
+from .tables import document_tables, intro_line
 
 __all__ = ["render_text"]
 
@@ -43,94 +44,57 @@ def _table(rows, header, st):
     return out
 
 
-def _pct(p):
-    return "—" if p is None else f"{100 * p:.0f} %"
+def _head(col):
+    return col.label + (f" [{col.unit}]" if col.unit else "")
 
 
-def _verdict(p, st, yes="likely", no="unlikely"):
-    if p is None:
-        return "unknown"
-    if p >= 0.95:
-        return st.good(yes)
-    if p <= 0.05:
-        return st.bad(no)
-    return st.warn("uncertain")
+def _grid(table, st):
+    rows = [[plain_cell(c) + table.marks.get((i, col.key), "") for c, col in zip(row, table.columns)]
+            for i, row in enumerate(table.rows)]
+    return _table(rows, [_head(c) for c in table.columns], st)
 
 
-def _short(name, system):
-    return name[len(system):].strip() if name.startswith(system) and name != system else name
+def _kv(rows, st):
+    width = max((len(c.label) for c, _ in rows), default=0)
+    return ["  " + c.label.ljust(width) + "  " + plain_cell(cell) + (f" {c.unit}" if c.unit else "")
+            for c, cell in rows]
+
+
+def _tone(line, st):
+    """Colour a verdict line by its first percentage (terminal only)."""
+    import re
+    m = re.search(r"([<>]?)([0-9.]+) %", line)
+    if not m or "stable" not in line:
+        return line
+    x = float(m.group(2))
+    return st.good(line) if x >= 95 else st.bad(line) if x <= 5 else st.warn(line)
 
 
 def render_text(doc, colour=False) -> str:
+    """The terminal report of ``doc`` (the same table model and numbers as every other format)."""
     st = _Style(colour)
-    sysname = doc["system"]
-    L = [st.head(f"{sysname} — system architecture") + st.dim(f"   (archsys {doc['provenance']['package_version']})"), ""]
-    s = doc["star"]
-    star = [f"M* = {fmt_summary(s['mass_msun'])} M_sun"]
-    if "radius_rsun" in s:
-        star.append(f"R* = {fmt_summary(s['radius_rsun'])} R_sun")
-    if "density_gcc" in s:
-        star.append(f"rho* = {fmt_summary(s['density_gcc'])} g/cm3")
-    L.append(st.head("Star    ") + "   ".join(star))
-    smp = doc.get("sampler", {})
-    L.append(st.head("Draws   ") + f"{doc['provenance']['draws']} ({smp.get('method', '?')}), seed {doc['provenance']['seed']}")
-    if smp.get("converged") is False:
-        L.append(st.warn("        warning: the chain did not reach 50 autocorrelation times; treat intervals as rough"))
+    t = document_tables(doc)
+    sysname = doc.get("system", "system")
+    prov = doc.get("provenance") or {}
+    L = [st.head(f"{sysname} — system architecture") + st.dim(f"   (archsys {prov.get('package_version', '?')})"),
+         ""]
+    if t.star:
+        L.append(st.head("Star    ") + "   ".join(f"{c.label} = {plain_cell(cell)}" + (f" {c.unit}" if c.unit else "")
+                                                  for c, cell in t.star))
+    L.append(st.head("Draws   ") + intro_line(doc))
+    if (doc.get("sampler") or {}).get("converged") is False:
+        L.append(st.warn("        warning: the chain did not reach the convergence criterion; treat intervals as rough"))
     L += ["", st.head("Planets") + st.dim("   median and 68 % interval")]
-    rows = []
-    for p in doc["planets"]:
-        if "mass_mearth" in p:
-            mass = fmt_summary(p["mass_mearth"]) + ("" if p["mass_basis"].startswith("true") else " *")
-        elif "msini_mearth" in p:
-            mass = fmt_summary(p["msini_mearth"]) + " (min)"
-        else:
-            mass = "—"
-        ecc = fmt_summary(p["ecc"]) if "ecc" in p else "0 (assumed)"
-        inc = fmt_summary(p["inclination_deg"]) if "inclination_deg" in p else "—"
-        rows.append([_short(p["name"], sysname), fmt_summary(p["period_days"]), fmt_summary(p["a_au"]),
-                     mass, ecc, inc])
-    L += _table(rows, ["planet", "P [d]", "a [au]", "mass [M_E]", "e", "i_sky [deg]"], st)
-    notes = sorted({p["mass_basis"] for p in doc["planets"] if "mass_mearth" in p and not p["mass_basis"].startswith("true")})
-    for n in notes:
-        L.append(st.dim(f"  * mass {n}"))
-    if doc["pairs"]:
-        L += ["", st.head("Adjacent pairs")]
-        rows = []
-        for q in doc["pairs"]:
-            row = [f"{_short(q['inner'], sysname)}–{_short(q['outer'], sysname)}", fmt_summary(q["period_ratio"])]
-            row.append((q.get("nearest_mmr") or "— (wide)") + (f" ({100 * q['mmr_offset']['median']:+.2f} %)" if q.get("mmr_offset") else ""))
-            row.append(fmt_summary(q["hill_separation"]))
-            row.append(_pct(q.get("hill_stable_probability")))
-            if "amd_stable_probability" in q:
-                row.append(_pct(q.get("amd_stable_probability")))
-            if "mutual_inclination_deg" in q:
-                row.append(fmt_summary(q["mutual_inclination_deg"]))
-            elif "mutual_inclination_lower_bound_deg" in q:
-                row.append("≥ " + fmt_summary(q["mutual_inclination_lower_bound_deg"]))
-            rows.append(row)
-        header = ["pair", "P_out/P_in", "nearest MMR (offset)", "Δ [R_H,mutual]", "P(Hill stable)"]
-        if any("amd_stable_probability" in q for q in doc["pairs"]):
-            header.append("P(AMD stable)")
-        if any("mutual_inclination_deg" in q or "mutual_inclination_lower_bound_deg" in q for q in doc["pairs"]):
-            header.append("mutual incl. [deg]")
-        L += _table(rows, header, st)
-    L += ["", st.head("Verdicts")]
-    p_all = doc.get("all_pairs_hill_stable_probability")
-    if doc["pairs"]:
-        L.append(f"  Every adjacent pair Hill stable (Gladman 1993): {_verdict(p_all, st)} ({_pct(p_all)} of draws)")
-    else:
-        L.append("  Single planet: no pair scores.")
-    fl = doc.get("flatness")
-    if fl and "mutual_inclination_sigma_deg" in fl:
-        L.append(f"  Mutual-inclination dispersion sigma = {fmt_summary(fl['mutual_inclination_sigma_deg'])} deg; "
-                 f"largest mutual inclination {fmt_summary(fl['max_mutual_inclination_deg'])} deg")
-    elif fl:
-        L.append(st.dim("  Flatness: " + fl["basis"]))
-    if "gap_complexity" in doc:
-        L.append(f"  Gap complexity (Gilbert & Fabrycky 2020): {fmt_summary(doc['gap_complexity'])}")
-    if any(p["mass_basis"].startswith("minimum") for p in doc["planets"]):
-        L.append(st.dim("  Planets with only m sin i use it as their mass: their Hill spacings are upper limits."))
-    for extra in doc.get("verdicts", []):
-        L.append("  " + extra)
-    L += ["", st.dim("Note: " + doc["disclaimer"])]
+    L += _grid(t.planets, st)
+    L += [st.dim("  " + n) for n in t.notes]
+    if t.pairs is not None:
+        L += ["", st.head("Adjacent pairs")] + _grid(t.pairs, st)
+        L.append(st.dim("  Δ: separation in mutual Hill radii; offset: from the nearest mean-motion resonance; "
+                        "probabilities are fractions of the draws."))
+    if t.system:
+        L += ["", st.head("System")] + _kv(t.system, st)
+    L += ["", st.head("Verdicts")] + ["  " + _tone(v, st) for v in t.verdicts]
+    L += ["", st.head("Priors")] + ["  " + v for v in t.priors]
+    if doc.get("disclaimer"):
+        L += ["", st.dim("Note: " + doc["disclaimer"])]
     return "\n".join(L) + "\n"

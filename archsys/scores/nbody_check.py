@@ -10,8 +10,9 @@ import numpy as np
 
 from ..physics import nbody
 from .common import effective_mass
+from .registry import Column, Score, ScoreResult, register
 
-__all__ = ["nbody_block", "N_ORBITS_OUTER"]
+__all__ = ["nbody_block", "N_ORBITS_OUTER", "NbodyScore"]
 
 #: Default length of each integration in orbits of the *outermost* planet (``--nbody-orbits``).
 #: Counting in inner orbits would judge a wide system after a few orbits of its outer pair; MEGNO
@@ -58,3 +59,39 @@ def nbody_block(post, n_draws, jobs=1, seed=0, n_orbits=N_ORBITS_OUTER):
         "note": ("MEGNO near 2 means quasi-periodic over the integrated span; a finite integration cannot prove "
                  "long-term stability, and secular evolution acts on longer time-scales than this horizon"),
     }
+
+
+def _col(key, label, fmt="text", **kw):
+    return Column(f"nbody.{key}", f"N-body: {label}", f"N-body: {label}", fmt=fmt, table="system", **kw)
+
+
+class NbodyScore(Score):
+    """Runs only when the options ask for it (``options.nbody`` draws > 0)."""
+
+    name = "nbody"
+    order = 1000
+    columns = (
+        _col("draws", "draws integrated", "integer"),
+        _col("orbits_of_outer_planet", "horizon (orbits of the outer planet)", "number"),
+        _col("orbits_of_inner_planet", "horizon (orbits of the inner planet)", "number"),
+        _col("horizon_years", "horizon", "number", unit="yr", unit_latex="yr", unit_astropy="yr"),
+        _col("integrator", "integrator"),
+        _col("chaotic_fraction", "chaotic draws (MEGNO)", "percent"),
+        _col("encounter_fraction", "draws with close encounters", "percent"),
+        _col("megno.median", "median MEGNO", "number"),
+        _col("megno.max", "largest MEGNO", "number"),
+        _col("orientation", "orientations"),
+        _col("note", "note"),
+    )
+
+    def applies(self, ctx):
+        return ctx.n_pairs >= 1 and int(getattr(ctx.options, "nbody", 0) or 0) > 0
+
+    def summarise(self, ctx, arr):
+        o = ctx.options
+        return ScoreResult(system={"nbody": nbody_block(
+            ctx.post, o.nbody, jobs=getattr(o, "jobs", 1), seed=getattr(o, "seed", 0),
+            n_orbits=getattr(o, "nbody_orbits", None) or N_ORBITS_OUTER)})
+
+
+register(NbodyScore)

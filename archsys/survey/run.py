@@ -118,23 +118,17 @@ def _measured_ecc(planet):
 
 
 def _survey_extras(res):
-    """Scores the survey tables need that an older document may not carry yet."""
-    from ..inference.summary import summarize
-    from ..physics import spacing
-    doc, post = res.document, res.posterior
-    extra = {}
-    P = np.asarray(post["period"], dtype=float)
-    if "gap_complexity" not in doc and P.shape[1] >= 3:
-        extra["gap_complexity"] = summarize(spacing.gap_complexity(P))
-    pair_extra = []
-    for j, pair in enumerate(doc.get("pairs", [])):
-        e = {}
-        if "nearest_mmr" not in pair:
-            r = P[:, j + 1] / P[:, j]
-            jj, kk, _ = spacing.nearest_mmr(np.median(r))
-            e["nearest_mmr"] = spacing.mmr_label(int(jj), int(kk))
-            e["mmr_offset"] = summarize(r / (int(jj) / (int(jj) - int(kk))) - 1.0)
-        pair_extra.append(e)
+    """Scores the survey tables need that an older document may not carry yet: from the score registry."""
+    doc = res.document
+    pairs = doc.get("pairs", [])
+    if "gap_complexity" in doc or len(doc.get("planets", [])) < 3:
+        if all("nearest_mmr" in p for p in pairs):
+            return {}, [{} for _ in pairs]
+    from ..scores import compute_scores
+    sc = compute_scores(res.posterior, res.options)
+    extra = {k: sc["system"][k] for k in ("gap_complexity",) if k not in doc and k in sc["system"]}
+    pair_extra = [{k: q[k] for k in ("nearest_mmr", "mmr_offset") if k not in p and k in q}
+                  for p, q in zip(pairs, sc["pairs"])]
     return extra, pair_extra
 
 

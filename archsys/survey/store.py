@@ -276,6 +276,8 @@ def flatten(prefix, value, out, depth=0):
         if "median" in value:
             for k in SUMMARY_KEYS:
                 out[f"{prefix}_{k}"] = value.get(k)
+            if "infinite_fraction" in value:       # infinite percentiles are blank: say how many draws are
+                out[f"{prefix}_infinite_fraction"] = value["infinite_fraction"]
         elif depth < 2:
             for k, v in value.items():
                 flatten(f"{prefix}_{k}", v, out, depth + 1)

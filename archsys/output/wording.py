@@ -1,0 +1,182 @@
+"""The English of the reports: verdict sentences, caveats and the priors that ran.
+
+Scores produce structured verdicts (code, subjects, probability, criterion,
+citation, caveat codes; see :func:`archsys.scores.registry.verdict`); this
+module is the one place that turns them into sentences.  Percentages go through
+:func:`archsys.output.numbers.fmt_percent`, the formatter every table uses, so a
+verdict and a table cell never disagree.
+"""
+from __future__ import annotations
+
+from .numbers import fmt_percent, short_name
+
+__all__ = ["verdict_sentences", "verdict_sentence", "prior_lines", "unconstrained_planets", "ORDER_WORD",
+           "DISCLAIMER_AMD"]
+
+ORDER_WORD = {1: "first", 2: "second", 3: "third"}
+DISCLAIMER_AMD = ("AMD instability means collisions are not excluded by secular dynamics, "
+                  "not that they happen.")
+
+
+def _order(k):
+    try:
+        return ORDER_WORD.get(int(k), f"order-{int(k)}")
+    except (TypeError, ValueError):
+        return "unknown-order"
+
+
+def _likely(p, yes="likely", no="unlikely"):
+    if p is None:
+        return "unknown"
+    return yes if p >= 0.95 else no if p <= 0.05 else "uncertain"
+
+
+def _names(doc, names):
+    sysname = doc.get("system", "")
+    return [short_name(n, sysname) for n in names]
+
+
+def _pair(doc, subjects):
+    return "–".join(_names(doc, subjects))
+
+
+def _join(xs):
+    return ", ".join(xs)
+
+
+def unconstrained_planets(doc, what="ecc"):
+    """Short names of planets whose ``what`` ("ecc") comes from the prior or an assumption, not data.
+
+    Returns ``{"prior": [...], "assumed": [...], "loose": [...]}``: eccentricities
+    the posterior notes call "prior only" (no eccentricity data), those "assumed
+    circular", and measured ones whose 68 % interval is nearly as wide as the
+    prior's (``not_constrained_by_data`` in the document).
+    """
+    out = {"prior": [], "assumed": [], "loose": []}
+    key = {"ecc": "ecc_basis", "inc": "inclination_basis"}[what]
+    for p in doc.get("planets", []):
+        basis = str(p.get(key) or "")
+        name = short_name(p.get("name", "?"), doc.get("system", ""))
+        if "prior only" in basis:
+            out["prior"].append(name)
+        elif "assumed circular" in basis:
+            out["assumed"].append(name)
+        elif what in (p.get("not_constrained_by_data") or []):
+            out["loose"].append(name)
+    return out
+
+
+def _caveat_sentences(doc, v):
+    caveats = v.get("caveats") or []
+    out = []
+    ecc = unconstrained_planets(doc)
+    if "assumed_circular" in caveats and ecc["assumed"]:
+        noun = "AMD" if v["code"] == "amd_stable_system" else "this verdict"
+        out.append(f"This rests on the assumption that {_join(ecc['assumed'])} "
+                   f"{'is' if len(ecc['assumed']) == 1 else 'are'} on circular orbits (no eccentricity data): "
+                   f"{noun} is computed from assumed, not measured, eccentricities.")
+    if "prior_only_eccentricity" in caveats and ecc["prior"]:
+        out.append(f"Not constrained by the data: the eccentricities of {_join(ecc['prior'])} are the prior's "
+                   "(no eccentricity data), and they drive this verdict.")
+    if "weak_eccentricity" in caveats and ecc["loose"]:
+        out.append(f"Barely constrained by the data: the eccentricities of {_join(ecc['loose'])} have 68 % "
+                   "intervals nearly as wide as the prior's, and they drive this verdict.")
+    if "minimum_masses" in caveats:
+        mins = [short_name(p.get("name", "?"), doc.get("system", "")) for p in doc.get("planets", [])
+                if str(p.get("mass_basis", "")).startswith("minimum")]
+        if mins:
+            out.append(f"{_join(mins)} {'has' if len(mins) == 1 else 'have'} only m sin i, used as the mass, "
+                       "so the Hill spacings involving "
+                       f"{'it' if len(mins) == 1 else 'them'} are upper limits.")
+    if "near_resonance_analytic" in caveats:
+        near = [_pair(doc, [q["inner"], q["outer"]]) for q in doc.get("pairs", [])
+                if (q.get("near_resonance_probability") or 0) >= 0.5]
+        out.append(f"Pairs near resonance ({_join(near)}): analytic criteria can call a resonant chain stable "
+                   "that short N-body integrations show to be chaotic; integrate (--nbody) before relying on it.")
+    if "prior_only_orientation" in caveats:
+        out.append("The orientations are prior only: the data do not constrain this.")
+    return out
+
+
+def verdict_sentence(doc, v, said=None):
+    """One verdict (a structured verdict mapping) as an English sentence, caveats appended.
+
+    ``said``: a set of caveat sentences already given (each is given once per report).
+    """
+    code, p, subj = v.get("code", ""), v.get("probability"), v.get("subjects") or []
+    pct = fmt_percent(p)
+    cite = v.get("citation") or ""
+    if code == "hill_stable_all_pairs" and p is None:
+        s = f"Every adjacent pair Hill stable ({cite}): cannot be assessed (a planet mass is unknown)."
+    elif code == "hill_stable_all_pairs":
+        s = f"Every adjacent pair Hill stable ({cite}): {_likely(p)} ({pct} of draws)."
+    elif code == "amd_stable_system":
+        word = "AMD stable" if p >= 0.95 else "AMD unstable" if p <= 0.05 else "possibly AMD unstable"
+        incl = "coplanar orbits: no orientation posterior" if "coplanar_amd" in (v.get("caveats") or []) \
+            else "tilts from the reference plane"
+        s = f"System {word}: AMD-stable in {pct} of draws ({cite}; {incl}). {DISCLAIMER_AMD}"
+    elif code == "near_resonance":
+        d = v.get("details") or {}
+        s = f"{_pair(doc, subj)} near the {d.get('mmr', '?')} ({_order(d.get('order'))}-order) resonance in {pct} of draws"
+        if d.get("nearest_mmr") and d.get("nearest_mmr") != d.get("mmr"):
+            s += f"; the nearest tabulated resonance is {d['nearest_mmr']} ({_order(d.get('nearest_order'))} order)"
+        s += "."
+    elif code == "resonant_chain":
+        s = "Resonant chain: " + " – ".join(_names(doc, subj)) + "."
+    elif code == "resonance_overlap":
+        s = (f"{_pair(doc, subj)} inside the first-order resonance-overlap (chaotic) zone in {pct} of draws "
+             f"({cite}).")
+    elif code == "flat_within_5_deg":
+        s = f"All orbits within 5° of a common plane in {pct} of draws."
+    elif code == "close_spacing_heuristic":
+        s = (f"Closest pair below 10 mutual Hill radii in {pct} of draws: for three or more planets this is "
+             f"often unstable on Gyr time-scales (heuristic; {cite}).")
+    else:                       # a score without wording yet: its code and criterion, never dropped
+        who = _join(_names(doc, subj))
+        s = f"{v.get('criterion') or code}" + (f" ({who})" if who else "") + \
+            (f": {pct} of draws" if p is not None else "") + (f" ({cite})" if cite else "") + "."
+    said = set() if said is None else said
+    extra = [c for c in _caveat_sentences(doc, v) if c not in said]
+    said.update(extra)
+    return " ".join([s] + extra)
+
+
+def verdict_sentences(doc, structured):
+    """Sentences of every structured verdict, in order (each caveat given once)."""
+    said = set()
+    return [verdict_sentence(doc, v, said) for v in structured or []]
+
+
+def prior_lines(doc):
+    """Which priors ran, as sentences (every format states them)."""
+    prov = doc.get("provenance") or {}
+    priors = prov.get("priors") or {}
+    method = str((doc.get("sampler") or {}).get("method", ""))
+    out = []
+    for q, pr in priors.items():
+        what = {"eccentricity": "eccentricity", "mutual_inclination_sigma": "mutual-inclination dispersion σ",
+                "stability": "stability"}.get(q, q.replace("_", " "))
+        if isinstance(pr, dict):
+            text = str(pr.get("name", "?")) + (f" ({pr['citation']})" if pr.get("citation") else "")
+            if pr.get("from_memory"):
+                text += " [numbers from memory]"
+            if pr.get("default"):
+                text += " — the default"
+        else:
+            text = str(pr)
+        out.append(f"Prior on {what}: {text}.")
+    if not priors:
+        if "direct" not in method.lower():
+            out.append("Priors: not recorded by the sampler.")
+        else:
+            out.append("Priors: none beyond the input summaries (direct draws of each summary within its "
+                       "physical range); planets without eccentricity data are taken as circular.")
+    ecc = unconstrained_planets(doc)
+    if ecc["prior"]:
+        out.append(f"Not constrained by the data (prior only): eccentricity of {_join(ecc['prior'])}.")
+    if ecc["loose"]:
+        out.append(f"Barely constrained by the data (68 % interval nearly as wide as the prior's): "
+                   f"eccentricity of {_join(ecc['loose'])}.")
+    if ecc["assumed"]:
+        out.append(f"Assumed, not measured: circular orbits for {_join(ecc['assumed'])}.")
+    return out

@@ -1,0 +1,197 @@
+"""The score registry: every architecture score is one module that registers itself here.
+
+A score declares
+
+* what it computes on every posterior draw (:meth:`Score.per_draw`, arrays shaped
+  ``(n_draws,)`` or ``(n_draws, n_pairs)``, shared with later scores through
+  :attr:`ScoreContext.arrays`);
+* how those draws are summarised into JSON-ready values (:meth:`Score.summarise`:
+  one mapping per adjacent pair and/or one mapping of system-level keys);
+* the metadata of every column it writes (:class:`Column`: key, human label,
+  LaTeX label, unit, number format), which every output format reads; and
+* optionally structured verdicts (:meth:`Score.verdicts`): codes, subjects and
+  probabilities, never English (the wording lives in :mod:`archsys.output.wording`).
+
+:func:`archsys.scores.compute_scores` runs the registered scores in ``order``.
+Adding a score means one new module in ``archsys/scores/`` that calls
+:func:`register` at import time (every module of the package is imported by
+:mod:`archsys.scores`), plus its tests; nothing else changes.
+"""
+from __future__ import annotations
+
+import contextlib
+from dataclasses import dataclass, field
+
+__all__ = ["Column", "Score", "ScoreContext", "ScoreResult", "register", "unregister", "registered",
+           "registered_scores", "column", "score_columns", "FORMATS"]
+
+#: Number formats a column may declare (read by :func:`archsys.output.numbers.format_value`).
+FORMATS = ("summary", "percent", "integer", "number", "text", "names")
+
+
+@dataclass(frozen=True)
+class Column:
+    """Metadata of one document key, read by every output format and by the figures.
+
+    ``key`` is the JSON key; a key inside a system-level block is written
+    ``"block.key"`` (e.g. ``"amd.system_stable_probability"``).  ``label`` is
+    the human label (plain Unicode), ``latex`` the LaTeX label, ``unit`` the
+    plain unit, ``unit_latex`` its LaTeX form and ``unit_astropy`` an astropy
+    unit string (tables with units in the Python API).  ``fmt`` is one of
+    :data:`FORMATS`; ``scale`` multiplies values for display (a fraction shown in
+    per cent has scale 100 and unit "%").  ``table`` is "planet", "pair", "star"
+    or "system".  ``show=False`` keeps a column in the JSON but out of the
+    human-readable tables (e.g. a value that another row already shows).
+    """
+
+    key: str
+    label: str
+    latex: str
+    unit: str = ""
+    unit_latex: str = ""
+    fmt: str = "summary"
+    scale: float = 1.0
+    table: str = "pair"
+    unit_astropy: str = ""
+    show: bool = True
+    description: str = ""
+
+    def __post_init__(self):
+        if self.fmt not in FORMATS:
+            raise ValueError(f"column {self.key!r}: fmt must be one of {FORMATS}; got {self.fmt!r}")
+        if self.table not in ("planet", "pair", "star", "system"):
+            raise ValueError(f"column {self.key!r}: table must be planet, pair, star or system")
+
+
+@dataclass
+class ScoreContext:
+    """What a score sees: the posterior, the options and everything computed before it."""
+
+    post: object
+    options: object = None
+    arrays: dict = field(default_factory=dict)      # per-draw arrays of earlier scores
+    pairs: list = field(default_factory=list)       # per-pair JSON entries built so far
+    system: dict = field(default_factory=dict)      # system-level JSON keys built so far
+
+    @property
+    def names(self):
+        return list(self.post.system.planet_names)
+
+    @property
+    def n_pairs(self):
+        return max(len(self.names) - 1, 0)
+
+    def note(self, planet, what):
+        """The posterior's note on how ``what`` (mass, ecc, inc) of ``planet`` was obtained."""
+        return str((self.post.notes or {}).get(planet, {}).get(what, "") or "")
+
+
+@dataclass
+class ScoreResult:
+    """Summaries of one score: ``pairs`` (one mapping per adjacent pair) and ``system`` keys."""
+
+    pairs: list | None = None
+    system: dict = field(default_factory=dict)
+
+
+class Score:
+    """Base class of a registered score (subclass it and call :func:`register`).
+
+    Attributes
+    ----------
+    name : str
+        Unique name of the score.
+    order : float
+        Scores run and their keys appear in increasing ``order``; a score that
+        reads another score's arrays must have a larger order.
+    verdict_order : float, optional
+        Position of the score's verdicts in the report (default ``order``).
+    columns : tuple of Column
+        Metadata of every key the score writes.
+    """
+
+    name = ""
+    order = 100.0
+    verdict_order = None          # position of its verdicts in the report (default: ``order``)
+    columns: tuple = ()
+
+    def applies(self, ctx: ScoreContext) -> bool:
+        """Whether the score is defined for this posterior (default: systems with a pair)."""
+        return ctx.n_pairs >= 1
+
+    def per_draw(self, ctx: ScoreContext) -> dict:
+        """Arrays of the score on every draw, keyed by name (added to ``ctx.arrays``)."""
+        return {}
+
+    def summarise(self, ctx: ScoreContext, arrays: dict) -> ScoreResult:
+        """JSON-ready summaries of the per-draw arrays."""
+        return ScoreResult()
+
+    def verdicts(self, ctx: ScoreContext) -> list:
+        """Structured verdicts (see :func:`verdict`), read after every score has run."""
+        return []
+
+
+_REGISTRY: dict = {}
+
+
+def register(score):
+    """Add ``score`` (an instance, or a :class:`Score` subclass) to the registry; returns it."""
+    if isinstance(score, type):
+        score = score()
+    if not score.name:
+        raise ValueError("a score needs a name")
+    _REGISTRY[score.name] = score
+    return score
+
+
+def unregister(name):
+    _REGISTRY.pop(getattr(name, "name", name), None)
+
+
+@contextlib.contextmanager
+def registered(score):
+    """Register ``score`` for the duration of a ``with`` block (tests, notebooks)."""
+    s = register(score)
+    try:
+        yield s
+    finally:
+        unregister(s.name)
+
+
+def registered_scores():
+    """The registered scores in run order."""
+    from . import load_builtin
+    load_builtin()
+    return sorted(_REGISTRY.values(), key=lambda s: (s.order, s.name))
+
+
+def score_columns(table=None):
+    """Columns of every registered score (of one ``table`` if given), in score order."""
+    out = []
+    for s in registered_scores():
+        out += [c for c in s.columns if table is None or c.table == table]
+    return out
+
+
+def column(key, table=None):
+    """The :class:`Column` of a document key (planet/star keys and every score), or None.
+
+    This is the one place figures and renderers get a key's label, LaTeX label and unit.
+    """
+    from .columns import BASE_COLUMNS
+    for c in list(BASE_COLUMNS) + score_columns():
+        if c.key == key and (table is None or c.table == table):
+            return c
+    return None
+
+
+def verdict(code, probability=None, subjects=(), criterion="", citation="", caveats=(), **details):
+    """A structured verdict: JSON-ready, no English (worded in :mod:`archsys.output.wording`)."""
+    out = {"code": code, "subjects": list(subjects), "probability": probability,
+           "criterion": criterion, "citation": citation}
+    if caveats:
+        out["caveats"] = list(caveats)
+    if details:
+        out["details"] = details
+    return out
