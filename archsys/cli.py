@@ -1,18 +1,31 @@
-"""Command-line interface: parse arguments, call the library, return an exit code.
+"""Command-line interface: a thin layer that parses arguments, builds the typed options
+(:mod:`archsys.options`), calls the library and returns an exit code.
 
-Exit status: 0 success, 2 bad input (one clear line per problem on stderr, no
-traceback unless --debug), 1 internal error.
+Exit status: 0 success, 2 bad input, a bad argument or an output that cannot be
+written (one clear line per problem on stderr, no traceback unless --debug),
+1 internal error, 130 interrupted.
 """
 from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 import warnings
 
 from .errors import InputError
 
-__all__ = ["main"]
+__all__ = ["main", "build_parser"]
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line usage errors (``archsys: error: ...``, exit 2)."""
+
+    def error(self, message):
+        from .output.files import printable
+        sys.stderr.write(f"archsys: error: {printable(' '.join(message.split()))} "
+                         f"(see `{self.prog} --help`)\n")
+        sys.exit(2)
 
 
 def _demo_files():
@@ -30,12 +43,15 @@ def _demo_files():
 
 
 def _add_analysis_options(p):
+    from .options import FAST_DRAWS, MAX_DRAWS, Mode
+    from .inference.draws import DEFAULT_DRAWS
     g = p.add_argument_group("analysis")
-    g.add_argument("--seed", type=int, default=0, help="random seed (same seed, same numbers; default 0)")
-    g.add_argument("--draws", type=int, default=None, help="posterior draws to keep (default 4000)")
-    g.add_argument("--mode", choices=["auto", "direct", "mcmc", "fast"], default="auto",
+    g.add_argument("--seed", type=int, default=0, help="random seed, >= 0 (same seed, same numbers; default 0)")
+    g.add_argument("--draws", type=int, default=None,
+                   help=f"posterior draws to keep (default {DEFAULT_DRAWS}; at most {MAX_DRAWS})")
+    g.add_argument("--mode", choices=[m.value for m in Mode], default="auto",
                    help="auto: MCMC when a joint constraint binds, direct draws otherwise; "
-                        "direct: never MCMC; mcmc: always; fast: direct draws only, 1000 of them "
+                        f"direct: never MCMC; mcmc: always; fast: direct draws only, {FAST_DRAWS} of them "
                         "(for large surveys)")
     g.add_argument("--prior", dest="ecc_prior", default=None, metavar="NAME_OR_FILE",
                    help="eccentricity prior (see `archsys priors`)")
@@ -43,7 +59,7 @@ def _add_analysis_options(p):
                    help="prior on the mutual-inclination dispersion sigma")
     g.add_argument("--require-stable", action="store_true",
                    help="add Hill/AMD stability of every adjacent pair as a prior")
-    g.add_argument("--max-steps", type=int, default=None, help="cap on MCMC steps per walker")
+    g.add_argument("--max-steps", type=int, default=None, help="cap on MCMC steps per walker (>= 1)")
     g.add_argument("--nbody", type=int, default=0, metavar="N",
                    help="integrate N posterior draws with rebound and MEGNO (extra 'nbody')")
     g.add_argument("--nbody-orbits", type=float, default=1000.0, metavar="ORBITS",
@@ -53,41 +69,108 @@ def _add_analysis_options(p):
     g.add_argument("--quiet", action="store_true", help="no progress bar")
 
 
-def _options(args):
-    from .pipeline import AnalysisOptions
-    from .inference.draws import DEFAULT_DRAWS
-    n = args.draws or (1000 if args.mode == "fast" else DEFAULT_DRAWS)
-    if n < 10:
-        raise InputError(f"--draws must be at least 10; got {n}")
-    return AnalysisOptions(n_draws=n, seed=args.seed, mode=args.mode, ecc_prior=args.ecc_prior,
+def options_from_args(args):
+    """The :class:`~archsys.options.AnalysisOptions` of parsed arguments (validated)."""
+    from .options import AnalysisOptions
+    return AnalysisOptions(n_draws=args.draws, seed=args.seed, mode=args.mode, ecc_prior=args.ecc_prior,
                            incl_prior=args.incl_prior, require_stable=args.require_stable,
-                           quiet=args.quiet, max_steps=args.max_steps, nbody=args.nbody, nbody_orbits=args.nbody_orbits, jobs=args.jobs)
+                           quiet=args.quiet, max_steps=args.max_steps, nbody=args.nbody,
+                           nbody_orbits=args.nbody_orbits, jobs=args.jobs)
+
+
+def _warn_unused(opts):
+    unused = opts.unused()
+    if unused:
+        sys.stderr.write(f"archsys: warning: {', '.join(unused)} ha{'s' if len(unused) == 1 else 've'} no "
+                         f"effect with --mode {opts.mode} (direct draws use no prior and no sampler); "
+                         f"the provenance records no prior as used\n")
+
+
+def _note(msg):
+    from .output.files import printable
+    sys.stderr.write(f"archsys: {printable(msg)}\n")
 
 
 def _cmd_report(args):
     from . import read_system
     from .pipeline import analyze
-    from .output.text import render_text
     files = args.files or _demo_files()
-    systems = [read_system(f) for f in files]   # validate everything before any output
-    opts = _options(args)
-    results = [analyze(s, opts) for s in systems]
+    opts = options_from_args(args)                # refuse bad arguments before reading anything
     if args.out or args.figures:
-        from .output.formats import write_outputs
-        for r in results:
-            write_outputs(r, out_dir=args.out, fig_dir=args.figures, preset=getattr(args, "preset", None),
-                          corner_params=args.corner_params)
+        from .output.style import get_preset
+        get_preset(args.preset)
+    systems = [read_system(f) for f in files]   # validate everything before any output
+    _warn_unused(opts)
+    from .progress import progress_bar
+    bar = progress_bar(len(systems), quiet=args.quiet or len(systems) < 2, desc="report")
+    results = []
+    try:
+        for s in systems:
+            results.append(analyze(s, opts))
+            bar.update(1)
+    finally:
+        bar.close()
+    if args.out or args.figures:
+        _write_report_files(results, args)
     fmt = "json" if args.json else args.format
     if fmt == "json":
         docs = [r.document for r in results]
-        sys.stdout.write(json.dumps(docs[0] if len(docs) == 1 else docs, indent=2, allow_nan=False) + "\n")
+        text = json.dumps(docs[0] if len(docs) == 1 else docs, indent=2, allow_nan=False) + "\n"
     elif fmt == "text":
+        from .output.text import render_text
         colour = sys.stdout.isatty() and not args.no_colour
-        sys.stdout.write("\n".join(render_text(r.document, colour=colour) for r in results))
+        text = "\n".join(render_text(r.document, colour=colour) for r in results)
     else:
         from .output.formats import render
-        sys.stdout.write("\n".join(render(r, fmt, preset=args.preset) for r in results))
+        text = "\n".join(render(r, fmt, preset=args.preset) for r in results)
+    _write_stdout(text)
     return 0
+
+
+def _write_report_files(results, args):
+    """Every file of every system, staged and moved into place only when all are written."""
+    from .output.files import StagedOutput, unique_stems
+    from .output.formats import write_outputs
+    names = [r.document.get("system", "system") for r in results]
+    stems, renamed = unique_stems(names)
+    with StagedOutput(args.out, args.figures) as st:
+        for r, stem in zip(results, stems):
+            write_outputs(r, out_dir=args.out, fig_dir=args.figures, preset=args.preset, stem=stem,
+                          corner_params=args.corner_params)
+    for name, stem in renamed:
+        _note(f"note: system '{name}' is written as '{stem}.*' (its file name would collide with another "
+              f"system's)")
+    from .output.numbers import short_name
+    for r, stem in zip(results, stems):        # planets' corner plots (same rule as output.figures)
+        doc = r.document
+        letters = [short_name(p.get("name", "?"), doc.get("system", "")) for p in doc.get("planets", [])]
+        for name, pstem in unique_stems(letters, fallback="planet", reserved=("system",))[1]:
+            _note(f"note: planet '{name}' of '{doc.get('system')}': its corner plot is '{stem}_corner_{pstem}' "
+                  f"(the file name would collide with another's)")
+    where = [d for d in (args.out, args.figures) if d]
+    _note(f"wrote {len(st.written)} files to {' and '.join(where)}")
+
+
+def _write_stdout(text):
+    """Write the report to standard output; a write error is an InputError-style exit (2)."""
+    try:
+        sys.stdout.write(text)
+        sys.stdout.flush()
+    except BrokenPipeError:
+        raise
+    except OSError as exc:
+        _silence_stdout()
+        raise InputError(f"cannot write to standard output: {exc.strerror or exc}") from None
+
+
+def _silence_stdout():
+    """Point stdout at /dev/null so that the interpreter's final flush cannot fail again."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError, AttributeError):
+        pass
 
 
 def _cmd_priors(args):
@@ -97,25 +180,48 @@ def _cmd_priors(args):
         flag = "  [from memory]" if p.from_memory else ""
         params = ", ".join(f"{k}={v:g}" if isinstance(v, (int, float)) else f"{k}={v}" for k, v in p.parameters.items())
         rows.append(f"{p.name:<28} {p.quantity:<26} {p.family}({params})\n{'':<28} {p.citation}{flag}")
-    sys.stdout.write("\n".join(rows) + "\n")
+    _write_stdout("\n".join(rows) + "\n")
     return 0
 
 
 def _cmd_survey(args):
-    from .survey.run import run_survey_cli
-    return run_survey_cli(args)
+    from .options import SurveyOptions
+    from .survey.run import run_survey
+    opts = options_from_args(args)
+    sopts = SurveyOptions(columns=args.columns, where=tuple(args.where or ()), resume=args.resume,
+                          scheduler=args.scheduler, limit=args.limit, figures=not args.no_figures)
+    _warn_unused(opts)
+    pop = run_survey(args.catalog, args.out, opts, sopts, debug=getattr(args, "debug", False))
+    c = pop["counts"]
+    if not args.quiet:
+        _note(f"survey: {c['systems_selected']} systems: {c['systems_analysed']} analysed, "
+              f"{c['systems_rejected']} rejected (see {os.path.join(args.out, 'rejects.csv')})")
+    for line in pop.get("_notes", []):
+        _note(line)
+    if c["rejected_analysis_error"]:
+        _note(f"survey: warning: {c['rejected_analysis_error']} systems failed inside the analysis "
+              f"(reason 'analysis failed: ...' in rejects.csv); please report them")
+    _note(f"wrote the survey tables and population.json to {args.out}")
+    return 0
 
 
 def _cmd_plot(args):
+    from .model.inputfile import check_regular_file
     from .output.figures import plot_saved
-    plot_saved(args.result, args.figures, preset=args.preset, corner_params=args.corner_params)
+    from .output.files import StagedOutput
+    from .output.style import get_preset
+    get_preset(args.preset)
+    check_regular_file(args.result, "chains file (.npz)", max_bytes=4 << 30)
+    with StagedOutput(args.figures) as st:
+        plot_saved(args.result, args.figures, preset=args.preset, corner_params=args.corner_params)
+    _note(f"wrote {len(st.written)} files to {args.figures}")
     return 0
 
 
 def _cmd_stack(args):
     from .stacking import collect_documents, sort_documents, write_stacked_figure
     has_files = any(str(f).lower().endswith(".toml") for f in args.inputs)
-    docs = collect_documents(args.inputs, options=_options(args) if has_files else None, where=args.where)
+    docs = collect_documents(args.inputs, options=options_from_args(args) if has_files else None, where=args.where)
     key = args.sort_by
     if key and args.descending and not key.startswith("-"):
         key = "-" + key
@@ -130,10 +236,12 @@ _CORNER_HELP = ("the paper corner figure: parameters to show, e.g. 'e_b,m_b,m_c'
 
 
 def build_parser():
-    ap = argparse.ArgumentParser(prog="archsys", description="Architecture of multi-planet systems "
-                                 "from catalogue measurements.")
+    from . import __version__
+    ap = _Parser(prog="archsys", description="Architecture of multi-planet systems "
+                 "from catalogue measurements.")
+    ap.add_argument("--version", action="version", version=f"archsys {__version__}")
     ap.add_argument("--debug", action="store_true", help="show tracebacks")
-    sub = ap.add_subparsers(dest="command", required=True)
+    sub = ap.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
     r = sub.add_parser("report", help="analyse system files and report (no file: the bundled demo systems)")
     r.add_argument("files", nargs="*", help="system files (TOML)")
@@ -149,6 +257,7 @@ def build_parser():
     r.set_defaults(func=_cmd_report)
 
     p = sub.add_parser("priors", help="list the bundled published priors with citations")
+    p.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     p.set_defaults(func=_cmd_priors)
 
     s = sub.add_parser("survey", help="batch analysis of a planet-per-row catalogue")
@@ -195,7 +304,8 @@ def build_parser():
 
 
 def _one_line_warnings(message, category, filename, lineno, file=None, line=None):
-    sys.stderr.write(f"archsys: warning: {' '.join(str(message).split())}\n")
+    from .output.files import printable
+    sys.stderr.write(f"archsys: warning: {printable(' '.join(str(message).split()))}\n")
 
 
 def main(argv=None):
@@ -211,15 +321,22 @@ def main(argv=None):
     except InputError as exc:
         if debug:
             raise
+        from .output.files import printable
         lines = getattr(exc, "problems", None) or [str(exc)]
         for line in lines:
-            sys.stderr.write(f"archsys: error: {line}\n")
+            sys.stderr.write(f"archsys: error: {printable(line)}\n")
         return 2
     except KeyboardInterrupt:
         sys.stderr.write("archsys: interrupted\n")
         return 130
     except BrokenPipeError:
+        _silence_stdout()
         return 0
+    except MemoryError:
+        if debug:
+            raise
+        sys.stderr.write("archsys: error: out of memory; use fewer --draws or fewer systems at once\n")
+        return 2
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -7,32 +7,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from .inference.draws import DEFAULT_DRAWS, direct_draws
+from .inference.draws import direct_draws
 from .inference.posterior import Posterior
+from .options import AnalysisOptions, Mode
 from .output.document import build_document
 
 __all__ = ["AnalysisOptions", "Analysis", "analyze"]
-
-
-@dataclass(frozen=True)
-class AnalysisOptions:
-    """Settings of one analysis (they are recorded in the provenance block)."""
-
-    n_draws: int = DEFAULT_DRAWS
-    seed: int = 0
-    mode: str = "auto"          # "auto": MCMC when a joint constraint binds; "direct"; "mcmc";
-    #                             "fast": direct draws only (no MCMC), fewer draws
-    ecc_prior: str | None = None
-    incl_prior: str | None = None
-    require_stable: bool = False
-    quiet: bool = True
-    max_steps: int | None = None
-    nbody: int = 0              # number of draws to integrate (0 = no N-body check)
-    nbody_orbits: float = 1000.0  # N-body horizon in orbits of the outermost planet
-    jobs: int = 1
-
-    def as_dict(self):
-        return {k: getattr(self, k) for k in self.__dataclass_fields__ if k not in ("quiet", "jobs")}
 
 
 @dataclass
@@ -52,8 +32,8 @@ JOINT_ENGINE = "joint"
 def _posterior(system, opts: AnalysisOptions) -> Posterior:
     from .inference import sampler
     # "fast" trades depth for speed in large surveys: direct draws only, never the joint engine
-    if opts.mode not in ("direct", "fast"):
-        if opts.mode == "mcmc" or sampler.needs_mcmc(system, opts):
+    if opts.uses_mcmc:
+        if opts.mode is Mode.MCMC or sampler.needs_mcmc(system, opts):
             if JOINT_ENGINE == "v0.1.0":
                 return sampler.sample_full_model(system, opts)
             return sampler.sample_system(system, opts)

@@ -93,10 +93,40 @@ BAD = {
     "planet_not_array.toml": ["'planet'", "[[planet]]"],
     "planet_entry_not_table.toml": ["planet #1", "planet #2"],
     "too_many_planets.toml": ["65 planets", "64"],
+    # one problem, one line (issue: a misspelt key or a misplaced table gave two or three lines)
+    "bom_only.toml": ["file is empty", "byte-order mark"],
+    "comments_only.toml": ["holds no system"],
+    "planets_inside_star.toml": ["star", "'planet'", "top level"],
+    "planets_plural.toml": ["'planets'", "did you mean 'planet'"],
+    "unknown_star_key_mas.toml": ["star", "'mas'", "did you mean 'mass'"],
+    "unknown_top_key_nmae.toml": ["'nmae'", "did you mean 'name'"],
+    "unknown_table_sta.toml": ["'sta'", "did you mean 'star'"],
+    # top-level keys that used to pass whatever their value
+    "reference_plane_number.toml": ["'reference_plane'", "'sky'", "42"],
+    "reference_plane_unknown.toml": ["'reference_plane'", "galactic", "'ecliptic'"],
+    "notes_not_string.toml": ["'notes'", "string"],
+    # m sin i above the true mass beyond the errors
+    "msini_above_mass.toml": ["planet 'Bad b'", "'msini'", "cannot exceed"],
+    # control characters would reach terminals, LaTeX and HTML raw
+    "name_with_escape.toml": ["'name'", "control characters"],
+    "planet_name_with_nul.toml": ["planet #1", "control characters"],
+    "star_name_with_newline.toml": ["star", "'name'", "control characters"],
+    # valid-looking extremes refused with the accepted range (issue 11)
+    "period_subnormal.toml": ["'period'", "4.94066e-324", "[1e-06, 1e+12]"],
+    "period_err_1e308.toml": ["'period'", "1e+308", "largest accepted"],
+    "period_1e13_days.toml": ["'period'", "1e+13"],
+    "star_mass_1e5.toml": ["star", "'mass'", "100000"],
+    # a true mass from K or m sin i with sin i -> 0 is not below the stellar mass (Kepler III)
+    "inclination_180_with_k.toml": ["planet 'Bad b'", "'inclination'", "180", "stellar mass"],
+    "inclination_0_with_msini.toml": ["planet 'Bad b'", "'inclination'", "stellar mass"],
+    "inclination_nearly_face_on_with_k.toml": ["'inclination'", "0.0001", "stellar mass"],
 }
+#: Files with more than one problem (every other file must give exactly one line).
+MULTI_LINE = {"planet_entry_not_table.toml"}
 # Valid but extreme inputs: finite JSON or a clear refusal (one line, exit 2).
 EXTREME = ["extreme_period_1e-6_d.toml", "extreme_period_1e12_d.toml",
-           "extreme_star_mass_1e-5.toml", "extreme_star_mass_1e3.toml"]
+           "extreme_star_mass_1e-5.toml", "extreme_star_mass_1e3.toml",
+           "extreme_ecc_upper_1e-300.toml", "extreme_inclination_90_with_k.toml"]
 # Accepted by the reader today although physically doubtful (flagged to the lead).
 DOUBTFUL = ["crossing_orbits.toml"]
 
@@ -150,6 +180,8 @@ def test_bad_input(name, tmp_path, capsys, monkeypatch):
     out_dir = tmp_path / "out"
     rc, out, err = _run(["report", str(path), "--json", "--out", str(out_dir)], capsys)
     _assert_clean_refusal(rc, out, err, path, BAD[name])
+    if name not in MULTI_LINE:
+        assert len(err.splitlines()) == 1, err          # one problem, one line
     assert not out_dir.exists() or not any(out_dir.iterdir())
     assert list(tmp_path.iterdir()) in ([], [out_dir])   # nothing left behind in the cwd
 
@@ -238,3 +270,34 @@ def test_unreadable_file(tmp_path, capsys):
         _assert_clean_refusal(rc, out, err, path, ["cannot read"])
     finally:
         path.chmod(0o600)
+
+
+def test_msini_above_mass_within_errors_warns_on_one_line(tmp_path, capsys):
+    f = tmp_path / "w.toml"
+    f.write_text('name = "Warn"\n[star]\nmass = 1.0\n[[planet]]\nname = "Warn b"\nperiod = 3.0\n'
+                 'msini = { value = 10.5, err = 1.0 }\nmass = { value = 10.0, err = 1.0 }\n')
+    rc, out, err = _run(["report", str(f), "--json", *FAST], capsys)
+    assert rc == 0, err
+    lines = err.splitlines()
+    assert len(lines) == 1 and lines[0].startswith("archsys: warning: ") and "m sin i" in lines[0]
+
+
+def test_terminal_escapes_in_messages_are_escaped(tmp_path, capsys):
+    # a unit string holding ESC and NUL reaches the terminal only as visible escapes
+    f = tmp_path / "esc.toml"
+    f.write_text('name = "Esc"\n[star]\nmass = 1.0\n[[planet]]\nname = "Esc b"\n'
+                 'period = { value = 3.0, unit = "\\u001b[2J\\u0000d" }\n')
+    rc, out, err = _run(["report", str(f)], capsys)
+    assert rc == 2
+    assert "\x1b" not in err and "\x00" not in err
+    assert "\\x1b[2J" in err and len(err.splitlines()) == 1
+
+
+@pytest.mark.parametrize("name", [r"Velmora\u001b]0;pwned\u0007", r"A\u202eB", r"Tab\u0000Nul"])
+def test_control_characters_in_system_names_refused(name, tmp_path, capsys):
+    # escape sequences, bidirectional overrides and NUL never reach text, LaTeX, HTML or Markdown
+    f = tmp_path / "ctl.toml"
+    f.write_text(f'name = "{name}"\n[star]\nmass = 1.0\n[[planet]]\nname = "b"\nperiod = 3.0\n')
+    rc, out, err = _run(["report", str(f), "--out", str(tmp_path / "o")], capsys)
+    _assert_clean_refusal(rc, out, err, f, ["control characters"])
+    assert not (tmp_path / "o").exists()

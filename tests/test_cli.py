@@ -7,9 +7,10 @@ import os
 import pathlib
 import subprocess
 import sys
-import tomllib
 
 import pytest
+
+from archsys.compat import tomllib
 
 import archsys
 from archsys.cli import main

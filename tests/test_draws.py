@@ -1,4 +1,5 @@
 """Direct Monte Carlo draws (archsys.inference.draws) and posterior summaries."""
+import dataclasses
 import math
 
 import numpy as np
@@ -215,6 +216,13 @@ def test_denormal_error_bar_draws_stay_at_the_value():
 def test_face_on_orbit_has_no_finite_true_mass():
     # i = 0 (face-on) with an RV signal: m = m sin i / sin i is undefined; the draws
     # leave the true mass unknown and keep the m sin i semi-major axis (was a = inf).
-    d = draws({"period": 10.0, "k": 5.0, "inclination": 0.0}, n=50)
+    # The reader refuses this input (the implied true mass is not below the stellar mass); the
+    # draws must still cope with it when a System is built without the reader.
+    with pytest.raises(InputError, match="face-on"):
+        system({"period": 10.0, "k": 5.0, "inclination": 0.0})
+    sysm = system({"period": 10.0, "k": 5.0, "inclination": 30.0})
+    q = sysm.planets[0].quantities
+    q["inclination"] = dataclasses.replace(q["inclination"], value=0.0)
+    d = direct_draws(sysm, n=50, seed=1)
     assert np.all(np.isnan(d["mass"])) and np.all(np.isfinite(d["a"]))
     np.testing.assert_allclose(d["a"][:, 0], kepler.a_au(10.0, 1.0 + d["msini"][:, 0]), rtol=1e-14)

@@ -2,10 +2,11 @@
 archsys.errors.InputError, never another exception (common practice for input parsers)."""
 import math
 import re
-import tomllib
 import warnings
 
 import pytest
+
+from archsys.compat import tomllib
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 

@@ -197,7 +197,8 @@ def test_bad_rows_become_rejects_and_counts_reconcile(tmp_path):
         fh.write("Sys-09,Sys-09 b,1,2,3,4,5,6,7,8,9,10,11,12\n")
     pop, out = _survey(tmp_path, path)
     c = pop["counts"]
-    assert c["systems_selected"] == c["systems_analysed"] + c["systems_rejected"] == 6
+    # the malformed row still names its system (Sys-09), which is rejected as a whole
+    assert c["systems_selected"] == c["systems_analysed"] + c["systems_rejected"] == 7
     assert c["rows_without_system"] == 1 and c["rows_malformed"] == 1
     assert c["rows"] == len(rows) + 1
     rej = list(csv.DictReader(io.StringIO((out / "rejects.csv").read_text())))
@@ -210,7 +211,7 @@ def test_bad_rows_become_rejects_and_counts_reconcile(tmp_path):
     assert ecc and "must be in [0, 1); got 1.7" in ecc[0]["reason"] and ecc[0]["row"] == "6"
     assert ("", "system") in reasons
     bad = [r for r in rej if "cells but the header has" in r["reason"]]
-    assert bad and bad[0]["row"] == str(len(rows) + 1)
+    assert bad and bad[0]["row"] == str(len(rows) + 1) and bad[0]["system"] == "Sys-09"
     # rejected systems do not appear in systems.csv, analysed ones do
     sys_ids = [r["system"] for r in csv.DictReader(io.StringIO((out / "systems.csv").read_text()))]
     assert len(sys_ids) == c["systems_analysed"]
@@ -274,23 +275,51 @@ def test_system_seed_depends_on_seed_and_id_only():
     assert system_seed(0, "Kepler-11") != system_seed(0, "Kepler-12")
 
 
-def test_progress_line(tmp_path):
-    from archsys.survey.run import Progress
+def test_progress_bar_tqdm_on_a_terminal(tmp_path):
+    # The survey's progress bar is tqdm's on standard error (or the given stream).
+    from archsys.survey.workers import progress_bar
 
     class Tty(io.StringIO):
         def isatty(self):
             return True
 
     tty = Tty()
-    p = Progress(3, stream=tty)
-    for ok in (True, False, True):
-        p.update(ok)
-    p.close()
+    bar = progress_bar(3, stream=tty)
+    for _ in range(3):
+        bar.update(1)
+    bar.set_postfix_str("1 rejected")
+    bar.close()
     text = tty.getvalue()
-    assert text.startswith("\r") and text.endswith("\n")
-    assert "3/3 systems, 1 rejected" in text and "ETA" in text
+    assert "\r" in text and "3/3" in text and "1 rejected" in text
     quiet = Tty()
-    q = Progress(2, quiet=True, stream=quiet)
-    q.update(True)
+    q = progress_bar(2, quiet=True, stream=quiet)
+    q.update(1)
     q.close()
     assert quiet.getvalue() == ""
+
+
+def test_progress_bar_sparse_when_not_a_terminal():
+    # Written to a file or a pipe, the bar refreshes at most every 30 s: a quick run of
+    # 500 updates writes the first and the last state only, not 500 lines.
+    from archsys.survey.workers import progress_bar
+    log = io.StringIO()
+    bar = progress_bar(500, stream=log)
+    for _ in range(500):
+        bar.update(1)
+    bar.close()
+    states = [x for x in log.getvalue().replace("\r", "\n").splitlines() if x.strip()]
+    assert 1 <= len(states) <= 3, states
+    assert "500/500" in states[-1]
+
+
+def test_survey_progress_counts_rejects(tmp_path):
+    rows = _rows(3)
+    rows[0]["period"] = "-5"            # rejects system Sys-00
+    cat = _write_csv(tmp_path / "c.csv", rows)
+
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+    tty = Tty()
+    _survey(tmp_path, cat, jobs=1, quiet=False, stream=tty)
+    assert "3/3" in tty.getvalue() and "1 rejected" in tty.getvalue()

@@ -128,8 +128,8 @@ class Measurement:
         def frac(s):
             return special.erf(d / (s * _SQRT2)) / special.erf(span / (s * _SQRT2)) - self.cl
         s_inf = d / (_SQRT2 * special.erfinv(self.cl))
-        if not math.isfinite(span):
-            return s_inf
+        if not math.isfinite(span) or span > 40.0 * s_inf:
+            return s_inf        # the support's far edge is > 40 widths away: truncation is negligible
         if frac(1e6 * span) > 0:  # flat prior alone already satisfies the level
             return math.inf
         return optimize.brentq(frac, 1e-9 * d, 1e6 * span, xtol=1e-12 * d)

@@ -9,23 +9,28 @@ from __future__ import annotations
 import difflib
 import hashlib
 import math
-import tomllib
 
 import astropy.units as u
 import numpy as np
 
+from ..compat import tomllib
 from ..errors import InputError
 from .inputfile import read_input_bytes
-from ..physics.constants import MEARTH_MSUN
 from .quantity import Measurement
+from .checks import InputWarning, check_notes as _check_notes, cross_checks as _cross_checks, \
+    has_control as _has_control, mass_checks as _mass_checks
 from .schema import (PLANET_FIELDS, PLANET_META_KEYS, QUANTITY_KEYS, STAR_FIELDS,
                      STAR_META_KEYS, TOP_KEYS, Field)
 from .system import Planet, Star, System
 
-__all__ = ["read_system", "build_system", "parse_quantity", "MAX_PLANETS"]
+__all__ = ["read_system", "build_system", "parse_quantity", "MAX_PLANETS", "REFERENCE_PLANES", "InputWarning"]
 
 #: Largest system we accept; far above any known system, it bounds memory use.
 MAX_PLANETS = 64
+#: Values of the top-level key ``reference_plane`` (what ``inclination`` is measured from): the sky
+#: plane of RV and transit work, or the ecliptic / invariable plane of solar-system elements.
+REFERENCE_PLANES = ("sky", "ecliptic", "invariable")
+
 
 
 class _Problems:
@@ -174,6 +179,10 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
             return None
         if not _in_support(value, fld, problems, loc, "value"):
             return None
+        if fld.sane is not None and kind != "exact" and value + plus > fld.sane[1]:
+            problems.add(loc, f"value + error = {value + plus:g} {fld.unit} reaches beyond the largest "
+                              f"accepted value {fld.sane[1]:g} {fld.unit} ({fld.sane_reason})")
+            return None
         return Measurement(kind, value=value, minus=minus, plus=plus,
                            support=fld.support, unit=fld.unit)
     kind = lims[0]
@@ -198,6 +207,10 @@ def _in_support(x, fld, problems, loc, key):
     if fld.positive and x <= 0:
         problems.add(loc, f"{key} must be positive; got {x:g}{unit}")
         return False
+    if fld.sane is not None and not fld.sane[0] <= x <= fld.sane[1]:
+        problems.add(loc, f"{key} {x:g}{unit} is outside the range archsys accepts, "
+                          f"[{fld.sane[0]:g}, {fld.sane[1]:g}]{unit} ({fld.sane_reason})")
+        return False
     if x < lo or x > hi or (x == hi and not fld.closed_hi):
         br = ")" if not fld.closed_hi else "]"
         problems.add(loc, f"{key} must be in [{lo:g}, {hi:g}{br}; got {x:g}{unit}")
@@ -211,37 +224,64 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
     if not isinstance(data, dict):
         P.add("", "expected a table at top level")
         P.raise_if_any()
+    if not data:
+        P.add("", "holds no system (only comments or blank lines); see README 'System files'")
+        P.raise_if_any()
+    meant = set()       # what misspelt keys were probably meant as: no second line for their absence
     for k in data:
         if k not in TOP_KEYS:
-            P.add("", f"unknown top-level key '{k}'{_suggest(k, TOP_KEYS)}")
+            hint = _suggest(k, TOP_KEYS)
+            meant.add(_meant(k, TOP_KEYS, data.get(k)))
+            P.add("", f"unknown top-level key '{k}'{hint}")
     name = data.get("name")
     if name is None:
-        P.add("", "missing required field 'name'")
+        if "name" not in meant:
+            P.add("", "missing required field 'name'")
     elif not isinstance(name, str) or not name.strip():
         P.add("field 'name'", f"must be a non-empty string; got {name!r:.40}")
+    elif _has_control(name):
+        P.add("field 'name'", "contains control characters (NUL, escape sequences, line breaks); "
+                              "names must be printable text")
+    rp = data.get("reference_plane")
+    if rp is not None and rp not in REFERENCE_PLANES:
+        P.add("field 'reference_plane'", f"must be one of {', '.join(repr(x) for x in REFERENCE_PLANES)} "
+                                         f"(the plane inclinations are measured from); got {rp!r:.40}")
+    _check_notes(data.get("notes"), "field 'notes'", P)
 
     star = None
     star_raw = data.get("star")
     if star_raw is None:
-        P.add("", "missing required table [star]")
+        if "star" not in meant:
+            P.add("", "missing required table [star]")
     elif not isinstance(star_raw, dict):
         P.add("", "'star' must be a table [star]")
     else:
         sq = {}
+        star_meant = set()
         for k, v in star_raw.items():
             if k in STAR_META_KEYS:
                 continue
             if k not in STAR_FIELDS:
-                P.add("star", f"unknown key '{k}'{_suggest(k, list(STAR_FIELDS) + list(STAR_META_KEYS))}")
+                known = list(STAR_FIELDS) + list(STAR_META_KEYS)
+                if k in ("planet", "planets"):
+                    meant.add("planet")
+                    P.add("star", f"unknown key '{k}': planets go in [[planet]] tables at the top level, "
+                                  f"not inside [star]")
+                    continue
+                star_meant.add(_meant(k, known, v))
+                P.add("star", f"unknown key '{k}'{_suggest(k, known)}")
                 continue
             m = parse_quantity(v, STAR_FIELDS[k], "star: ", P)
             if m is not None:
                 sq[k] = m
-        if "mass" not in star_raw:
+        if "mass" not in star_raw and "mass" not in star_meant:
             P.add("star", "missing required field 'mass' (solar masses)")
         sname = star_raw.get("name")
         if sname is not None and not isinstance(sname, str):
             P.add("star", f"field 'name' must be a string; got {sname!r:.40}")
+        elif sname is not None and _has_control(sname):
+            P.add("star", "field 'name' contains control characters; names must be printable text")
+        _check_notes(star_raw.get("notes"), "star: field 'notes'", P)
         if "mass" in sq:
             star = Star(mass=sq["mass"], radius=sq.get("radius"), density=sq.get("density"),
                         name=star_raw.get("name"))
@@ -249,7 +289,8 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
     planets = []
     praw = data.get("planet")
     if praw is None:
-        P.add("", "no planets: add at least one [[planet]] table")
+        if "planet" not in meant:
+            P.add("", "no planets: add at least one [[planet]] table")
         praw = []
     elif not isinstance(praw, list):
         P.add("", "'planet' must be an array of tables [[planet]]")
@@ -271,16 +312,23 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
         elif not isinstance(pname, str) or not pname.strip():
             P.add(f"planet #{idx}", f"field 'name' must be a non-empty string; got {pname!r:.40}")
             pname = f"#{idx}"
+        elif _has_control(pname):
+            P.add(f"planet #{idx}", "field 'name' contains control characters (NUL, escape sequences, "
+                                    "line breaks); names must be printable text")
+            pname = f"#{idx}"
         elif pname in seen:
             P.add(f"planet '{pname}'", f"duplicate planet name (also planet #{seen[pname]})")
         seen.setdefault(pname, idx)
         where = f"planet '{pname}'"
         q = {}
+        pl_meant = set()
         for k, v in pr.items():
             if k in PLANET_META_KEYS:
                 continue
             if k not in PLANET_FIELDS:
-                P.add(where, f"unknown key '{k}'{_suggest(k, list(PLANET_FIELDS) + list(PLANET_META_KEYS))}")
+                known = list(PLANET_FIELDS) + list(PLANET_META_KEYS)
+                pl_meant.add(_meant(k, known, v))
+                P.add(where, f"unknown key '{k}'{_suggest(k, known)}")
                 continue
             m = parse_quantity(v, PLANET_FIELDS[k], where + ": ", P)
             if m is not None:
@@ -289,9 +337,11 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
         if tr is not None and not isinstance(tr, bool):
             P.add(where, f"field 'transiting' must be true or false; got {tr!r:.40}")
             tr = None
-        if "period" not in pr:
+        _check_notes(pr.get("notes"), f"{where}: field 'notes'", P)
+        if "period" not in pr and "period" not in pl_meant:
             P.add(where, "missing required field 'period' (days)")
         _cross_checks(q, star, where, P)
+        _mass_checks(q, star, where, P, source)
         if "period" in q:
             planets.append(Planet(name=pname, period=q.pop("period"), quantities=q, transiting=tr))
     P.raise_if_any()
@@ -305,28 +355,10 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
                   reference_plane=str(data.get("reference_plane", "sky")))
 
 
-def _cross_checks(q, star, where, P):
-    """Rules that involve more than one field of a planet."""
-    pairs = [("secosw", "sesinw"), ("ecosw", "esinw")]
-    for a, b in pairs:
-        if (a in q) != (b in q):
-            have, miss = (a, b) if a in q else (b, a)
-            P.add(where, f"field '{have}' needs its partner '{miss}'")
-    given = [k for k in ("ecc", "secosw", "ecosw") if k in q]
-    if len(given) > 1:
-        P.add(where, f"give eccentricity one way only; got {', '.join(given)}")
-    for a, b in pairs:
-        if a in q and b in q and q[a].value is not None and q[b].value is not None:
-            r2 = q[a].value ** 2 + q[b].value ** 2
-            e = r2 if a == "secosw" else math.sqrt(r2)
-            if e >= 1:
-                P.add(where, f"fields '{a}', '{b}' imply e = {e:.3g}; must be < 1")
-    if star is not None and star.mass.center:
-        mstar_mearth = star.mass.center / MEARTH_MSUN
-        for k in ("mass", "msini"):
-            if k in q and q[k].center is not None and q[k].center >= mstar_mearth:
-                P.add(where, f"field '{k}': planet mass {q[k].center:g} M_earth is not below "
-                             f"the stellar mass ({mstar_mearth:g} M_earth)")
+def _meant(key, known, value=None):
+    """The known key a misspelt ``key`` probably stands for (None if none is close)."""
+    close = difflib.get_close_matches(key, list(known), n=1, cutoff=0.5)
+    return close[0] if close else None
 
 
 def read_system(path) -> System:

@@ -20,12 +20,15 @@ class Field:
     positive: bool = False   # value must be > 0
     periodic: bool = False   # an angle defined modulo 360 deg: no limits
     closed_hi: bool = True   # False: the upper end is excluded (ecc < 1)
+    sane: tuple | None = None    # (lo, hi) accepted range of value, value + error and limits
+    sane_reason: str = ""
 
 
 STAR_FIELDS = {
     f.name: f
     for f in [
-        Field("mass", "solMass", (0.0, INF), "stellar mass", positive=True),
+        Field("mass", "solMass", (0.0, INF), "stellar mass", positive=True, sane=(1e-5, 1e4),
+              sane_reason="far beyond any star or brown dwarf host"),
         Field("radius", "solRad", (0.0, INF), "stellar radius", positive=True),
         Field("density", "g / cm3", (0.0, INF), "mean stellar density", positive=True),
     ]
@@ -34,7 +37,8 @@ STAR_FIELDS = {
 PLANET_FIELDS = {
     f.name: f
     for f in [
-        Field("period", "day", (0.0, INF), "orbital period", positive=True),
+        Field("period", "day", (0.0, INF), "orbital period", positive=True, sane=(1e-6, 1e12),
+              sane_reason="0.09 s to 2.7 billion years; beyond that the orbit is not physical"),
         Field("k", "m / s", (0.0, INF), "RV semi-amplitude", positive=True),
         Field("msini", "earthMass", (0.0, INF), "minimum mass m sin i", positive=True),
         Field("mass", "earthMass", (0.0, INF), "true mass", positive=True),

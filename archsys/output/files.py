@@ -1,30 +1,63 @@
-"""Atomic file output and safe file names."""
+"""Output files: atomic writes, staged runs, safe and unique file names, printable text.
+
+* :func:`atomic_write` writes one file through a temporary file and a rename.
+* :class:`StagedOutput` makes a whole run all-or-nothing: inside ``with
+  StagedOutput(out_dir):`` every :func:`atomic_write` goes to a staging folder
+  inside the output folder, and the files are moved into place only when the
+  block ends without an error (targets that are folders are found before any
+  file moves).  On an error the staging folder is removed, and so is an output
+  folder the run created, when it is empty.
+* :func:`safe_name` turns a system or planet name into a file-name stem;
+  :func:`unique_stems` makes the stems of one run distinct, deterministically.
+* :func:`printable` escapes control characters (NUL, terminal escape
+  sequences, ...) so user text never reaches a terminal or a file raw.
+"""
 from __future__ import annotations
 
+import errno
+import hashlib
 import os
 import pathlib
 import re
+import shutil
 import tempfile
 
-__all__ = ["atomic_write", "safe_name"]
+from ..errors import InputError
+
+__all__ = ["atomic_write", "safe_name", "unique_stems", "printable", "StagedOutput", "staged"]
+
+_ACTIVE = []        # the StagedOutput blocks in force (innermost last)
+
+
+def _write_file(path, data, mode):
+    """Write ``data`` to a new file ``path`` (fsynced) with the usual permissions."""
+    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
+    binary = "b" in mode
+    with os.fdopen(fd, "wb" if binary else "w",
+                   **({} if binary else {"encoding": "utf-8", "newline": ""})) as fh:
+        fh.write(data)
+        fh.flush()
+        os.fsync(fh.fileno())
 
 
 def atomic_write(path, data, mode="w"):
     """Write ``data`` to ``path`` atomically: a temporary file in the same folder, then rename.
 
     An interrupted run leaves either the old file or the new one, never a partial file.
+    Inside a :class:`StagedOutput` block the file is staged and moved into place
+    when the block succeeds.
     """
     path = pathlib.Path(path)
+    if _ACTIVE:
+        return _ACTIVE[-1].stage(path, data, mode)
     path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    if path.is_dir():
+        raise IsADirectoryError(errno.EISDIR, "is a directory", str(path))
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name[:60]}.", suffix=".tmp", dir=path.parent)
+    os.close(fd)
+    os.unlink(tmp)
     try:
-        with os.fdopen(fd, "wb" if "b" in mode else "w", **({} if "b" in mode else {"encoding": "utf-8", "newline": ""})) as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)       # mkstemp creates 0600; give the usual permissions
+        _write_file(tmp, data, mode)
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -35,6 +68,133 @@ def atomic_write(path, data, mode="w"):
     return path
 
 
+def _missing_parents(d):
+    """Folders that ``mkdir(parents=True)`` on ``d`` would create (outermost first)."""
+    out = []
+    d = pathlib.Path(d).absolute()
+    while not d.exists():
+        out.append(d)
+        if d.parent == d:
+            break
+        d = d.parent
+    return out[::-1]
+
+
+class StagedOutput:
+    """All-or-nothing output of one run (see the module docstring).
+
+    ``roots``: the output folders of the run (staging folders are made inside
+    them, so the final moves are renames on one file system).  Files outside
+    every root are staged beside their target.
+    """
+
+    def __init__(self, *roots):
+        self.roots = [pathlib.Path(r).absolute() for r in roots if r is not None]
+        self.created = []       # folders this run made (removed on failure when empty)
+        self.stages = {}        # root -> staging folder
+        self.files = []         # (staged path, final path)
+        self.moved = []
+
+    # -- context ------------------------------------------------------------
+    def __enter__(self):
+        for r in self.roots:
+            self._stage_dir(r)
+        _ACTIVE.append(self)
+        return self
+
+    def __exit__(self, et, ev, tb):
+        _ACTIVE.remove(self)
+        if et is None:
+            try:
+                self.commit()
+            except BaseException:
+                self._cleanup(failed=True)
+                raise
+            self._cleanup(failed=False)
+            return False
+        self._cleanup(failed=True)
+        return False
+
+    # -- staging --------------------------------------------------------------
+    def _stage_dir(self, root):
+        if root not in self.stages:
+            if root.exists() and not root.is_dir():
+                raise InputError(f"cannot write into {root}: exists and is not a folder")
+            made = _missing_parents(root)
+            try:
+                root.mkdir(parents=True, exist_ok=True)
+            except OSError as exc:
+                raise InputError(f"cannot create the folder {root}: {exc.strerror or exc}") from None
+            self.created += [m for m in made if m not in self.created]
+            try:
+                self.stages[root] = pathlib.Path(tempfile.mkdtemp(prefix=".archsys-staging-", dir=root))
+            except OSError as exc:
+                raise InputError(f"cannot write into {root}: {exc.strerror or exc}") from None
+        return self.stages[root]
+
+    def _root_of(self, path):
+        best = None
+        for r in self.roots:
+            if path == r or r in path.parents:
+                if best is None or len(r.parts) > len(best.parts):
+                    best = r
+        return best
+
+    def stage(self, path, data, mode="w"):
+        """Write ``data`` for ``path`` into the staging folder (the move waits for commit)."""
+        path = pathlib.Path(path).absolute()
+        root = self._root_of(path)
+        if root is None:
+            root = path.parent
+            self.roots.append(root)
+        tmp = self._stage_dir(root) / f"{len(self.files):05d}"
+        for i, (_, final) in enumerate(self.files):
+            if final == path:          # a later write of the same file replaces the earlier one
+                self.files.pop(i)
+                break
+        _write_file(tmp, data, mode)
+        self.files.append((tmp, path))
+        return path
+
+    def commit(self):
+        """Move every staged file into place; folders in the way are found first."""
+        for _, final in self.files:
+            if final.is_dir():
+                raise InputError(f"cannot write {final}: a folder of that name is in the way; "
+                                 f"nothing was written")
+            for parent in final.parents:
+                if parent.exists():
+                    if not parent.is_dir():
+                        raise InputError(f"cannot write {final}: {parent} is not a folder; nothing was written")
+                    break
+        for tmp, final in self.files:
+            made = _missing_parents(final.parent)
+            final.parent.mkdir(parents=True, exist_ok=True)
+            self.created += [m for m in made if m not in self.created]
+            os.replace(tmp, final)
+            self.moved.append(final)
+
+    def _cleanup(self, failed):
+        for d in self.stages.values():
+            shutil.rmtree(d, ignore_errors=True)
+        if failed:
+            for d in sorted(self.created, key=lambda p: len(p.parts), reverse=True):
+                try:
+                    d.rmdir()           # only when empty
+                except OSError:
+                    pass
+
+    @property
+    def written(self):
+        """Final paths of the files moved into place, in write order."""
+        return list(self.moved)
+
+
+def staged(*roots):
+    """``with staged(out_dir): ...`` -- shorthand for :class:`StagedOutput`."""
+    return StagedOutput(*roots)
+
+
 _UNSAFE = re.compile(r"[^A-Za-z0-9._-]+")
 
 
@@ -43,3 +203,67 @@ def safe_name(name, fallback="system"):
     s = _UNSAFE.sub("_", str(name)).strip("._-")
     s = s.replace("..", "_")
     return (s or fallback)[:80]
+
+
+def _short_hash(text):
+    return hashlib.sha256(str(text).encode("utf-8", "surrogatepass")).hexdigest()[:8]
+
+
+def unique_stems(names, fallback="system", reserved=()):
+    """Distinct file-name stems for ``names``, the same whatever else is in the run's order.
+
+    A name whose stem is already unique keeps :func:`safe_name`'s stem.  When
+    stems collide (compared without case, for case-insensitive file systems),
+    every name that sanitising changed gets ``-`` and the first 8 hex digits of
+    the SHA-256 of the name ("Col/X" -> "Col_X-1c2d...", "Col_X" stays); stems
+    still equal after that (the same name twice) get ``-2``, ``-3``, ... in
+    order.  ``reserved``: stems taken already (e.g. ``"system"``).
+
+    Returns
+    -------
+    stems : list of str
+    renamed : list of (name, stem) for the names whose stem is not plain
+        ``safe_name(name)``, so that a caller can say so.
+    """
+    names = [str(n) for n in names]
+    base = [safe_name(n, fallback) for n in names]
+    taken = {r.lower() for r in reserved}
+    counts = {}
+    for b in base:
+        counts[b.lower()] = counts.get(b.lower(), 0) + 1
+    stems = []
+    for n, b in zip(names, base):
+        if (counts[b.lower()] > 1 or b.lower() in taken) and b != n:
+            b = f"{b[:71]}-{_short_hash(n)}"
+        stems.append(b)
+    seen, out = set(taken), []
+    for s in stems:
+        cand, k = s, 1
+        while cand.lower() in seen:
+            k += 1
+            cand = f"{s}-{k}"
+        seen.add(cand.lower())
+        out.append(cand)
+    renamed = [(n, s) for n, s, b in zip(names, out, base) if s != b]
+    return out, renamed
+
+
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\u2028\u2029\u202a-\u202e\u2066-\u2069]")
+
+
+def printable(text, keep_newlines=False):
+    """``text`` with control characters escaped as ``\\xNN`` / ``\\uNNNN``.
+
+    NUL, ESC (terminal escape sequences), other C0/C1 controls, DEL, line and
+    paragraph separators and bidirectional overrides are escaped; tabs stay,
+    and line ends (LF, CR) stay when ``keep_newlines`` (otherwise they are escaped too).
+    """
+    s = str(text)
+
+    def esc(m):
+        c = m.group(0)
+        return f"\\x{ord(c):02x}" if ord(c) < 0x100 else f"\\u{ord(c):04x}"
+    s = _CONTROL.sub(esc, s)
+    if not keep_newlines:
+        s = s.replace("\n", "\\n").replace("\r", "\\r")
+    return s

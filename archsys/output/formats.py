@@ -79,7 +79,7 @@ def _dir(path, what):
     return p
 
 
-def write_outputs(result, out_dir=None, fig_dir=None, preset=None, corner_params=None):
+def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, corner_params=None):
     """Write every report format, chains, provenance and figures of ``result``.
 
     Into ``out_dir``: ``<name>.json``, ``.md``, ``.html``, ``.tex``, ``.aas.tex``, ``.txt``,
@@ -103,7 +103,7 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None, corner_params
         return {}
     preset_name = get_preset(preset).name                  # validate before any work
     doc = document_of(result)
-    stem = safe_name(doc.get("system", "system"))
+    stem = stem or safe_name(doc.get("system", "system"))   # stem: see files.unique_stems
     out = _dir(out_dir, "output folder") if out_dir is not None else None
     figs_at = _dir(fig_dir, "figure folder") if fig_dir is not None else out / "figures"
 

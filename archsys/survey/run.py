@@ -28,41 +28,35 @@ are rejects of kind "analysis" that name the exception type.
 """
 from __future__ import annotations
 
-import hashlib
 import json
 import math
 import os
 import pathlib
-import re
-import sys
 import time
-import traceback
-import warnings
 import zlib
 from dataclasses import replace
 
 import numpy as np
 
 from .. import __version__
-from ..errors import ConvergenceWarning, InputError
-from .catalog import group_systems, parse_where, read_catalog, select
-from .columns import bind, canonical_map, load_column_map, system_mapping, where_names
-from .store import (SurveyStore, header_of, pair_row, planet_row, system_row, write_csv)
+from ..errors import InputError
+from ..options import FAST_DRAWS, AnalysisOptions, SurveyOptions, split_keywords
+from .catalog import group_systems, read_catalog
+from .where import parse_where, select
+from .columns import bind, canonical_map, load_column_map, where_names
+from .lock import SurveyLock
+from .store import STORE_NAME, SurveyStore, header_of, write_csv
+from .workers import SAMPLES_PER_PLANET, dask_client, process_system, progress_bar, run_tasks
 
-__all__ = ["run_survey", "run_survey_cli", "survey_benchmark", "system_seed", "process_system",
-           "FAST_DRAWS", "SAMPLES_PER_PLANET"]
+__all__ = ["run_survey", "survey_benchmark", "system_seed", "process_system",
+           "FAST_DRAWS", "SAMPLES_PER_PLANET", "AnalysisOptions", "SurveyOptions"]
 
-#: Draws per system in ``--mode fast`` (as ``archsys report --mode fast``).
-FAST_DRAWS = 1000
-#: Posterior samples per planet kept for the hierarchical inference.
-SAMPLES_PER_PLANET = 100
 _FIRST_SYSTEM_COLS = ("system", "n_planets", "n_pairs", "n_transiting", "sampler", "warnings")
 _FIRST_PAIR_COLS = ("system", "inner", "outer", "period_ratio_median", "period_ratio_lo", "period_ratio_hi",
                     "nearest_mmr", "mmr_offset_median", "mmr_offset_lo", "mmr_offset_hi",
                     "hill_separation_median", "hill_separation_lo", "hill_separation_hi",
                     "hill_stable_probability", "near_resonance_probability", "amd_stable_probability",
                     "mutual_inclination_deg_median", "mutual_inclination_deg_lo", "mutual_inclination_deg_hi")
-_THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
 REJECT_COLS = ("system", "planet", "row", "field", "column", "reason")
 
 
@@ -73,359 +67,97 @@ def system_seed(seed: int, system_id: str) -> int:
 
 
 # --------------------------------------------------------------------------
-# One system (runs in a worker)
-# --------------------------------------------------------------------------
-
-def _rejected(sid, n, problems, kind):
-    return {"system": sid, "status": "rejected", "n_planets": n, "error_kind": kind, "rejects": problems}
-
-
-def _problems_from_error(exc, source, rows_of, cmap):
-    """Reject lines from build_system's InputError (one per problem line)."""
-    out = []
-    for line in getattr(exc, "problems", None) or [str(exc)]:
-        msg = line[len(source) + 2:] if line.startswith(source + ": ") else line
-        planet, fld = "", ""
-        m = re.match(r"planet '(.*?)': (.*)$", msg)
-        if m:
-            planet, msg = m.group(1), m.group(2)
-        elif msg.startswith("star: "):
-            msg = msg[6:]
-            fld = "star"
-        f = re.match(r"field '([^']+)': (.*)$", msg)
-        if f:
-            fld = f"star_{f.group(1)}" if fld == "star" else f.group(1)
-            msg = f.group(2)
-        else:
-            g = re.search(r"(?:required )?fields? '([^']+)'", msg)
-            if g:
-                fld = f"star_{g.group(1)}" if fld == "star" else g.group(1)
-        row = rows_of.get(planet, rows_of.get(""))
-        out.append({"planet": planet, "row": row, "field": fld, "column": cmap.column_of(fld) or "",
-                    "reason": msg})
-    return out
-
-
-def _measured_ecc(planet):
-    q = planet.quantities
-    if "secosw" in q:
-        return "secosw/sesinw", "ecc-uniform"
-    if "ecosw" in q:
-        return "ecosw/esinw", "linear-2e"       # uniform in (e cos w, e sin w) implies p0(e) = 2e
-    if "ecc" in q:
-        return q["ecc"].kind, "ecc-uniform"
-    return None, None
-
-
-def _survey_extras(res):
-    """Scores the survey tables need that an older document may not carry yet: from the score registry."""
-    doc = res.document
-    pairs = doc.get("pairs", [])
-    if "gap_complexity" in doc or len(doc.get("planets", [])) < 3:
-        if all("nearest_mmr" in p for p in pairs):
-            return {}, [{} for _ in pairs]
-    from ..scores import compute_scores
-    sc = compute_scores(res.posterior, res.options)
-    extra = {k: sc["system"][k] for k in ("gap_complexity",) if k not in doc and k in sc["system"]}
-    pair_extra = [{k: q[k] for k in ("nearest_mmr", "mmr_offset") if k not in p and k in q}
-                  for p, q in zip(pairs, sc["pairs"])]
-    return extra, pair_extra
-
-
-def _prior_name(post, key, default):
-    v = (post.prior or {}).get(key)
-    v = v.get("name") if isinstance(v, dict) else v
-    return v or default
-
-
-def _finite_json(x):
-    """The document with NaN/inf replaced by None (JSON has no such numbers)."""
-    from ..output.document import _finite
-    return _finite(x)
-
-
-def _summarise(sid, res):
-    doc = _finite_json(res.document)
-    res.document = doc
-    post = res.posterior
-    extra, pair_extra = _survey_extras(res)
-    planets = []
-    ecc = np.asarray(post["ecc"], dtype=float)
-    psi = post.get("psi")
-    has_sigma = post.get("sigma_mutual") is not None
-    n = ecc.shape[0]
-    take = np.linspace(0, n - 1, min(SAMPLES_PER_PLANET, n)).round().astype(int)
-    for j, (entry, pl) in enumerate(zip(doc["planets"], res.system.planets)):
-        basis, interim = _measured_ecc(pl)
-        row = planet_row(sid, entry)
-        row["ecc_measured"] = basis is not None
-        rec = {"row": row, "ecc_basis": basis}
-        if basis is not None:
-            if post.method == "mcmc":     # sampled under the run's eccentricity prior
-                interim = _prior_name(post, "eccentricity", res.options.ecc_prior or "ecc-uniform")
-            rec["ecc_interim"] = interim
-            rec["ecc_samples"] = ecc[take, j]
-        if psi is not None:
-            x = np.asarray(psi, dtype=float)[take, j]
-            if np.all(np.isfinite(x)):
-                rec["psi_samples"] = x
-                sp = _prior_name(post, "mutual_inclination_sigma", res.options.incl_prior or "incl-loguniform")
-                rec["psi_interim"] = f"rayleigh-marginal:{sp}" if has_sigma else "uniform-psi"
-        planets.append(rec)
-    return {"system": sid, "status": "ok", "n_planets": res.system.n_planets, "document": doc,
-            "system_row": system_row(doc, extra),
-            "pairs": [pair_row(sid, p, e) for p, e in zip(doc.get("pairs", []), pair_extra)],
-            "planets": planets, "rejects": []}
-
-
-def process_system(task):
-    """Validate and analyse one system; never raises for bad input (returns a reject)."""
-    from ..model.reader import build_system
-    from ..pipeline import analyze
-    group, cmap, units, options, catalog_name, debug = task
-    sid, n = group.system, group.n_planets
-    source = f"{catalog_name}: system '{sid}'"
-    data, problems, rows_of = system_mapping(group, cmap, units)
-    if problems:
-        return _rejected(sid, n, problems, "input")
-    digest = hashlib.sha256(json.dumps(data, sort_keys=True, default=str).encode()).hexdigest()
-    try:
-        system = build_system(data, source=source, sha256=digest)
-    except InputError as exc:
-        return _rejected(sid, n, _problems_from_error(exc, source, rows_of, cmap), "input")
-    try:
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("ignore", RuntimeWarning)
-            warnings.simplefilter("always", ConvergenceWarning)
-            res = analyze(system, options)
-            out = _summarise(sid, res)
-        notes = sorted({" ".join(str(w.message).split()) for w in caught
-                        if issubclass(w.category, ConvergenceWarning)})
-        if notes:     # kept with the system instead of interrupting the progress line
-            out["system_row"]["warnings"] = "; ".join(notes)
-        return out
-    except InputError as exc:
-        return _rejected(sid, n, _problems_from_error(exc, source, rows_of, cmap), "input")
-    except Exception as exc:  # noqa: BLE001 - logged as a reject that names the exception type
-        if debug:
-            raise
-        frames = traceback.extract_tb(exc.__traceback__)[-2:]
-        at = " <- ".join(f"{pathlib.Path(f.filename).parent.name}/{pathlib.Path(f.filename).name}:{f.lineno}"
-                         for f in reversed(frames))
-        reason = f"analysis failed: {type(exc).__name__}: {' '.join(str(exc).split())} (at {at})"
-        return _rejected(sid, n, [{"planet": "", "row": rows_of.get(""), "field": "", "column": "",
-                                   "reason": reason}], "analysis")
-
-
-# --------------------------------------------------------------------------
-# Progress line
-# --------------------------------------------------------------------------
-
-class Progress:
-    """Systems done / failed and ETA on one carriage-return line of stderr."""
-
-    def __init__(self, total, quiet=False, stream=None, skipped=0):
-        self.total, self.quiet = total, quiet
-        self.stream = stream or sys.stderr
-        self.done = self.failed = 0
-        self.skipped = skipped
-        self.t0 = time.monotonic()
-        self.last = 0.0
-        self.tty = hasattr(self.stream, "isatty") and self.stream.isatty()
-
-    def update(self, ok):
-        self.done += 1
-        self.failed += 0 if ok else 1
-        now = time.monotonic()
-        if not self.quiet and (now - self.last > (0.1 if self.tty else 5.0) or self.done == self.total):
-            self.last = now
-            self._draw(now)
-
-    def _draw(self, now):
-        el = now - self.t0
-        rate = self.done / el if el > 0 else 0.0
-        eta = (self.total - self.done) / rate if rate > 0 else float("nan")
-        w = 24
-        fill = int(w * self.done / self.total) if self.total else w
-        eta_s = f"{int(eta // 60)}m{int(eta % 60):02d}s" if math.isfinite(eta) else "--"
-        line = (f"survey [{'#' * fill}{'.' * (w - fill)}] {self.done}/{self.total} systems, "
-                f"{self.failed} rejected, {rate:.1f}/s, ETA {eta_s}")
-        if self.skipped:
-            line += f" ({self.skipped} resumed)"
-        self.stream.write(("\r" + line) if self.tty else (line + "\n"))
-        self.stream.flush()
-
-    def close(self):
-        if not self.quiet and self.tty and self.done:
-            self.stream.write("\n")
-            self.stream.flush()
-
-
-# --------------------------------------------------------------------------
-# Executors
-# --------------------------------------------------------------------------
-
-def _run_serial(tasks, sink):
-    for t in tasks:
-        sink(process_system(t))
-
-
-def process_batch(batch):
-    """Several systems in one worker call (amortises the per-task cost of fast surveys)."""
-    return [process_system(t) for t in batch]
-
-
-#: Largest number of systems sent to a worker in one call.
-MAX_BATCH = 16
-
-
-def _run_local(tasks, sink, jobs):
-    import multiprocessing
-    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
-    ctx = multiprocessing.get_context("spawn")     # no inherited sqlite handle, same as Dask workers
-    # small batches: few enough per call that every worker stays busy to the end and a crash
-    # loses little; results are still stored system by system
-    size = max(1, min(MAX_BATCH, len(tasks) // (8 * jobs)))
-    it = iter([tasks[i:i + size] for i in range(0, len(tasks), size)])
-    # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
-    saved = {k: os.environ.get(k) for k in _THREAD_VARS}
-    os.environ.update({k: "1" for k in _THREAD_VARS})
-    ex = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx)
-    try:
-        pending = set()
-        for b in it:
-            pending.add(ex.submit(process_batch, b))
-            if len(pending) >= 4 * jobs:
-                break
-        while pending:
-            done, pending = wait(pending, return_when=FIRST_COMPLETED)
-            for f in done:
-                for r in f.result():
-                    sink(r)
-                nxt = next(it, None)
-                if nxt is not None:
-                    pending.add(ex.submit(process_batch, nxt))
-    except BaseException:
-        ex.shutdown(wait=False, cancel_futures=True)
-        raise
-    finally:
-        for k, v in saved.items():
-            if v is None:
-                os.environ.pop(k, None)
-            else:
-                os.environ[k] = v
-    ex.shutdown(wait=True)
-
-
-def _run_dask(tasks, sink, address):
-    try:
-        from distributed import Client, as_completed
-    except ImportError:
-        raise InputError("--scheduler needs Dask distributed, the optional extra 'dask' "
-                         "(pip install 'archsys[dask]')") from None
-    import dask
-    try:
-        client = Client(address, timeout=dask.config.get("distributed.comm.timeouts.connect", "30s"))
-    except (OSError, TimeoutError) as exc:
-        raise InputError(f"--scheduler {address}: cannot connect to the Dask scheduler ({exc})") from None
-    try:
-        futures = client.map(process_system, tasks, pure=False)
-        for fut in as_completed(futures):
-            sink(fut.result())
-            fut.release()
-    finally:
-        client.close()
-
-
-# --------------------------------------------------------------------------
 # The survey
 # --------------------------------------------------------------------------
 
-def _analysis_options(seed, draws, mode, ecc_prior, incl_prior, require_stable, max_steps, nbody):
-    from ..inference.draws import DEFAULT_DRAWS
-    from ..inference.priors import load_prior
-    from ..pipeline import AnalysisOptions
-    n = draws or (FAST_DRAWS if mode == "fast" else DEFAULT_DRAWS)
-    if n < 10:
-        raise InputError(f"--draws must be at least 10; got {n}")
-    for name, qty in ((ecc_prior, "eccentricity"), (incl_prior, "mutual_inclination_sigma")):
-        if name is not None and load_prior(name).quantity != qty:
-            raise InputError(f"prior {name!r} is not a prior on {qty}")
-    return AnalysisOptions(n_draws=n, seed=int(seed), mode=mode, ecc_prior=ecc_prior, incl_prior=incl_prior,
-                           require_stable=require_stable, quiet=True, max_steps=max_steps, nbody=nbody, jobs=1)
-
-
-def _manifest(cat, cmap, opts, seed):
+def _manifest(cat, cmap, opts):
     o = opts.as_dict()
     o.pop("seed", None)
     return {"store_format": 1, "archsys_version": __version__, "catalog_sha256": cat.sha256,
             "columns": cmap.source if cmap.source == "canonical columns" else "file",
-            "columns_sha256": cmap.sha256, "seed": int(seed), "options": o}
+            "columns_sha256": cmap.sha256, "seed": int(opts.seed), "options": o}
 
 
-def run_survey(catalog, out, *, columns=None, where=(), resume=False, scheduler=None, limit=None,
-               figures=True, seed=0, draws=None, mode="auto", ecc_prior=None, incl_prior=None,
-               require_stable=False, max_steps=None, nbody=0, jobs=0, quiet=True, debug=False,
-               stream=None):
+def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: SurveyOptions | None = None,
+               *, debug=False, stream=None, **keywords):
     """Run a survey of ``catalog`` into directory ``out``; returns the population document.
 
-    ``jobs``: 1 = serial, N = N local processes, 0 = one process per core
-    (the default); ignored when ``scheduler`` (a Dask address) is given.
+    ``options``: :class:`~archsys.options.AnalysisOptions` (``jobs``: 1 =
+    serial, N = N local processes, 0 = one process per core, the default of a
+    survey; ignored with a Dask scheduler).  ``survey``:
+    :class:`~archsys.options.SurveyOptions` (column map, ``where``, resume,
+    scheduler, limit, figures).  Keyword arguments named like fields of either
+    (and ``draws`` for ``n_draws``) are a shorthand:
+    ``run_survey(cat, out, mode="fast", limit=10)``.
+
+    The output folder is locked for the run (a second survey into it is
+    refused), and the tables, ``population.json`` and figures are staged and
+    moved into place only when all of them are written.
 
     Raises
     ------
     InputError
         Fatal problems only (unreadable table, missing columns, bad map or
-        --where, a store made from other inputs); bad rows become rejects.
+        --where, a store made from other inputs, a locked folder); bad rows
+        become rejects.
     """
+    opts, sv = split_keywords(options, survey, **keywords)
     out = pathlib.Path(out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: exists and is not a directory")
-    if limit is not None and limit < 1:
-        raise InputError(f"--limit must be at least 1; got {limit}")
-    if jobs is not None and int(jobs) < 0:
-        raise InputError(f"--jobs must be >= 0 (0 = one per core); got {jobs}")
-    jobs = (os.cpu_count() or 1) if not jobs else int(jobs)
+    jobs = (os.cpu_count() or 1) if not opts.jobs else int(opts.jobs)
     cat = read_catalog(catalog)
-    cmap = bind(load_column_map(columns) if columns else canonical_map(cat.columns), cat)
+    cmap = bind(load_column_map(sv.columns) if sv.columns else canonical_map(cat.columns), cat)
     names = where_names(cmap, cat.columns)
-    nodes = [parse_where(w, names) for w in where]
-    opts = _analysis_options(seed, draws, mode, ecc_prior, incl_prior, require_stable, max_steps, nbody)
+    nodes = [parse_where(w, names) for w in sv.where]
+    base = replace(opts, quiet=True, jobs=1)          # what every system is analysed with
     groups, orphans = group_systems(cat, cmap.system)
     selected = [g for g in groups if select(g, nodes)]
-    if limit is not None:
-        selected = selected[:limit]
+    if sv.limit is not None:
+        selected = selected[:sv.limit]
     ids = {g.system for g in selected}
+    client = dask_client(sv.scheduler) if sv.scheduler else None    # before any file is made
 
-    store = SurveyStore(out)
     try:
-        store.check_manifest(_manifest(cat, cmap, opts, seed), resume)
-        done = store.done()
-        todo = [g for g in selected if g.system not in done]
-        tasks = [(g, cmap, cat.units, replace(opts, seed=system_seed(seed, g.system)), cat.name, debug)
-                 for g in todo]
-        prog = Progress(len(tasks), quiet=quiet, stream=stream, skipped=len(selected) - len(todo))
+        with SurveyLock(out) as lock:
+            store = SurveyStore(out)
+            try:
+                store.check_manifest(_manifest(cat, cmap, base), sv.resume)
+                done = store.done()
+                todo = [g for g in selected if g.system not in done]
+                tasks = [(g, cmap, cat.units, replace(base, seed=system_seed(opts.seed, g.system)), cat.name,
+                          debug) for g in todo]
+                bar = progress_bar(len(tasks), quiet=opts.quiet, stream=stream,
+                                   skipped=len(selected) - len(todo))
+                failed = [0]
 
-        def sink(res):
-            store.put(res)
-            prog.update(res["status"] == "ok")
+                def sink(res):
+                    store.put(res)
+                    if res["status"] != "ok":
+                        failed[0] += 1
+                        bar.set_postfix_str(f"{failed[0]} rejected", refresh=False)
+                    bar.update(1)
 
-        try:
-            if scheduler:
-                _run_dask(tasks, sink, scheduler)
-            elif jobs == 1 or len(tasks) <= 1:
-                _run_serial(tasks, sink)
-            else:
-                _run_local(tasks, sink, jobs)
-        finally:
-            prog.close()
-        return _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts,
-                       list(where), limit, figures)
+                try:
+                    run_tasks(tasks, sink, jobs, client=client)
+                    client = None                     # closed by run_tasks
+                finally:
+                    bar.close()
+                return _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv)
+            except BaseException:
+                if store.count() == 0:                # nothing stored: leave no empty store behind
+                    store.close()
+                    lock.remove_store(STORE_NAME)
+                raise
+            finally:
+                store.close()
     finally:
-        store.close()
+        if client is not None:
+            client.close()
 
 
-def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, where, limit, figures):
+def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv):
+    from ..output.files import atomic_write, staged
     from .hierarchical import eccentricity_population, tilt_population
     from .population import population_statistics
     status = store.systems(ids)
@@ -436,8 +168,9 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, w
     planets = store.rows("planets", ids)
     rejects = [{"system": "", "planet": "", "row": r, "field": "system", "column": cmap.system,
                 "reason": f"row has no system id in column '{cmap.system}'"} for r in orphans]
+    attached = {r for g in groups for r, _ in g.broken}      # reported with their system
     rejects += [{"system": "", "planet": "", "row": r, "field": "", "column": "", "reason": why}
-                for r, why in cat.malformed]
+                for r, why in cat.malformed if r not in attached]
     rejects += store.rejects(ids)
     kinds = [k for _, st, _, k, _ in status if st != "ok"]
     counts = {
@@ -454,6 +187,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, w
     if counts["systems_selected"] != counts["systems_analysed"] + counts["systems_rejected"]:  # pragma: no cover
         raise RuntimeError(f"survey counts do not reconcile: {counts}")
 
+    seed, where, limit = opts.seed, list(sv.where), sv.limit
     pop = {"schema_version": 1, "archsys_version": __version__,
            "catalog": {"file": cat.name, "sha256": cat.sha256},
            "columns": {"source": pathlib.Path(cmap.source).name if cmap.sha256 else cmap.source,
@@ -478,15 +212,15 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, seed, opts, w
             "reason": "no analysed posterior provides planet tilts 'psi' (direct Monte Carlo draws do not "
                       "sample mutual inclinations); the MCMC mode of transiting multis would"}
 
-    write_csv(out / "systems.csv", header_of(ok_rows, _FIRST_SYSTEM_COLS), ok_rows)
-    write_csv(out / "planets.csv", header_of(planets, ("system", "planet")), planets)
-    write_csv(out / "pairs.csv", header_of(pairs, _FIRST_PAIR_COLS), pairs)
-    write_csv(out / "rejects.csv", list(REJECT_COLS), rejects)
-    if figures:
-        from .figures import survey_figures
-        survey_figures(pop, ok_rows, pairs, planets, out / "figures")
-    from ..output.files import atomic_write
-    atomic_write(out / "population.json", json.dumps(pop, indent=2, allow_nan=False) + "\n")
+    with staged(out):           # every file of the run, or none
+        write_csv(out / "systems.csv", header_of(ok_rows, _FIRST_SYSTEM_COLS), ok_rows)
+        write_csv(out / "planets.csv", header_of(planets, ("system", "planet")), planets)
+        write_csv(out / "pairs.csv", header_of(pairs, _FIRST_PAIR_COLS), pairs)
+        write_csv(out / "rejects.csv", list(REJECT_COLS), rejects)
+        if sv.figures:
+            from .figures import survey_figures
+            survey_figures(pop, ok_rows, pairs, planets, out / "figures")
+        atomic_write(out / "population.json", json.dumps(pop, indent=2, allow_nan=False) + "\n")
     return pop
 
 
@@ -544,26 +278,8 @@ def _hier_inputs(store, ids, ok_rows):
 
 
 # --------------------------------------------------------------------------
-# CLI and benchmark
+# Benchmark
 # --------------------------------------------------------------------------
-
-def run_survey_cli(args) -> int:
-    """Entry point of ``archsys survey`` (see :mod:`archsys.cli`)."""
-    pop = run_survey(args.catalog, args.out, columns=args.columns, where=args.where or (),
-                     resume=args.resume, scheduler=args.scheduler, limit=args.limit,
-                     figures=not args.no_figures, seed=args.seed, draws=args.draws, mode=args.mode,
-                     ecc_prior=args.ecc_prior, incl_prior=args.incl_prior, require_stable=args.require_stable,
-                     max_steps=args.max_steps, nbody=args.nbody, jobs=args.jobs, quiet=args.quiet,
-                     debug=getattr(args, "debug", False))
-    c = pop["counts"]
-    if not args.quiet:
-        sys.stderr.write(f"archsys survey: {c['systems_selected']} systems: {c['systems_analysed']} analysed, "
-                         f"{c['systems_rejected']} rejected (see {pathlib.Path(args.out) / 'rejects.csv'})\n")
-    if c["rejected_analysis_error"]:
-        sys.stderr.write(f"archsys survey: warning: {c['rejected_analysis_error']} systems failed inside the "
-                         f"analysis (reason 'analysis failed: ...' in rejects.csv); please report them\n")
-    return 0
-
 
 def survey_benchmark(catalog, columns=None, jobs=1, out=None, mode="fast", draws=None, where=(),
                      limit=None, seed=0):
@@ -582,8 +298,8 @@ def survey_benchmark(catalog, columns=None, jobs=1, out=None, mode="fast", draws
         out = tmp.name
     try:
         t0 = time.perf_counter()
-        pop = run_survey(catalog, out, columns=columns, where=where, limit=limit, figures=False,
-                         seed=seed, draws=draws, mode=mode, jobs=jobs, quiet=True)
+        pop = run_survey(catalog, out, AnalysisOptions(n_draws=draws, mode=mode, seed=seed, jobs=jobs),
+                         SurveyOptions(columns=columns, where=tuple(where), limit=limit, figures=False))
         wall = time.perf_counter() - t0
     finally:
         if tmp is not None:

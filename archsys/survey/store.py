@@ -10,7 +10,8 @@ column map, analysis options, seed); a resume with other inputs is refused.
 Final tables are exported from the store sorted by system id, so an
 interrupted-then-resumed run writes the same bytes as an uninterrupted one.
 
-CSV cells that a spreadsheet would run as a formula (text starting with ``=``,
+Control characters in text cells (NUL, terminal escapes) are written as
+``\\xNN`` (:func:`archsys.output.files.printable`).  CSV cells that a spreadsheet would run as a formula (text starting with ``=``,
 ``+``, ``-``, ``@``, a tab or a carriage return) are prefixed with ``'``;
 numbers such as ``-0.5`` are left alone (OWASP "CSV injection", common
 practice).
@@ -27,7 +28,7 @@ import sqlite3
 import numpy as np
 
 from ..errors import InputError
-from ..output.files import atomic_write
+from ..output.files import atomic_write, printable
 
 __all__ = ["SurveyStore", "escape_cell", "csv_text", "write_csv", "pack_samples", "unpack_samples"]
 
@@ -239,7 +240,7 @@ def escape_cell(x):
     if isinstance(x, (float, np.floating)):
         x = float(x)
         return repr(x) if math.isfinite(x) else ""
-    s = str(x)
+    s = printable(str(x), keep_newlines=True)      # no raw terminal escapes or NUL in a table
     if s.startswith(_FORMULA_START) and not _is_number_text(s):
         return "'" + s
     return s

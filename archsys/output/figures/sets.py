@@ -73,7 +73,6 @@ def make_figures(draws, document, preset=None, truths=None, priors=None, corner_
     ``"e_b,m_b,m_c"``, see :func:`~archsys.output.figures.params.choose_parameters`)
     adds the author's chosen paper figure ``corner_selected``.
     """
-    from ..files import safe_name
     p = get_preset(preset)
     name = document.get("system", "system")
     if priors is None:
@@ -99,9 +98,11 @@ def make_figures(draws, document, preset=None, truths=None, priors=None, corner_
             raise InputError("--corner-params needs posterior draws (a chains file or a new analysis)")
         return items
     sets = [("corner_system", system_parameters(draws, document), f"{name}: system parameters")]
+    from ..files import unique_stems
+    letters, _ = unique_stems([letter(pl["name"], name) for pl in document.get("planets", [])],
+                              fallback="planet", reserved=("system",))   # "b/1" vs "b_1"; never "system"
     for j, pl in enumerate(document.get("planets", [])):
-        sets.append((f"corner_{safe_name(letter(pl['name'], name))}", planet_parameters(draws, document, j),
-                     pl["name"]))
+        sets.append((f"corner_{letters[j]}", planet_parameters(draws, document, j), pl["name"]))
     for fname, params, label in sets:
         kept, skipped = usable_parameters(params)
         if len(kept) < 2:

@@ -1,0 +1,292 @@
+"""Survey workers: one system per task, local process pools or Dask, and the progress bar.
+
+:func:`process_system` validates and analyses one system and never raises for
+bad input (it returns a reject).  Local workers are spawned processes that exit
+when the survey process dies (:func:`watch_parent`); a Dask cluster gets the
+same tasks through :func:`dask_client`.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import pathlib
+import re
+import threading
+import time
+import traceback
+import warnings
+
+import numpy as np
+
+from ..errors import ConvergenceWarning, InputError
+from ..progress import progress_bar
+from .mapping import system_mapping
+from .store import pair_row, planet_row, system_row
+
+__all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "dask_client",
+           "run_tasks", "SAMPLES_PER_PLANET", "MAX_BATCH"]
+
+#: Posterior samples per planet kept for the hierarchical inference.
+SAMPLES_PER_PLANET = 100
+_THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+
+def _rejected(sid, n, problems, kind):
+    return {"system": sid, "status": "rejected", "n_planets": n, "error_kind": kind, "rejects": problems}
+
+
+def _problems_from_error(exc, source, rows_of, cmap):
+    """Reject lines from build_system's InputError (one per problem line)."""
+    out = []
+    for line in getattr(exc, "problems", None) or [str(exc)]:
+        msg = line[len(source) + 2:] if line.startswith(source + ": ") else line
+        planet, fld = "", ""
+        m = re.match(r"planet '(.*?)': (.*)$", msg)
+        if m:
+            planet, msg = m.group(1), m.group(2)
+        elif msg.startswith("star: "):
+            msg = msg[6:]
+            fld = "star"
+        f = re.match(r"field '([^']+)': (.*)$", msg)
+        if f:
+            fld = f"star_{f.group(1)}" if fld == "star" else f.group(1)
+            msg = f.group(2)
+        else:
+            g = re.search(r"(?:required )?fields? '([^']+)'", msg)
+            if g:
+                fld = f"star_{g.group(1)}" if fld == "star" else g.group(1)
+        row = rows_of.get(planet, rows_of.get(""))
+        out.append({"planet": planet, "row": row, "field": fld, "column": cmap.column_of(fld) or "",
+                    "reason": msg})
+    return out
+
+
+def _measured_ecc(planet):
+    q = planet.quantities
+    if "secosw" in q:
+        return "secosw/sesinw", "ecc-uniform"
+    if "ecosw" in q:
+        return "ecosw/esinw", "linear-2e"       # uniform in (e cos w, e sin w) implies p0(e) = 2e
+    if "ecc" in q:
+        return q["ecc"].kind, "ecc-uniform"
+    return None, None
+
+
+def _survey_extras(res):
+    """Scores the survey tables need that an older document may not carry yet: from the score registry."""
+    doc = res.document
+    pairs = doc.get("pairs", [])
+    if "gap_complexity" in doc or len(doc.get("planets", [])) < 3:
+        if all("nearest_mmr" in p for p in pairs):
+            return {}, [{} for _ in pairs]
+    from ..scores import compute_scores
+    sc = compute_scores(res.posterior, res.options)
+    extra = {k: sc["system"][k] for k in ("gap_complexity",) if k not in doc and k in sc["system"]}
+    pair_extra = [{k: q[k] for k in ("nearest_mmr", "mmr_offset") if k not in p and k in q}
+                  for p, q in zip(pairs, sc["pairs"])]
+    return extra, pair_extra
+
+
+def _prior_name(post, key, default):
+    v = (post.prior or {}).get(key)
+    v = v.get("name") if isinstance(v, dict) else v
+    return v or default
+
+
+def _finite_json(x):
+    """The document with NaN/inf replaced by None (JSON has no such numbers)."""
+    from ..output.document import _finite
+    return _finite(x)
+
+
+def _summarise(sid, res):
+    doc = _finite_json(res.document)
+    res.document = doc
+    post = res.posterior
+    extra, pair_extra = _survey_extras(res)
+    planets = []
+    ecc = np.asarray(post["ecc"], dtype=float)
+    psi = post.get("psi")
+    has_sigma = post.get("sigma_mutual") is not None
+    n = ecc.shape[0]
+    take = np.linspace(0, n - 1, min(SAMPLES_PER_PLANET, n)).round().astype(int)
+    for j, (entry, pl) in enumerate(zip(doc["planets"], res.system.planets)):
+        basis, interim = _measured_ecc(pl)
+        row = planet_row(sid, entry)
+        row["ecc_measured"] = basis is not None
+        rec = {"row": row, "ecc_basis": basis}
+        if basis is not None:
+            if post.method == "mcmc":     # sampled under the run's eccentricity prior
+                interim = _prior_name(post, "eccentricity", res.options.ecc_prior or "ecc-uniform")
+            rec["ecc_interim"] = interim
+            rec["ecc_samples"] = ecc[take, j]
+        if psi is not None:
+            x = np.asarray(psi, dtype=float)[take, j]
+            if np.all(np.isfinite(x)):
+                rec["psi_samples"] = x
+                sp = _prior_name(post, "mutual_inclination_sigma", res.options.incl_prior or "incl-loguniform")
+                rec["psi_interim"] = f"rayleigh-marginal:{sp}" if has_sigma else "uniform-psi"
+        planets.append(rec)
+    return {"system": sid, "status": "ok", "n_planets": res.system.n_planets, "document": doc,
+            "system_row": system_row(doc, extra),
+            "pairs": [pair_row(sid, p, e) for p, e in zip(doc.get("pairs", []), pair_extra)],
+            "planets": planets, "rejects": []}
+
+
+def process_system(task):
+    """Validate and analyse one system; never raises for bad input (returns a reject)."""
+    from ..model.reader import build_system
+    from ..pipeline import analyze
+    group, cmap, units, options, catalog_name, debug = task
+    sid, n = group.system, group.n_planets
+    source = f"{catalog_name}: system '{sid}'"
+    if getattr(group, "broken", None):       # a row of this system could not be read
+        return _rejected(sid, n + len(group.broken), [
+            {"planet": "", "row": r, "field": "", "column": "",
+             "reason": f"{why}; the system is not analysed without that row"} for r, why in group.broken], "input")
+    data, problems, rows_of = system_mapping(group, cmap, units)
+    if problems:
+        return _rejected(sid, n, problems, "input")
+    digest = hashlib.sha256(json.dumps(data, sort_keys=True, default=str).encode()).hexdigest()
+    try:
+        system = build_system(data, source=source, sha256=digest)
+    except InputError as exc:
+        return _rejected(sid, n, _problems_from_error(exc, source, rows_of, cmap), "input")
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("ignore", RuntimeWarning)
+            warnings.simplefilter("always", ConvergenceWarning)
+            res = analyze(system, options)
+            out = _summarise(sid, res)
+        notes = sorted({" ".join(str(w.message).split()) for w in caught
+                        if issubclass(w.category, ConvergenceWarning)})
+        if notes:     # kept with the system instead of interrupting the progress line
+            out["system_row"]["warnings"] = "; ".join(notes)
+        return out
+    except InputError as exc:
+        return _rejected(sid, n, _problems_from_error(exc, source, rows_of, cmap), "input")
+    except Exception as exc:  # noqa: BLE001 - logged as a reject that names the exception type
+        if debug:
+            raise
+        frames = traceback.extract_tb(exc.__traceback__)[-2:]
+        at = " <- ".join(f"{pathlib.Path(f.filename).parent.name}/{pathlib.Path(f.filename).name}:{f.lineno}"
+                         for f in reversed(frames))
+        reason = f"analysis failed: {type(exc).__name__}: {' '.join(str(exc).split())} (at {at})"
+        return _rejected(sid, n, [{"planet": "", "row": rows_of.get(""), "field": "", "column": "",
+                                   "reason": reason}], "analysis")
+
+
+# --------------------------------------------------------------------------
+# Progress: archsys.progress.progress_bar (re-exported here)
+# --------------------------------------------------------------------------
+
+# --------------------------------------------------------------------------
+# Executors
+# --------------------------------------------------------------------------
+
+def _parent_watch(parent_pid, interval):
+    while True:
+        time.sleep(interval)
+        if os.getppid() != parent_pid:      # the parent died (kill -9): re-parented to init
+            os._exit(3)
+
+
+def watch_parent(parent_pid, interval=0.5):
+    """Worker initialiser: exit as soon as the survey process that started us is gone.
+
+    A worker blocked on the task pipe would otherwise linger after a kill -9 of
+    the parent (every spawned worker holds the pipe's write end too).
+    """
+    threading.Thread(target=_parent_watch, args=(parent_pid, interval), daemon=True,
+                     name="archsys-parent-watch").start()
+
+
+def _run_serial(tasks, sink):
+    for t in tasks:
+        sink(process_system(t))
+
+
+def process_batch(batch):
+    """Several systems in one worker call (amortises the per-task cost of fast surveys)."""
+    return [process_system(t) for t in batch]
+
+
+#: Largest number of systems sent to a worker in one call.
+MAX_BATCH = 16
+
+
+def _run_local(tasks, sink, jobs):
+    import multiprocessing
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+    ctx = multiprocessing.get_context("spawn")     # no inherited sqlite handle, same as Dask workers
+    # small batches: few enough per call that every worker stays busy to the end and a crash
+    # loses little; results are still stored system by system
+    size = max(1, min(MAX_BATCH, len(tasks) // (8 * jobs)))
+    it = iter([tasks[i:i + size] for i in range(0, len(tasks), size)])
+    # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
+    saved = {k: os.environ.get(k) for k in _THREAD_VARS}
+    os.environ.update({k: "1" for k in _THREAD_VARS})
+    ex = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=watch_parent,
+                             initargs=(os.getpid(),))
+    try:
+        pending = set()
+        for b in it:
+            pending.add(ex.submit(process_batch, b))
+            if len(pending) >= 4 * jobs:
+                break
+        while pending:
+            done, pending = wait(pending, return_when=FIRST_COMPLETED)
+            for f in done:
+                for r in f.result():
+                    sink(r)
+                nxt = next(it, None)
+                if nxt is not None:
+                    pending.add(ex.submit(process_batch, nxt))
+    except BaseException:
+        ex.shutdown(wait=False, cancel_futures=True)
+        raise
+    finally:
+        for k, v in saved.items():
+            if v is None:
+                os.environ.pop(k, None)
+            else:
+                os.environ[k] = v
+    ex.shutdown(wait=True)
+
+
+def dask_client(address):
+    """A connected Dask client, or one InputError line (missing extra, unreachable scheduler)."""
+    try:
+        from distributed import Client
+    except ImportError:
+        raise InputError("--scheduler needs Dask distributed, the optional extra 'dask' "
+                         "(pip install 'archsys[dask]')") from None
+    import dask
+    try:
+        return Client(address, timeout=dask.config.get("distributed.comm.timeouts.connect", "30s"))
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise InputError(f"--scheduler {address}: cannot connect to the Dask scheduler "
+                         f"({' '.join(str(exc).split())})") from None
+
+
+def _run_dask(tasks, sink, client):
+    from distributed import as_completed
+    try:
+        futures = client.map(process_system, tasks, pure=False)
+        for fut in as_completed(futures):
+            sink(fut.result())
+            fut.release()
+    finally:
+        client.close()
+
+
+def run_tasks(tasks, sink, jobs, client=None):
+    """Run every task: on Dask when ``client``, serially for one job or task, else on local processes."""
+    if client is not None:
+        _run_dask(tasks, sink, client)
+    elif jobs == 1 or len(tasks) <= 1:
+        _run_serial(tasks, sink)
+    else:
+        _run_local(tasks, sink, jobs)
