@@ -147,7 +147,8 @@ def _write_report_files(results, args):
     stems, renamed = unique_stems(names)
     with StagedOutput(args.out, args.figures) as st:
         for r, stem in zip(results, stems):
-            write_outputs(r, out_dir=args.out, fig_dir=args.figures, preset=args.preset, stem=stem)
+            write_outputs(r, out_dir=args.out, fig_dir=args.figures, preset=args.preset, stem=stem,
+                          corner_params=args.corner_params)
     for name, stem in renamed:
         _note(f"note: system '{name}' is written as '{stem}.*' (its file name would collide with another "
               f"system's)")
@@ -229,9 +230,26 @@ def _cmd_plot(args):
     get_preset(args.preset)
     check_regular_file(args.result, "chains file (.npz)", max_bytes=4 << 30)
     with StagedOutput(args.figures) as st:
-        plot_saved(args.result, args.figures, preset=args.preset)
+        plot_saved(args.result, args.figures, preset=args.preset, corner_params=args.corner_params)
     _note(f"wrote {len(st.written)} files to {args.figures}")
     return 0
+
+
+def _cmd_stack(args):
+    from .stacking import collect_documents, sort_documents, write_stacked_figure
+    has_files = any(str(f).lower().endswith(".toml") for f in args.inputs)
+    docs = collect_documents(args.inputs, options=options_from_args(args) if has_files else None, where=args.where)
+    key = args.sort_by
+    if key and args.descending and not key.startswith("-"):
+        key = "-" + key
+    docs = sort_documents(docs, key)
+    for path in write_stacked_figure(docs, args.figures, stem=args.name, preset=args.preset, limit=args.limit):
+        sys.stdout.write(f"{path}\n")
+    return 0
+
+
+_CORNER_HELP = ("the paper corner figure: parameters to show, e.g. 'e_b,m_b,m_c' or 'e_*' "
+                "(keys: e_X, omega_X, i_X, psi_X, m_X per planet X; sigma; Phi_XY); written as NAME_corner_selected")
 
 
 def build_parser():
@@ -249,6 +267,7 @@ def build_parser():
     r.add_argument("--out", default=None, metavar="DIR", help="write every format (and chains) to DIR")
     r.add_argument("--figures", default=None, metavar="DIR", help="write figures (PDF and PNG) to DIR")
     r.add_argument("--preset", default="one-column", help="figure preset: one-column, two-column, slide")
+    r.add_argument("--corner-params", default=None, metavar="KEYS", help=_CORNER_HELP)
     r.add_argument("--no-colour", action="store_true", help="plain text even on a terminal")
     r.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(r)
@@ -287,8 +306,28 @@ def build_parser():
     q.add_argument("result", help="chains file (.npz) written by `archsys report --out`")
     q.add_argument("--figures", required=True, metavar="DIR")
     q.add_argument("--preset", default="one-column")
+    q.add_argument("--corner-params", default=None, metavar="KEYS", help=_CORNER_HELP)
     q.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     q.set_defaults(func=_cmd_plot)
+
+    k = sub.add_parser("stack", help="one architecture figure of many systems, stacked in rows")
+    k.add_argument("inputs", nargs="+", help="system files (.toml), saved chains (.npz), report documents "
+                   "(.json) or survey folders (from `archsys survey --out`)")
+    k.add_argument("--figures", required=True, metavar="DIR", help="folder for NAME.pdf and NAME.png")
+    k.add_argument("--name", default="architecture_stack", help="file stem (default architecture_stack)")
+    k.add_argument("--sort-by", default=None, metavar="KEY",
+                   help="row order, '-KEY' descending: name, n_planets, star_mass, a_inner, a_outer, period_inner, "
+                        "period_outer, total_mass, min_hill_separation, gap_complexity, hill_stable_probability, "
+                        "or a numeric column of a survey's systems.csv (default: input order); "
+                        "write --sort-by=-KEY for descending")
+    k.add_argument("--descending", action="store_true", help="sort from the largest value down")
+    k.add_argument("--where", action="append", default=[], metavar="EXPR",
+                   help="select systems of a survey folder (the survey's --where language; repeatable)")
+    k.add_argument("--limit", type=int, default=None, help="draw at most N systems (after sorting)")
+    k.add_argument("--preset", default="one-column")
+    k.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    _add_analysis_options(k)
+    k.set_defaults(func=_cmd_stack)
     return ap
 
 

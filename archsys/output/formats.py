@@ -79,7 +79,7 @@ def _dir(path, what):
     return p
 
 
-def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None):
+def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, corner_params=None):
     """Write every report format, chains, provenance and figures of ``result``.
 
     Into ``out_dir``: ``<name>.json``, ``.md``, ``.html``, ``.tex``, ``.aas.tex``, ``.txt``,
@@ -107,7 +107,8 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None):
     out = _dir(out_dir, "output folder") if out_dir is not None else None
     figs_at = _dir(fig_dir, "figure folder") if fig_dir is not None else out / "figures"
 
-    figures = make_figures(_draws_of(result), doc, preset=preset_name)
+    chosen = {"corner_params": corner_params} if corner_params else {}
+    figures = make_figures(_draws_of(result), doc, preset=preset_name, **chosen)
     fig_blobs = figure_files(figures, stem)                # {file name: bytes}
     files = {}                                             # path -> (bytes or str, mode)
     for fname, blob in fig_blobs.items():

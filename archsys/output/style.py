@@ -80,18 +80,34 @@ class Preset:
     dpi: int               # PNG resolution
     line_width: float      # data lines
     axes_width: float      # axes frame
+    page_height_in: float = 9.0   # tallest figure that fits the page (or the 16:9 slide)
 
     @property
     def width(self):
         return self.width_in
 
+    @property
+    def min_panel_in(self):
+        """Smallest corner-plot panel (inches) that holds two or three tick labels of this type size."""
+        return 5.5 * self.small_pt / 72.0
+
+    @property
+    def corner_in(self):
+        """Side of a square corner plot: the width, or the page (slide) height if smaller."""
+        return min(self.width_in, self.page_height_in)
+
+    def max_corner_params(self):
+        """Most parameters one corner plot holds with panels at least ``min_panel_in`` wide."""
+        margin = 0.7 * self.font_pt / 8.0
+        return max(2, int((self.corner_in - margin) / self.min_panel_in))
+
 
 # Widths: common practice for AAS/A&A/MNRAS two-column layouts (one column
 # ~3.3-3.5 in, text width ~6.9-7.1 in).  Slide: 16:9 at 10 in wide.
 PRESETS = {
-    "one-column": Preset("one-column", 3.5, 8.0, 7.0, 300, 1.0, 0.6),
-    "two-column": Preset("two-column", 7.1, 9.0, 8.0, 300, 1.1, 0.7),
-    "slide": Preset("slide", 10.0, 16.0, 14.0, 150, 1.8, 1.0),
+    "one-column": Preset("one-column", 3.5, 8.0, 7.0, 300, 1.0, 0.6, 9.0),
+    "two-column": Preset("two-column", 7.1, 9.0, 8.0, 300, 1.1, 0.7, 9.0),
+    "slide": Preset("slide", 10.0, 16.0, 14.0, 150, 1.8, 1.0, 5.625),
 }
 DEFAULT_PRESET = "one-column"
 
