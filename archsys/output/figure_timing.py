@@ -44,7 +44,7 @@ def timing_figure(document, preset=None, fig=None):
         ax = fig.add_subplot(111)
         ax.set_xscale("log")
         ax.set_yscale("log")
-        amps, second = [], []
+        amps, second, notes = [], [], []
         for i, q in enumerate(pairs):
             x, xerr = _err(q["super_period_days"])
             label = "–".join(n.replace(sysname, "").strip() or n for n in (q["inner"], q["outer"]))
@@ -60,8 +60,8 @@ def timing_figure(document, preset=None, fig=None):
                 amps.append(y)
                 got = True
             if got:
-                ax.annotate(label, (x, y), xytext=(4, 4 if i % 2 == 0 else -11), textcoords="offset points",
-                            fontsize=p.small_pt)
+                notes.append(ax.annotate(label, (x, y), xytext=(4, 4 if i % 2 == 0 else -11),
+                                         textcoords="offset points", fontsize=p.small_pt))
             else:
                 second.append((x, label))
         if amps:
@@ -71,11 +71,29 @@ def timing_figure(document, preset=None, fig=None):
         ax.set_ylim(lo, hi)
         for x, label in second:
             ax.plot([x], [lo * 1.15], "^", color=PALETTE["reddish_purple"], ms=5, clip_on=False)
-            ax.annotate(label, (x, lo * 1.15), xytext=(4, 2), textcoords="offset points", fontsize=p.small_pt)
+            notes.append(ax.annotate(label, (x, lo * 1.15), xytext=(4, 2), textcoords="offset points",
+                                     fontsize=p.small_pt))
         for axis in (ax.xaxis, ax.yaxis):
             axis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{v:g}"))
             axis.set_minor_formatter(NullFormatter())
         ax.set_xlabel("super-period [d]")
         ax.set_ylabel("TTV amplitude [min] (approx.)")
         fig.tight_layout()
+        _drop_colliding_labels(fig, ax, notes)
     return fig
+
+
+def _drop_colliding_labels(fig, ax, notes):
+    """Hide pair labels that would run into a label already kept or into the tick labels (the
+    markers stay; the report's table names every pair)."""
+    fig.canvas.draw()
+    r = fig.canvas.get_renderer()
+    kept = [t.get_window_extent(r) for t in ax.get_xticklabels() + ax.get_yticklabels()
+            if t.get_visible() and t.get_text()]
+    kept += [ax.xaxis.label.get_window_extent(r), ax.yaxis.label.get_window_extent(r)]
+    for t in notes:
+        bb = t.get_window_extent(r).expanded(1.1, 1.1)
+        if any(bb.overlaps(k) for k in kept):
+            t.set_visible(False)
+        else:
+            kept.append(bb)
