@@ -16,7 +16,7 @@ from ..physics.constants import MEARTH_MSUN, REARTH_AU, RSUN_AU
 from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
 from .posterior import Posterior
 
-__all__ = ["direct_draws", "eccentricity_draws", "DEFAULT_DRAWS"]
+__all__ = ["direct_draws", "eccentricity_draws", "radius_draws", "mass_from_radius_draws", "DEFAULT_DRAWS"]
 
 DEFAULT_DRAWS = 4000
 RSUN_REARTH = RSUN_AU / REARTH_AU
@@ -115,6 +115,25 @@ def _too_heavy(mass):
         return np.any(mass >= MASS_CAP, axis=1)
 
 
+def radius_draws(planet, r_star, rng, n):
+    """Planet radius draws [R_earth]: ``radius`` as given, else ``ror`` times the stellar radius draws
+    (NaN when neither is known)."""
+    q = planet.quantities
+    if "radius" in q:
+        return q["radius"].sample(rng, n)
+    if "ror" in q and np.isfinite(r_star).all():
+        return q["ror"].sample(rng, n) * r_star * RSUN_REARTH
+    return np.full(n, np.nan)
+
+
+def mass_from_radius_draws(planet, radius, rng):
+    """(mass draws [M_sun], basis note) from radius draws by the mass-radius relation with its scatter."""
+    m = mass_from_radius_mearth(radius) * 10 ** (SCATTER_DEX * rng.standard_normal(radius.shape[0])) * MEARTH_MSUN
+    note = ("from radius (mass-radius relation)" if "radius" in planet.quantities
+            else "from Rp/R* x R* (mass-radius relation)")
+    return m, note
+
+
 def _order_broken(P):
     """Rows (draws) where the periods are not in the planets' order, shape (n,)."""
     return np.any(np.diff(P, axis=1) < 0, axis=1)
@@ -140,11 +159,7 @@ def _draw_rows(system, rng, n):
         note = {}
         P[:, j] = pl.period.sample(rng, n)
         e[:, j], w[:, j], note["ecc"] = eccentricity_draws(pl, rng, n)
-        # radius [R_earth]: given, or Rp/R* times the stellar radius
-        if "radius" in q:
-            radius[:, j] = q["radius"].sample(rng, n)
-        elif "ror" in q and st.radius is not None:
-            radius[:, j] = q["ror"].sample(rng, n) * r_star * RSUN_REARTH
+        radius[:, j] = radius_draws(pl, r_star, rng, n)
         # masses (M_sun) before inclinations; Kepler III needs M* + m
         if "mass" in q:
             mass[:, j] = q["mass"].sample(rng, n) * MEARTH_MSUN
@@ -157,10 +172,7 @@ def _draw_rows(system, rng, n):
             msini[:, j] = kepler.msini_from_k_msun(P[:, j], k_draws, m_star, e[:, j])
             note.setdefault("mass", "minimum (from K)")
         elif "mass" not in q and np.isfinite(radius[:, j]).any():
-            mass[:, j] = (mass_from_radius_mearth(radius[:, j]) * 10 ** (SCATTER_DEX * rng.standard_normal(n))
-                          * MEARTH_MSUN)
-            note["mass"] = ("from radius (mass-radius relation)" if "radius" in q
-                            else "from Rp/R* x R* (mass-radius relation)")
+            mass[:, j], note["mass"] = mass_from_radius_draws(pl, radius[:, j], rng)
         m_for_a = np.where(np.isfinite(mass[:, j]), mass[:, j], np.nan_to_num(msini[:, j]))
         a[:, j] = kepler.a_au(P[:, j], m_star + m_for_a)
         # inclination to the sky

@@ -12,8 +12,7 @@ import numpy as np
 
 from ..physics import kepler, transit
 from ..physics.constants import MEARTH_MSUN, REARTH_AU, RSUN_AU
-from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
-from .draws import eccentricity_draws
+from .draws import eccentricity_draws, mass_from_radius_draws, radius_draws
 
 __all__ = ["exact_draws", "geometry_factor", "mass_basis", "ecc_prior_for", "RSUN_REARTH"]
 
@@ -71,10 +70,7 @@ def exact_draws(system, rng, n, ecc_priors):
                 if prior is not None:
                     with np.errstate(divide="ignore"):
                         logw += prior.logpdf_e(e[:, j])
-        if "radius" in q:
-            radius[:, j] = q["radius"].sample(rng, n)
-        elif "ror" in q and st.radius is not None:
-            radius[:, j] = q["ror"].sample(rng, n) * r_star * RSUN_REARTH
+        radius[:, j] = radius_draws(pl, r_star, rng, n)
         basis = mass_basis(q)
         if basis == "mass":
             mass[:, j] = q["mass"].sample(rng, n) * MEARTH_MSUN
@@ -85,10 +81,7 @@ def exact_draws(system, rng, n, ecc_priors):
             kdraw[:, j] = q["k"].sample(rng, n)
             msini[:, j] = kepler.msini_from_k_msun(P[:, j], kdraw[:, j], m_star, np.minimum(e[:, j], 0.999999))
         elif np.isfinite(radius[:, j]).any():
-            mass[:, j] = (mass_from_radius_mearth(radius[:, j]) * 10 ** (SCATTER_DEX * rng.standard_normal(n))
-                          * MEARTH_MSUN)
-            note["mass"] = ("from radius (mass-radius relation)" if "radius" in q
-                            else "from Rp/R* x R* (mass-radius relation)")
+            mass[:, j], note["mass"] = mass_from_radius_draws(pl, radius[:, j], rng)
         notes[pl.name] = note
     d = dict(m_star=m_star, r_star=r_star, rho_star=rho, period=P, ecc=e, omega=w, mass=mass,
              msini=msini, k=kdraw, radius=radius)

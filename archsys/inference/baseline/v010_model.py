@@ -87,6 +87,7 @@ import numpy as np
 from ...physics import kepler, transit
 from ...physics.constants import MEARTH_MSUN, RSUN_AU
 from ...physics.massradius import mass_from_radius_mearth
+from ..orientation import log_tilt_density, orbit_normals
 
 __all__ = ["SystemModel", "MASS_CAP", "PERIOD_FREE_REL"]
 
@@ -113,21 +114,9 @@ def _term(meas, fld):
     return meas.gauss_params()
 
 
-def _normal(cos_i, node):
-    """Unit orbit normals (..., 3) in the sky frame from cos i and the node."""
-    sin_i = np.sqrt(np.clip(1.0 - cos_i * cos_i, 0.0, 1.0))
-    return np.stack([sin_i * np.sin(node), -sin_i * np.cos(node), cos_i], axis=-1)
-
-
-def _log_tilt_density(cos_psi, sigma):
-    """log [Rayleigh(psi; sigma) / (2 pi sin psi)] per unit solid angle, truncated at psi = pi."""
-    psi = np.arccos(np.clip(cos_psi, -1.0, 1.0))
-    s2 = sigma * sigma
-    # psi / sin(psi) -> 1 as psi -> 0; write it stably
-    ratio = np.where(psi > 1e-6, psi / np.maximum(np.sin(psi), 1e-300), 1.0)
-    with np.errstate(divide="ignore", over="ignore"):
-        log_norm = np.log1p(-np.exp(-np.pi ** 2 / (2.0 * s2)))
-        return np.log(ratio) - np.log(2.0 * np.pi * s2) - 0.5 * psi * psi / s2 - log_norm
+# the orbit-normal and tilt-density helpers are the joint engine's (one definition)
+_normal = orbit_normals
+_log_tilt_density = log_tilt_density
 
 
 @dataclass

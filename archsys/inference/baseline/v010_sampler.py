@@ -19,6 +19,7 @@ from ...physics.massradius import SCATTER_DEX, mass_from_radius_mearth
 from ..draws import direct_draws
 from ..posterior import Posterior
 from ..sampler import _priors
+from ..joint import _why
 from .v010_model import SystemModel
 
 __all__ = ["sample_full_model"]
@@ -221,24 +222,6 @@ def sample_full_model(system, opts) -> Posterior:
                   "mutual_inclination_sigma": {"name": sp.name, "citation": sp.citation,
                                                "from_memory": sp.from_memory}}
     return post
-
-
-def _why(system, opts):
-    if opts.mode == "mcmc":
-        return "requested (--mode mcmc)"
-    reasons = []
-    if opts.require_stable:
-        reasons.append("stability prior")
-    if opts.ecc_prior not in (None, "ecc-uniform"):
-        reasons.append("population eccentricity prior")
-    tr = [p for p in system.planets if p.transiting or "b" in p.quantities]
-    if len(tr) >= 2:
-        reasons.append("several transiting planets share one inclination dispersion")
-    if tr and any(p.transiting is False for p in system.planets):
-        reasons.append("a non-transiting planet constrains the geometry")
-    if any("ascending_node" in p.quantities for p in system.planets):
-        reasons.append("astrometric orientation")
-    return "; ".join(reasons) or "orbits cross in some direct draws"
 
 
 def _prior_orientations(model, c, rng, max_rounds=50):
