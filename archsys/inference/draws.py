@@ -115,6 +115,14 @@ def _too_heavy(mass):
         return np.any(mass >= MASS_CAP, axis=1)
 
 
+def star_draws(star, rng, n):
+    """(mass [M_sun], radius [R_sun], density [g/cm^3]) draws of the star; NaN where not given."""
+    m_star = star.mass.sample(rng, n)
+    r_star = star.radius.sample(rng, n) if star.radius else np.full(n, np.nan)
+    rho = star.density.sample(rng, n) if star.density else np.full(n, np.nan)
+    return m_star, r_star, rho
+
+
 def radius_draws(planet, r_star, rng, n):
     """Planet radius draws [R_earth]: ``radius`` as given, else ``ror`` times the stellar radius draws
     (NaN when neither is known)."""
@@ -143,9 +151,7 @@ def _draw_rows(system, rng, n):
     """One pass of draws for every quantity: (draws dict, notes per planet)."""
     st = system.star
     npl = system.n_planets
-    m_star = st.mass.sample(rng, n)
-    r_star = st.radius.sample(rng, n) if st.radius else np.full(n, np.nan)
-    rho = st.density.sample(rng, n) if st.density else np.full(n, np.nan)
+    m_star, r_star, rho = star_draws(st, rng, n)
 
     shape = (n, npl)
     P, e, w = np.empty(shape), np.empty(shape), np.empty(shape)

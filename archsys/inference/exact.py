@@ -12,7 +12,7 @@ import numpy as np
 
 from ..physics import kepler, transit
 from ..physics.constants import MEARTH_MSUN, REARTH_AU, RSUN_AU
-from .draws import eccentricity_draws, mass_from_radius_draws, radius_draws
+from .draws import eccentricity_draws, mass_from_radius_draws, radius_draws, star_draws
 
 __all__ = ["exact_draws", "geometry_factor", "mass_basis", "ecc_prior_for", "RSUN_REARTH"]
 
@@ -42,9 +42,7 @@ def exact_draws(system, rng, n, ecc_priors):
     """Draws of everything except orientations: dict of arrays, log-weights (n,), notes."""
     st = system.star
     npl = system.n_planets
-    m_star = st.mass.sample(rng, n)
-    r_star = st.radius.sample(rng, n) if st.radius else np.full(n, np.nan)
-    rho = st.density.sample(rng, n) if st.density else np.full(n, np.nan)
+    m_star, r_star, rho = star_draws(st, rng, n)
     shape = (n, npl)
     P, e, w = np.empty(shape), np.empty(shape), np.empty(shape)
     mass, msini, kdraw = (np.full(shape, np.nan) for _ in range(3))
