@@ -31,10 +31,7 @@ from archsys.survey.multiplicity_figure import plot_transit_multiplicity
 from archsys.survey.multiplicity_fit import CountModel, fit_counts, single_excess
 from archsys.survey.run import run_survey
 
-OEC = next((c for c in (pathlib.Path(__file__).resolve().parents[2] / "shared" / "data"
-                        / "open_exoplanet_catalogue_planets.csv",
-                        pathlib.Path("/work/shared/data/open_exoplanet_catalogue_planets.csv")) if c.exists()),
-           pathlib.Path("/work/shared/data/open_exoplanet_catalogue_planets.csv"))
+OEC = pathlib.Path(__file__).parent / "data" / "oec" / "open_exoplanet_catalogue_planets.csv"  # Rein 2012; see data/oec/README.md
 COLUMNS = pathlib.Path(__file__).parent / "data" / "oec_columns.toml"
 FABRYCKY_TILT_DEG = (1.0 / math.sqrt(2.0), 2.2 / math.sqrt(2.0))     # derived, see module docstring
 FANG_MARGOT_MAX_TILT_DEG = 1.55                                      # derived (REFERENCES §8b)
@@ -107,8 +104,6 @@ def test_coverage_over_synthetic_catalogues():
 
 @pytest.fixture(scope="module")
 def oec_block():
-    if not OEC.exists():
-        pytest.skip("open catalogue extract not present")
     cat = read_catalog(str(OEC))
     cmap = bind(load_column_map(str(COLUMNS)), cat)
     groups, _ = group_systems(cat, cmap.system)
