@@ -34,8 +34,8 @@ def __getattr__(name):          # the heavier parts load on first use
         from .pipeline import AnalysisOptions
         return AnalysisOptions
     if name in ("planet_table", "pair_table", "posterior_draws"):
-        from .output import frames
-        return getattr(frames, name)
+        from .output import dataframes
+        return getattr(dataframes, name)
     if name in ("render", "write_outputs"):
         from .output import formats
         return getattr(formats, name)

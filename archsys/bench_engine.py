@@ -29,7 +29,7 @@ def _neff(post):
 
 def bench_posterior(demo_path):
     from . import read_system
-    from .inference.sampler import sample_full_model, sample_system
+    from .inference.route import sample_full_model, sample_system
     from .pipeline import AnalysisOptions
     s = read_system(demo_path)
     opts = AnalysisOptions(seed=0, quiet=True)

@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 from .inference.draws import direct_draws
 from .inference.posterior import Posterior
 from .options import AnalysisOptions, Mode
-from .output.document import build_document
+from .output.json_document import build_document
 
 __all__ = ["AnalysisOptions", "Analysis", "analyze"]
 
@@ -30,7 +30,7 @@ JOINT_ENGINE = "joint"
 
 
 def _posterior(system, opts: AnalysisOptions) -> Posterior:
-    from .inference import sampler
+    from .inference import route as sampler
     # "fast" trades depth for speed in large surveys: direct draws only, never the joint engine
     if opts.uses_mcmc:
         if opts.mode is Mode.MCMC or sampler.needs_mcmc(system, opts):

@@ -25,9 +25,9 @@ import pytest
 from archsys.cli import main
 from archsys.survey import multiplicity as mp
 from archsys.survey.catalog import group_systems, read_catalog
-from archsys.survey.columns import bind, load_column_map
+from archsys.survey.column_map import bind, load_column_map
 from archsys.survey.multiplicity_block import MultiplicitySettings, transit_multiplicity
-from archsys.survey.multiplicity_figure import plot_transit_multiplicity
+from archsys.output.figures.multiplicity import plot_transit_multiplicity
 from archsys.survey.multiplicity_fit import CountModel, fit_counts, single_excess
 from archsys.survey.run import run_survey
 

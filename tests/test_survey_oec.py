@@ -132,7 +132,7 @@ def test_full_catalogue_fast_mode(tmp_path):
 def test_where_on_real_columns():
     """--where over the extract's own columns: discovery_method is lower case there ('transit')."""
     from archsys.survey.catalog import group_systems, parse_where, read_catalog, select
-    from archsys.survey.columns import bind, load_column_map, where_names
+    from archsys.survey.column_map import bind, load_column_map, where_names
     cat = read_catalog(OEC)
     cmap = bind(load_column_map(COLUMNS), cat)
     names = where_names(cmap, cat.columns)

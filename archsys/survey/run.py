@@ -43,7 +43,7 @@ from ..errors import InputError
 from ..options import FAST_DRAWS, AnalysisOptions, SurveyOptions, split_keywords
 from .catalog import group_systems, read_catalog
 from .where import parse_where, select
-from .columns import bind, canonical_map, load_column_map, where_names
+from .column_map import bind, canonical_map, load_column_map, where_names
 from .lock import SurveyLock
 from .store import STORE_NAME, SurveyStore, header_of, write_csv
 from .workers import SAMPLES_PER_PLANET, dask_client, process_system, progress_bar, run_tasks
@@ -225,7 +225,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
         write_csv(out / "pairs.csv", header_of(pairs, _FIRST_PAIR_COLS), pairs)
         write_csv(out / "rejects.csv", list(REJECT_COLS), rejects)
         if sv.figures:
-            from .figures import survey_figures
+            from ..output.figures.survey_set import survey_figures
             survey_figures(pop, ok_rows, pairs, planets, out / "figures")
         atomic_write(out / "population.json", json.dumps(pop, indent=2, allow_nan=False) + "\n")
     return pop

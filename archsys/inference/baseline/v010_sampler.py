@@ -18,7 +18,7 @@ from ...physics.constants import MEARTH_MSUN
 from ...physics.massradius import SCATTER_DEX, mass_from_radius_mearth
 from ..draws import direct_draws
 from ..posterior import Posterior
-from ..sampler import _priors
+from ..route import _priors
 from ..joint import _why
 from .v010_model import SystemModel
 
