@@ -12,7 +12,6 @@ import subprocess
 import sys
 import time
 
-import pytest
 
 from archsys.survey.run import run_survey
 

@@ -32,7 +32,6 @@ import json
 import math
 import os
 import pathlib
-import time
 import zlib
 from dataclasses import replace
 
@@ -48,7 +47,7 @@ from .lock import SurveyLock
 from .store import STORE_NAME, SurveyStore, header_of, write_csv
 from .workers import SAMPLES_PER_PLANET, dask_client, process_system, progress_bar, run_tasks
 
-__all__ = ["run_survey", "survey_benchmark", "system_seed", "process_system",
+__all__ = ["run_survey", "system_seed", "process_system",
            "FAST_DRAWS", "SAMPLES_PER_PLANET", "AnalysisOptions", "SurveyOptions"]
 
 _FIRST_SYSTEM_COLS = ("system", "n_planets", "n_pairs", "n_transiting", "sampler", "warnings")
@@ -282,37 +281,3 @@ def _hier_inputs(store, ids, ok_rows):
     if skipped:
         info["skipped_unknown_interim_prior"] = skipped
     return ecc_s, ecc_l, psi_s, psi_l, info
-
-
-# --------------------------------------------------------------------------
-# Benchmark
-# --------------------------------------------------------------------------
-
-def survey_benchmark(catalog, columns=None, jobs=1, out=None, mode="fast", draws=None, where=(),
-                     limit=None, seed=0):
-    """Time one survey (no figures) and return its figures of merit.
-
-    Returns
-    -------
-    dict
-        ``wall_s``, ``systems``, ``systems_per_s``, ``analysed``, ``rejected``,
-        ``jobs``, ``mode``, ``draws``.
-    """
-    import tempfile
-    tmp = None
-    if out is None:
-        tmp = tempfile.TemporaryDirectory(prefix="archsys-bench-")
-        out = tmp.name
-    try:
-        t0 = time.perf_counter()
-        pop = run_survey(catalog, out, AnalysisOptions(n_draws=draws, mode=mode, seed=seed, jobs=jobs),
-                         SurveyOptions(columns=columns, where=tuple(where), limit=limit, figures=False))
-        wall = time.perf_counter() - t0
-    finally:
-        if tmp is not None:
-            tmp.cleanup()
-    c = pop["counts"]
-    n = c["systems_selected"]
-    return {"wall_s": wall, "systems": n, "systems_per_s": n / wall if wall > 0 else float("nan"),
-            "analysed": c["systems_analysed"], "rejected": c["systems_rejected"], "jobs": jobs,
-            "mode": mode, "draws": pop["options"]["n_draws"]}
