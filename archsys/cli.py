@@ -29,17 +29,8 @@ class _Parser(argparse.ArgumentParser):
 
 
 def _demo_files():
-    from importlib import resources
-    import pathlib
-    try:
-        root = resources.files("archsys.data.demo_systems")
-        files = sorted(p for p in root.iterdir() if p.name.endswith(".toml"))
-        if files:
-            return [str(p) for p in files]
-    except ModuleNotFoundError:
-        pass
-    src = pathlib.Path(__file__).resolve().parents[1] / "demo_systems"
-    return [str(p) for p in sorted(src.glob("*.toml"))]
+    from .demos import demo_files
+    return demo_files()
 
 
 def _add_analysis_options(p):
