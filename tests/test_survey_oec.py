@@ -5,7 +5,7 @@ Known bad rows are named in the extract's README (eccentricities above 1 or
 below 0); the rows checked here were found in the file itself:
 TOI-1272 c (e = 280), HD 93351 b (e = -0.129) and HD 155918 b (e = -0.080).
 The period-ratio asymmetry (excess just wide of 3:2 and 2:1, deficit just
-narrow) is that of Fabrycky et al. 2014 (ApJ 790, 146; REFERENCES.md 6,
+narrow) is that of Fabrycky et al. 2014 (ApJ 790, 146; [Fabrycky2014],
 verified); only its sign is checked.
 """
 import csv
