@@ -16,9 +16,12 @@ from ..physics.constants import MEARTH_MSUN, REARTH_AU, RSUN_AU
 from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
 from .posterior import Posterior
 
-__all__ = ["direct_draws", "eccentricity_draws", "radius_draws", "mass_from_radius_draws", "DEFAULT_DRAWS"]
+__all__ = ["direct_draws", "eccentricity_draws", "radius_draws", "mass_from_radius_draws", "DEFAULT_DRAWS",
+           "DIRECT_WHY"]
 
 DEFAULT_DRAWS = 4000
+#: ``sampler.why`` of the direct path (the joint engine's reasons: :class:`archsys.inference.route.PathReason`).
+DIRECT_WHY = "no joint constraint binds: summaries are independent"
 RSUN_REARTH = RSUN_AU / REARTH_AU
 
 
@@ -100,7 +103,7 @@ def direct_draws(system, n=DEFAULT_DRAWS, seed=0) -> Posterior:
                          source=system.source)
     return Posterior(system, draws, "direct", seed=seed, notes=notes,
                      sampler={"method": "direct Monte Carlo", "draws": n,
-                              "why": "no joint constraint binds: summaries are independent"})
+                              "why": DIRECT_WHY})
 
 
 #: Upper bound of every true mass [M_sun] (about 84 M_J, the hydrogen-burning limit; common practice):

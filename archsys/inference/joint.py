@@ -44,6 +44,7 @@ from .orient_chain import BURN_TAU, N_TAU, run_orientation_mcmc
 from .orient_proposal import OrientationProposal, pareto_khat
 from .orientation import OrientationModel, orbit_normals, prior_orientations
 from .posterior import Posterior
+from .route import choose_path
 from .stability import stable_draws
 
 __all__ = ["sample_joint", "MASS_CAP", "N_TAU", "BURN_TAU", "MAX_POOL_FACTOR"]
@@ -127,25 +128,6 @@ def _single_orientation(system, d, g, rng, kinds):
     node_q = q.get("ascending_node")
     node = np.radians(node_q.sample(rng, n)) if node_q is not None else rng.uniform(-np.pi, np.pi, n)
     return cos_i[:, None], node[:, None], logw
-
-
-def _why(system, opts):
-    if opts.mode == "mcmc":
-        return "requested (--mode mcmc)"
-    reasons = []
-    if opts.require_stable:
-        reasons.append("stability prior")
-    if opts.ecc_prior not in (None, "ecc-uniform"):
-        reasons.append("population eccentricity prior")
-    tr = [p for p in system.planets if p.transiting or "b" in p.quantities]
-    if len(tr) >= 2:
-        reasons.append("several transiting planets share one inclination dispersion")
-    if tr and any(p.transiting is False for p in system.planets):
-        reasons.append("a non-transiting planet constrains the geometry")
-    if any("ascending_node" in p.quantities or "inclination" in p.quantities for p in system.planets) \
-            and system.n_planets >= 2:
-        reasons.append("measured orientations")
-    return "; ".join(reasons) or "orbits cross in some direct draws"
 
 
 _REASONS = {
@@ -258,7 +240,7 @@ def sample_joint(system, opts) -> Posterior:
                    "joint engine: exact draws of the summaries, independent orientation draws from a Gaussian "
                    "approximation, importance weights" if proposal is not None else
                    "joint engine: exact draws of the summaries and orientations, importance weights"),
-        "why": _why(system, opts),
+        "why": choose_path(system, opts).why,
     }
     if info:
         post.sampler.update(info)
