@@ -244,7 +244,7 @@ _CORNER_HELP = ("the paper corner figure: parameters to show, e.g. 'e_b,m_b,m_c'
 
 
 def build_parser():
-    from . import __version__
+    from .version import __version__
     ap = _Parser(prog="archsys", description="Architecture of multi-planet systems "
                  "from catalogue measurements.")
     ap.add_argument("--version", action="version", version=f"archsys {__version__}")

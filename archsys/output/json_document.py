@@ -12,7 +12,7 @@ import platform
 
 import numpy as np
 
-from .. import __version__
+from ..version import __version__
 from ..inference.summary import summarize, summarize_angle
 from ..physics.constants import MEARTH_MSUN
 from ..scores.common import barely_constrained, flat_ecc_prior

@@ -18,6 +18,9 @@ import numpy as np
 
 from archsys.physics.constants import GM_SUN
 
+__all__ = ["PLB17_R", "lambda_circ", "amd", "system_amd", "critical_amd", "mmr_overlap_g",
+           "mmr_overlap_critical_amd", "pair_critical_amd", "amd_beta", "amd_stable"]
+
 #: r in the Petit, Laskar & Boue (2017) MMR-overlap criterion.  From memory
 #: (REFERENCES.md section 5): consistent with the Deck et al. (2013) overlap
 #: width 1.46 eps^(2/7), but not read from the paper.

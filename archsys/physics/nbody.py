@@ -27,6 +27,9 @@ import numpy as np
 from archsys.errors import InputError
 from archsys.physics.constants import GM_SUN, MEARTH_MSUN, TWO_PI
 
+__all__ = ["MEGNO_CHAOS", "STEPS_PER_ORBIT", "ESCAPE_FACTOR", "nbody_available", "MegnoResult",
+           "megno_draws", "time_per_draw"]
+
 #: MEGNO above which a draw is called chaotic.  Common practice: <Y> -> 2 for
 #: quasi-periodic orbits and grows ~ t * lambda / 2 for chaotic ones; 2.5
 #: leaves room for the slow convergence of short integrations.

@@ -24,6 +24,11 @@ from math import gcd
 
 import numpy as np
 
+__all__ = ["MMR_MAX_ORDER", "MMR_J_MAX", "build_mmr_table", "MMR_TABLE", "mmr_label", "period_ratios",
+           "nearest_mmr", "DECK2013_COEFF", "WISDOM1980_COEFF", "RES_WIDTH_COEFF", "NEAR_WINDOW_MULTIPLE",
+           "resonance_width", "near_resonance", "resonant_chains", "chain_length_max", "overlap_zone",
+           "in_overlap_zone", "c_max", "lmc_maximiser", "gap_complexity", "spacing_uniformity"]
+
 # ---------------------------------------------------------------------------
 # Resonance table
 # ---------------------------------------------------------------------------

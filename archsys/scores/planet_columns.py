@@ -6,7 +6,7 @@ and units from the same :class:`~archsys.scores.registry.Column` model, through
 """
 from __future__ import annotations
 
-from .registry import Column
+from .column_model import Column
 
 __all__ = ["PLANET_COLUMNS", "STAR_COLUMNS", "BASE_COLUMNS"]
 

@@ -37,7 +37,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from .. import __version__
+from ..version import __version__
 from ..errors import InputError
 from ..options import FAST_DRAWS, AnalysisOptions, SurveyOptions, split_keywords
 from .catalog import group_systems, read_catalog
