@@ -244,6 +244,7 @@ _CORNER_HELP = ("the paper corner figure: parameters to show, e.g. 'e_b,m_b,m_c'
 
 
 def build_parser():
+    from .output.formats.registry import format_names
     from .version import __version__
     ap = _Parser(prog="archsys", description="Architecture of multi-planet systems "
                  "from catalogue measurements.")
@@ -254,7 +255,8 @@ def build_parser():
     r = sub.add_parser("report", help="analyse system files and report (no file: the bundled demo systems)")
     r.add_argument("files", nargs="*", help="system files (TOML)")
     r.add_argument("--json", action="store_true", help="print the JSON document")
-    r.add_argument("--format", choices=["text", "json", "markdown", "html", "latex"], default="text")
+    r.add_argument("--format", choices=format_names(), default="text",
+                   help="report format on standard output (every registered format)")
     r.add_argument("--out", default=None, metavar="DIR", help="write every format (and chains) to DIR")
     r.add_argument("--figures", default=None, metavar="DIR", help="write figures (PDF and PNG) to DIR")
     r.add_argument("--preset", default="one-column", help="figure preset: one-column, two-column, slide")

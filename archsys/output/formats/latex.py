@@ -18,8 +18,9 @@ import io
 from ..files import safe_name
 from ..table_model import document_tables, intro_line
 from ..latex_escape import escape
+from .registry import ReportFormat, register_format
 
-__all__ = ["render_latex", "render_aastex", "latex_cell", "escape", "standalone"]
+__all__ = ["FORMAT", "render_latex", "render_aastex", "latex_cell", "escape", "standalone"]
 
 
 def _percent(text):
@@ -181,3 +182,6 @@ def standalone(fragment: str) -> str:
     """A complete document around a fragment from :func:`render_latex` (for test compiles)."""
     return "\\documentclass[twocolumn]{article}\n\\begin{document}\n" + fragment + "\\end{document}\n"
 
+
+FORMAT = register_format(ReportFormat("latex", ".tex", lambda doc, ctx: render_latex(doc), order=40, aliases=("tex",),
+                                      description="LaTeX tabular tables for \\input"))
