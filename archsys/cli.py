@@ -177,7 +177,7 @@ def _silence_stdout():
 
 
 def _cmd_priors(args):
-    from .inference.priors import list_priors
+    from .inference.prior_files import list_priors
     rows = []
     for p in list_priors():
         flag = "  [from memory]" if p.from_memory else ""

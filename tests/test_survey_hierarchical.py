@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from archsys.inference.priors import load_prior
+from archsys.inference.prior_files import load_prior
 from archsys.survey.hierarchical import (HMBData, eccentricity_population, fit_beta,
                                          marginal_tilt_log_prior, tilt_population)
 from archsys.survey.run import run_survey

@@ -39,11 +39,13 @@ import numpy as np
 from ..errors import ConvergenceWarning, InputError
 from ..physics import kepler
 from ..physics.constants import MEARTH_MSUN
+from .basis import Basis, Source
 from .exact import ecc_prior_for, exact_draws, geometry_factor, mass_basis
 from .orient_chain import BURN_TAU, N_TAU, run_orientation_mcmc
 from .orient_proposal import OrientationProposal, pareto_khat
 from .orientation import OrientationModel, orbit_normals, prior_orientations
 from .posterior import Posterior
+from .prior_choice import resolve_priors
 from .route import choose_path
 from .stability import stable_draws
 
@@ -59,22 +61,11 @@ MAX_CHUNK = 100_000
 
 # --------------------------------------------------------------------------- the engine
 def _resolve_priors(system, opts):
-    from .priors import default_prior, load_prior
-    user = load_prior(opts.ecc_prior) if opts.ecc_prior else None
-    if user is not None and user.quantity != "eccentricity":
-        raise InputError(f"--prior {opts.ecc_prior}: is a prior on {user.quantity}, not eccentricity")
-    sp = load_prior(opts.incl_prior) if opts.incl_prior else default_prior("mutual_inclination_sigma")
-    if sp.quantity != "mutual_inclination_sigma":
-        raise InputError(f"--incl-prior {opts.incl_prior}: is a prior on {sp.quantity}, not mutual_inclination_sigma")
-    multis, singles = load_prior(DEFAULT_NO_DATA_PRIOR[0]), load_prior(DEFAULT_NO_DATA_PRIOR[1])
+    choice = resolve_priors(opts)
+    multis, singles = choice.no_data
     npl = system.n_planets
-    ecc_priors = [ecc_prior_for(p, npl, user, multis, singles) for p in system.planets]
-    return user, sp, ecc_priors
-
-
-#: Eccentricity prior of planets without eccentricity data (multi-planet systems, single planets)
-#: when the user names none: see the README ("Priors") for the reasons.
-DEFAULT_NO_DATA_PRIOR = ("ecc-vaneylen2019-multis", "ecc-kipping2013-rv")
+    ecc_priors = [ecc_prior_for(p, npl, choice.eccentricity, multis, singles) for p in system.planets]
+    return choice.eccentricity, choice.sigma, ecc_priors
 
 
 def _prior_block(user, sp, ecc_priors, system):
@@ -141,13 +132,15 @@ _REASONS = {
 
 
 def _orient_kind_note(kind, hier, orient_free):
-    if orient_free:
-        return "prior only (isotropic reference plane, Rayleigh tilts)" if hier else "prior only (isotropic orientation)"
-    return {"b": "posterior (transit geometry" + (", hierarchical orientation model)" if hier else ")"),
-            "incl": "posterior (sky inclination summary" + (", hierarchical orientation model)" if hier else ")"),
-            "fixed": "fixed (exact value given)",
-            "free": ("posterior (hierarchical orientation model; no orientation data of its own)" if hier
-                     else "prior only (isotropic orientation)")}[kind]
+    if orient_free or (kind == "free" and not hier):
+        return Basis("prior only (isotropic reference plane, Rayleigh tilts)" if orient_free and hier
+                     else "prior only (isotropic orientation)", Source.PRIOR)
+    if kind == "fixed":
+        return Basis("fixed (exact value given)", Source.FIXED)
+    return Basis({"b": "posterior (transit geometry" + (", hierarchical orientation model)" if hier else ")"),
+                  "incl": "posterior (sky inclination summary" + (", hierarchical orientation model)" if hier else ")"),
+                  "free": "posterior (hierarchical orientation model; no orientation data of its own)"}[kind],
+                 Source.DATA)
 
 
 B_STANDARDISE = True

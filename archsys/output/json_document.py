@@ -13,6 +13,7 @@ import platform
 import numpy as np
 
 from ..version import __version__
+from ..inference.basis import Source, source_of
 from ..inference.summary import summarize, summarize_angle
 from ..physics.constants import MEARTH_MSUN
 from ..scores.common import barely_constrained, flat_ecc_prior
@@ -46,30 +47,32 @@ def _planet_entry(post, j, pl):
         entry["msini_mearth"] = summarize(msini, 1.0 / MEARTH_MSUN)
     entry["mass_basis"] = basis or "unknown (no K, mass or radius)"
     ecc_basis = note.get("ecc", "")
-    if ecc_basis != "assumed circular" or post.method != "direct":
+    if source_of(ecc_basis) is not Source.ASSUMED or post.method != "direct":
         entry["ecc"] = summarize(d["ecc"][:, j])
-    entry["ecc_basis"] = ecc_basis
+    entry["ecc_basis"] = str(ecc_basis)
+    entry["ecc_source"] = source_of(ecc_basis).value
     if post.method != "direct" or "omega" in pl.quantities or ecc_basis.startswith("from"):
         entry["omega_deg"] = summarize_angle(np.degrees(d["omega"][:, j]))
     if np.isfinite(d["inc"][:, j]).any():
         entry["inclination_deg"] = summarize(np.degrees(d["inc"][:, j]))
-        entry["inclination_basis"] = note.get("inc", "")
+        entry["inclination_basis"] = str(note.get("inc", ""))
+        entry["inclination_source"] = source_of(note.get("inc", "")).value
     radius = post.get("radius")
     if radius is not None and np.isfinite(np.asarray(radius, dtype=float)[:, j]).any():
         entry["radius_rearth"] = summarize(np.asarray(radius, dtype=float)[:, j])
     if pl.transiting is not None:
         entry["transiting"] = pl.transiting
-    loose = _not_constrained(entry, post, j)
+    loose = _not_constrained(note.get("ecc", ""), entry, post, j)
     if loose:
         entry["not_constrained_by_data"] = loose
     return entry
 
 
-def _not_constrained(entry, post, j):
+def _not_constrained(ecc_note, entry, post, j):
     """Document keys of a planet whose values come from the prior rather than the data."""
-    basis = str(entry.get("ecc_basis") or "")
-    if "prior only" in basis or ("ecc" in entry and "assumed" not in basis and "fixed" not in basis
-                                 and barely_constrained(post["ecc"][:, j], flat_ecc_prior(post))):
+    source = source_of(ecc_note)
+    if source is Source.PRIOR or ("ecc" in entry and source is Source.DATA
+                                  and barely_constrained(post["ecc"][:, j], flat_ecc_prior(post))):
         return ["ecc"]
     return []
 
@@ -78,15 +81,19 @@ def _priors_that_ran(post, opts):
     """The posterior's prior record, or (when the sampler recorded none) the priors its options select."""
     if post.prior or post.method == "direct":
         return post.prior
-    from ..inference.priors import default_prior, load_prior
+    from ..inference.prior_choice import resolve_priors
     out = {}
-    for q, name in (("eccentricity", getattr(opts, "ecc_prior", None)),
-                    ("mutual_inclination_sigma", getattr(opts, "incl_prior", None))):
-        try:
-            pr = load_prior(name) if name else default_prior(q)
-        except Exception:                  # a prior that cannot be read here is still named
+    names = {"eccentricity": getattr(opts, "ecc_prior", None),
+             "mutual_inclination_sigma": getattr(opts, "incl_prior", None)}
+    try:
+        choice = resolve_priors(opts)
+    except Exception:                      # a prior that cannot be read here is still named
+        choice = None
+    for q, name in names.items():
+        if choice is None:
             out[q] = {"name": str(name)}
             continue
+        pr = choice.applied(q)
         out[q] = {"name": pr.name, "citation": pr.citation, "from_memory": bool(pr.from_memory),
                   "default": not name}
     if getattr(opts, "require_stable", False):

@@ -129,7 +129,7 @@ def _planet_table(doc):
     known = list(PLANET_COLUMNS) + score_columns("planet")
     entries = [dict(p) for p in planets]
     for e in entries:                 # a circular orbit assumed, not sampled, is shown as such
-        if e.get("ecc") is None and "assumed circular" in str(e.get("ecc_basis", "")):
+        if e.get("ecc") is None and e.get("ecc_source") == "assumed":
             e["ecc"] = "0 (assumed)"
     cols = _columns(entries, known, "planet", _PLANET_SKIP)
     tab = Table([NAME_COLUMN] + cols)

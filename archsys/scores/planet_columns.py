@@ -31,6 +31,10 @@ PLANET_COLUMNS = (
     Column("transiting", "transiting", "Transiting", fmt="text", table="planet", show=False),
     Column("mass_basis", "mass basis", "Mass basis", fmt="text", table="planet", show=False),
     Column("ecc_basis", "eccentricity basis", "Eccentricity basis", fmt="text", table="planet", show=False),
+    Column("ecc_source", "eccentricity source", "Eccentricity source", fmt="text", table="planet", show=False,
+           description="data, prior, assumed or fixed"),
+    Column("inclination_source", "inclination source", "Inclination source", fmt="text", table="planet",
+           show=False, description="data, prior, assumed or fixed"),
     Column("inclination_basis", "inclination basis", "Inclination basis", fmt="text", table="planet",
            show=False),
 )

@@ -50,8 +50,12 @@ class ScoreContext:
         return max(len(self.names) - 1, 0)
 
     def note(self, planet, what):
-        """The posterior's note on how ``what`` (mass, ecc, inc) of ``planet`` was obtained."""
-        return str((self.post.notes or {}).get(planet, {}).get(what, "") or "")
+        """The posterior's note on how ``what`` (mass, ecc, inc) of ``planet`` was obtained.
+
+        Eccentricity and inclination notes are :class:`~archsys.inference.basis.Basis` strings:
+        test where the value comes from with :func:`~archsys.inference.basis.source_of`.
+        """
+        return (self.post.notes or {}).get(planet, {}).get(what, "") or ""
 
 
 @dataclass

@@ -14,6 +14,7 @@ from collections import Counter
 
 import numpy as np
 
+from ..inference.basis import Source, source_of
 from ..inference.summary import probability, summarize
 from ..physics import spacing
 from .common import adjacent, barely_constrained, effective_mass, flat_ecc_prior, masked_apply
@@ -103,16 +104,15 @@ class ResonanceScore(Score):
                 continue
             js = near_j[:, p][near_j[:, p] > 0]
             j = Counter(js.tolist()).most_common(1)[0][0] if js.size else 0
-            eccs = [ctx.note(q["inner"], "ecc"), ctx.note(q["outer"], "ecc")]
-            loose = any("prior only" not in e and "assumed" not in e and "fixed" not in e
-                        and barely_constrained(ctx.post["ecc"][:, i], flat_ecc_prior(ctx.post))
+            eccs = [source_of(ctx.note(q["inner"], "ecc")), source_of(ctx.note(q["outer"], "ecc"))]
+            loose = any(e is Source.DATA and barely_constrained(ctx.post["ecc"][:, i], flat_ecc_prior(ctx.post))
                         for e, i in zip(eccs, (p, p + 1)))
             out.append(verdict(
                 "near_resonance", prob, [q["inner"], q["outer"]],
                 criterion="period ratio within 3 resonance widths (width scaling with mu^(2/3)) of a "
                           "first-order resonance",
                 citation="Deck, Payne & Holman 2013",
-                caveats=(["prior_only_eccentricity"] if any("prior only" in e for e in eccs) else [])
+                caveats=(["prior_only_eccentricity"] if Source.PRIOR in eccs else [])
                 + (["weak_eccentricity"] if loose else []),
                 mmr=spacing.mmr_label(j, 1) if j else q.get("nearest_mmr"), order=1,
                 nearest_mmr=q.get("nearest_mmr"), nearest_order=q.get("mmr_order")))

@@ -19,14 +19,14 @@ def _document_priors(document):
     rec = (document.get("provenance") or {}).get("priors") or {}
     if not rec:
         return None
-    from ...inference.priors import load_prior
+    from ...inference.prior_files import load_prior
     out = {}
     try:
         ecc = rec.get("eccentricity", {}).get("name")
         if ecc:
             pr = load_prior(ecc)
             for j, pl in enumerate(document.get("planets", [])):
-                if "fixed" not in str(pl.get("ecc_basis", "")):
+                if pl.get("ecc_source") != "fixed":
                     out[f"e_{j}"] = pr
         sig = rec.get("mutual_inclination_sigma", {}).get("name")
         if sig:
