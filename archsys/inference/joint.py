@@ -11,7 +11,7 @@ non-crossing orbits and an optional stability prior).  So:
    An exact value is the same number in every draw.
 2. **Orientations.**  With no orientation data (no transit, inclination or node)
    they are drawn exactly from the hierarchical prior
-   (:func:`~archsys.inference.orientation.prior_orientations`).  Otherwise the
+   (:func:`~archsys.inference.tilts.prior_orientations`).  Otherwise the
    orientation block alone (reference plane, sigma, one or two parameters per
    planet; :class:`~archsys.inference.orientation.OrientationModel`) is sampled
    with emcee to at least ``N_TAU`` autocorrelation times, with the geometry
@@ -43,11 +43,12 @@ from .basis import Basis, Source
 from .exact import ecc_prior_for, exact_draws, geometry_factor, mass_basis
 from .orient_chain import BURN_TAU, N_TAU, run_orientation_mcmc
 from .orient_proposal import OrientationProposal, pareto_khat
-from .orientation import OrientationModel, orbit_normals, prior_orientations
+from .orientation import OrientationModel
 from .posterior import Posterior
 from .prior_choice import resolve_priors
 from .route import choose_path
 from .stability import stable_draws
+from .tilts import orbit_normals, prior_orientations
 
 __all__ = ["sample_joint", "MASS_CAP", "N_TAU", "BURN_TAU", "MAX_POOL_FACTOR"]
 
