@@ -43,6 +43,7 @@ from .exact import ecc_prior_for, exact_draws, geometry_factor, mass_basis
 from .orient_chain import BURN_TAU, N_TAU, run_orientation_mcmc
 from .orient_proposal import OrientationProposal, pareto_khat
 from .orientation import OrientationModel, orbit_normals, prior_orientations
+from .phases import add_phases
 from .posterior import Posterior
 from .stability import stable_draws
 
@@ -270,7 +271,7 @@ def sample_joint(system, opts) -> Posterior:
         "converged": bool((info.get("converged", True) if info else True) and total_ess >= 0.5 * n),
     })
     post.prior = _prior_block(user, sp, ecc_priors, system)
-    return post
+    return add_phases(post)
 
 
 #: Pareto k-hat above which the independent orientation proposal is not trusted (Vehtari et al. 2024).

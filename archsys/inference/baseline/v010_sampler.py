@@ -17,6 +17,7 @@ from ...errors import ConvergenceWarning
 from ...physics.constants import MEARTH_MSUN
 from ...physics.massradius import SCATTER_DEX, mass_from_radius_mearth
 from ..draws import direct_draws
+from ..phases import add_phases
 from ..posterior import Posterior
 from ..sampler import _priors
 from ..joint import _why
@@ -340,4 +341,4 @@ def _to_posterior(model, system, flat, opts, rng):
         draws.update(psi=psi, sigma_mutual=c["sigma"], ref_inc=np.arccos(c["cosI"]))
     elif prior_orient is not None and psi is not None:
         draws.update(psi=psi, sigma_mutual=prior_orient["sigma"], ref_inc=np.arccos(prior_orient["cosI"]))
-    return Posterior(system, draws, "mcmc", seed=opts.seed, notes=notes)
+    return add_phases(Posterior(system, draws, "mcmc", seed=opts.seed, notes=notes))
