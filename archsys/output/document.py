@@ -115,6 +115,9 @@ def build_document(res) -> dict:
     structured = _finite(sc.get("verdicts", []))
     doc["verdicts"] = verdict_sentences(doc, structured)
     doc["structured_verdicts"] = structured
+    dyn = [t for v, t in zip(structured, doc["verdicts"]) if v.get("code") == "dynamical_assessment"]
+    if dyn:
+        doc["dynamics_verdict"] = dyn[0]        # the headline of every format
     doc["sampler"] = dict(post.sampler)
     doc["disclaimer"] = DISCLAIMER
     doc["provenance"] = {

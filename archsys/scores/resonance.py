@@ -26,6 +26,9 @@ __all__ = ["ResonanceScore", "WIDE_RATIO", "near_first_order", "near_mmr", "near
 #: > 3 are too weak to matter for planets).
 WIDE_RATIO = 4.5
 
+#: Widest near-resonance window (fractional offset): the super-periods' limit (scores.super_periods.MAX_OFFSET).
+NEAR_MAX_OFFSET = 0.05
+
 #: A pair counts as near resonance in a verdict when this fraction of draws is (common practice: majority).
 NEAR_THRESHOLD = 0.5
 
@@ -36,10 +39,11 @@ def near_window(j, k, mu, e):
     first-order width scale of :func:`archsys.physics.spacing.resonance_width` at that j, divided by
     the order k.  A choice of this tool: it names the pairs of a resonant chain of first-, second- and
     third-order resonances (e.g. 8:5, 5:3 and 3:2 links) the same way, with narrower windows for the
-    weaker higher orders.  Whether the pair is *in* resonance is decided by the libration of its
+    weaker higher orders, and never wider than :data:`NEAR_MAX_OFFSET` (5 %, the offset within which the
+    super-period columns report a pair).  Whether the pair is *in* resonance is decided by the libration of its
     resonant angles in the N-body integration, not by this window.
     """
-    return spacing.NEAR_WINDOW_MULTIPLE * spacing.resonance_width(j, 1, mu, e) / k
+    return np.minimum(spacing.NEAR_WINDOW_MULTIPLE * spacing.resonance_width(j, 1, mu, e) / k, NEAR_MAX_OFFSET)
 
 
 def near_mmr(ratio, mu, e, max_order=spacing.MMR_MAX_ORDER):
@@ -152,7 +156,8 @@ class ResonanceScore(Score):
                 caveats=(["prior_only_eccentricity"] if any("prior only" in e for e in eccs) else [])
                 + (["weak_eccentricity"] if loose else []),
                 mmr=spacing.mmr_label(j, k) if j else q.get("nearest_mmr"), order=int(k) if j else q.get("mmr_order"),
-                nearest_mmr=q.get("nearest_mmr"), nearest_order=q.get("mmr_order")))
+                nearest_mmr=q.get("nearest_mmr"), nearest_order=q.get("mmr_order"),
+                libration_fraction=q.get("libration_fraction")))
         return out
 
 
