@@ -273,6 +273,11 @@ class AnalysisOptions:
             put("incl_prior", str(self.incl_prior))
 
     @property
+    def analytic_stability_prior(self) -> bool:
+        """Whether the Hill + AMD criterion is a prior (``--require-stable`` with ``--stable-by analytic``)."""
+        return bool(self.require_stable) and self.stable_by == "analytic"
+
+    @property
     def uses_mcmc(self) -> bool:
         """False when the options exclude MCMC (direct and fast modes)."""
         return self.mode not in (Mode.DIRECT, Mode.FAST)

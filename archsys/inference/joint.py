@@ -134,7 +134,7 @@ def _why(system, opts):
     if opts.mode == "mcmc":
         return "requested (--mode mcmc)"
     reasons = []
-    if opts.require_stable:
+    if opts.analytic_stability_prior:
         reasons.append("stability prior")
     if opts.ecc_prior not in (None, "ecc-uniform"):
         reasons.append("population eccentricity prior")
@@ -395,7 +395,7 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
                  msini=msini, mass=mass, inc=np.arccos(cos_i), node=node, radius=d["radius"])
     if psi is not None:
         draws.update(psi=psi, sigma_mutual=sigma, ref_inc=ref_inc)
-    if opts.require_stable and npl >= 2:
+    if opts.analytic_stability_prior and npl >= 2:
         live = np.isfinite(logw)
         if live.any():
             st, _ = stable_draws({k: v[live] for k, v in draws.items()})

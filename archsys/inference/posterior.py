@@ -51,6 +51,13 @@ class Posterior:
     def get(self, key, default=None):
         return self.draws.get(key, default)
 
+    def take(self, idx, **sampler_updates):
+        """A posterior of the draws ``idx`` (e.g. those that survive an N-body integration)."""
+        idx = np.asarray(idx, dtype=int)
+        d = {k: np.asarray(v)[idx] for k, v in self.draws.items()}
+        return Posterior(self.system, d, self.method, self.seed, self.notes, {**self.sampler, **sampler_updates},
+                         self.prior, self.phases)
+
     def subset(self, n, rng=None):
         """A posterior of at most ``n`` draws (evenly thinned, deterministic)."""
         if n >= self.n_draws:

@@ -90,7 +90,9 @@ def _priors_that_ran(post, opts):
         out[q] = {"name": pr.name, "citation": pr.citation, "from_memory": bool(pr.from_memory),
                   "default": not name}
     if getattr(opts, "require_stable", False):
-        out["stability"] = "Hill (Gladman 1993) and AMD (Laskar & Petit 2017) stability of every adjacent pair"
+        out["stability"] = ("survival of each draw over the N-body horizon (--stable-by nbody; importance weights "
+                            "0/1 over the integrated draws)" if getattr(opts, "stable_by", "analytic") == "nbody" else
+                            "Hill (Gladman 1993) and AMD (Laskar & Petit 2017) stability of every adjacent pair")
     return out
 
 

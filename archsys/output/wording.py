@@ -163,6 +163,15 @@ def _caveat_sentences(doc, v):
         who = _join(_names(doc, nb.get("phases_uniform") or []))
         out.append(f"Phases drawn uniformly for {who} (no transit time, periastron time or mean longitude given): "
                    "resonant protection depends on the phases, so give them where known.")
+    if "stable_by_construction" in caveats:
+        cond = ((doc.get("sampler") or {}).get("stability_conditioning") or {})
+        if cond:
+            out.append(f"Stable by construction (--require-stable --stable-by nbody): the posterior keeps the "
+                       f"{cond.get('survived')} of {cond.get('integrated')} integrated draws that survived "
+                       f"{cond.get('horizon_inner_orbits', 0):.3g} inner orbits, so stability here is imposed, not found.")
+        else:
+            out.append("Stable by construction (--require-stable): the Hill + AMD criterion is a prior, so the "
+                       "criteria hold by construction, not as a finding.")
     if "nbody_budget" in caveats:
         nb = (doc.get("dynamics") or {}).get("nbody") or {}
         out.append(f"The work budget (--nbody-budget) cut the integration to {nb.get('integrated')} of "

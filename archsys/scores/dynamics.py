@@ -420,6 +420,8 @@ class DynamicsScore(Score):
             caveats.append("nbody_budget")
         if any(str(ctx.note(p, "mass")).startswith("minimum") for p in ctx.names):
             caveats.append("minimum_masses")
+        if getattr(ctx.options, "require_stable", False):
+            caveats.append("stable_by_construction")
         out = [verdict("three_body_relation", r.get("libration_fraction"), r["planets"],
                        criterion="three-body relation of the mean motions", citation="Murray & Dermott 1999",
                        relation=r["relation"], residual=r["residual"])

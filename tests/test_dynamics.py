@@ -1,0 +1,186 @@
+"""The dynamical assessment (issue 18): verdict classes checked against independent integrations.
+
+Sources beside each check.  The referee integrations (tests/dyn_reference.py) are plain rebound
+set-ups written for the tests, independent of archsys.physics.nbody.
+"""
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from archsys.model.reader import build_system, read_system
+from archsys.physics import instability_time, spacing
+from archsys.physics.constants import MEARTH_MSUN
+from archsys.pipeline import AnalysisOptions, analyze
+from archsys.scores.common import effective_mass
+
+from dyn_reference import referee
+
+DATA = Path(__file__).resolve().parent / "data" / "dynamics"
+rebound = pytest.importorskip("rebound")
+
+
+def _opts(**kw):
+    base = dict(n_draws=400, seed=3, quiet=True, jobs=2)
+    base.update(kw)
+    return AnalysisOptions(**base)
+
+
+def _referee_of(res, n, n_orbits):
+    """The referee's (survived, regular) on the same posterior draws archsys integrated (its subset)."""
+    sub = res.posterior.subset(n)
+    d = sub.draws
+    m = effective_mass(sub)
+    return referee(d["m_star"], m, d["a"], np.clip(d["ecc"], 0, 0.999), np.nan_to_num(d["inc"], nan=np.pi / 2),
+                   np.nan_to_num(d["omega"]), np.nan_to_num(d["node"]), d["mean_anomaly"], n_orbits)
+
+
+def _equal_spacing(n_planets, delta, mass_mearth=1.0, p_inner=10.0, ecc=0.0):
+    """n planets of one mass equally spaced by delta mutual Hill radii (Chambers et al. 1996 set-up)."""
+    mu = mass_mearth * MEARTH_MSUN
+    k = delta * np.cbrt(2 * mu / 3) / 2                 # a_{i+1} = a_i (1 + k) / (1 - k)
+    P = p_inner * ((1 + k) / (1 - k)) ** (1.5 * np.arange(n_planets))
+    return build_system({"name": "Even", "star": {"mass": 1.0}, "planet": [
+        {"name": f"Even {chr(98 + i)}", "period": float(P[i]), "mass": mass_mearth, "ecc": ecc}
+        for i in range(n_planets)]}, source="<test>")
+
+
+def test_wide_pair_is_stable_by_analytic_criterion_without_integration():
+    # Two super-Earths at P = 10 and 43 d (period ratio 4.3, > 30 mutual Hill radii), near-circular:
+    # Gladman 1993 and AMD (Laskar & Petit 2017) hold; inside their domain no integration is needed.
+    s = build_system({"name": "Wide", "star": {"mass": 1.0}, "planet": [
+        {"name": "Wide b", "period": 10.0, "mass": {"value": 5.0, "err": 0.5}, "ecc": {"value": 0.02, "err": 0.01}},
+        {"name": "Wide c", "period": 43.0, "mass": {"value": 8.0, "err": 0.8}, "ecc": {"value": 0.03, "err": 0.01}}]},
+        source="<test>")
+    doc = analyze(s, _opts(nbody="auto")).document
+    dyn = doc["dynamics"]
+    assert dyn["class"] == "stable_analytic" and dyn["outside_domain"] == []
+    assert dyn["stable_probability"] >= 0.95 and "nbody" not in dyn
+    assert doc["dynamics_verdict"].startswith("Dynamics: stable by analytic criterion")
+    # Veras & Mustill 2013: log10 x ~ 5.2 [mu/(M_J/M_sun)]^-0.18 with mu of the heavier planet (8 M_E)
+    lt = dyn["instability_time"]["pair_minimum"]["log10_inner_orbits"]["median"]
+    assert lt == pytest.approx(5.2 * (8 * MEARTH_MSUN / 9.547919e-4) ** -0.18, rel=0.02)
+
+
+def test_resonant_pair_with_phases_librates_and_survives():
+    # GJ 876-like 2:1 pair (tests/data/dynamics; Rivera et al. 2010 values from memory) in its resonant
+    # configuration: the analytic criteria fail (0 %) -- the old report called it unstable -- but the
+    # resonance protects it.  archsys: regular, librating; the independent referee agrees.
+    res = analyze(read_system(DATA / "gj876_like.toml"), _opts(nbody=16, nbody_orbits=3000))
+    dyn = res.document["dynamics"]
+    assert dyn["analytic_pass_probability"] < 0.05
+    assert dyn["class"] == "regular_nbody", dyn
+    assert res.document["pairs"][0]["libration_fraction"] >= 0.9
+    assert dyn["nbody"]["phases_uniform"] == []
+    survived, regular = _referee_of(res, 6, 3000)
+    assert survived.all() and regular.mean() >= 0.8
+    assert "unstable" not in res.document["dynamics_verdict"]
+
+
+def test_resonant_pair_with_random_phases_is_flagged_and_not_called_stable():
+    # The same pair without phases: uniform phases put most draws out of resonance, where the pair
+    # crosses within a few hundred orbits (independent referee).  The verdict must say phases were drawn.
+    s = read_system(DATA / "gj876_like.toml")
+    for p in s.planets:
+        p.quantities.pop("mean_longitude", None)
+    res = analyze(s, _opts(nbody=16, nbody_orbits=3000))
+    dyn = res.document["dynamics"]
+    assert dyn["class"] in ("unstable_nbody", "mixed_nbody"), dyn["class"]
+    assert len(dyn["nbody"]["phases_uniform"]) == 2
+    assert "Phases drawn uniformly" in " ".join(res.document["verdicts"])
+    survived, _ = _referee_of(res, 8, 3000)
+    assert abs(survived.mean() - dyn["nbody"]["survived_fraction"]) <= 0.4     # 8 vs 16 draws: binomial noise
+    assert survived.mean() < 0.8
+
+
+def test_compact_four_planets_at_five_hill_radii_are_unstable_not_hill_stable():
+    # Four Earth-mass planets 5 mutual Hill radii apart: every pair is Hill stable (Gladman 1993,
+    # > 2 sqrt 3), yet such systems have close encounters within ~10^3-10^4 orbits (Chambers et al.
+    # 1996; Obertas et al. 2017, from memory).  Issue 18 saw "Hill 1.00, AMD 0.96" reported.
+    res = analyze(_equal_spacing(4, 5.0), _opts(nbody=12, nbody_orbits=20000))
+    doc = res.document
+    assert doc["all_pairs_hill_stable_probability"] == 1.0
+    dyn = doc["dynamics"]
+    assert "compact_three_or_more" in dyn["outside_domain"]
+    assert dyn["class"] in ("unstable_nbody", "mixed_nbody")
+    assert dyn["nbody"]["event_fraction"] >= 0.5
+    # published estimate inside its domain (circular, coplanar, >= 3 planets): ~10^3.2 inner orbits
+    # (Yalinewich & Petrovich 2020), Obertas et al. 2017 fit log t = 0.951 Delta - 1.202 -> 3.55 (from memory)
+    lt = dyn["instability_time"]["compact_three_body"]["log10_inner_orbits"]["median"]
+    assert lt == pytest.approx(0.951 * 5 - 1.202, abs=0.6)
+
+
+def test_outside_domain_without_integration_is_not_proven_stable_never_unstable():
+    # --nbody 0: a failed sufficient criterion alone must not be reported as instability (issue 18).
+    doc = analyze(read_system(DATA / "gj876_like.toml"), _opts(nbody=0)).document
+    dyn = doc["dynamics"]
+    assert dyn["class"] == "not_proven_stable" and dyn["stable_probability"] is None
+    assert "unstable" not in doc["dynamics_verdict"].lower().replace("not proven stable", "")
+    assert "--nbody 0" in doc["dynamics_verdict"]
+
+
+def test_instability_time_against_independent_integration_of_equal_spacing():
+    # Equal-mass, equally spaced, circular, coplanar systems (the set-up of Chambers et al. 1996 and
+    # Obertas et al. 2017): the published estimate (Yalinewich & Petrovich 2020) against the median
+    # first-encounter time of an independent integration, within the scatter (~0.5 dex, from memory of
+    # Obertas et al. 2017 Fig. 3) -- 5 planets of 1 M_E at Delta = 4.
+    s = _equal_spacing(5, 4.0, p_inner=365.25)
+    mu = MEARTH_MSUN
+    a = (np.array([p.period.value for p in s.planets]) / 365.25) ** (2 / 3)   # au (P in yr, M = 1 M_sun)
+    lt = instability_time.log10_time_compact(a, np.full(5, mu), a ** 1.5, 1.0)
+    rng = np.random.default_rng(1)
+    times = []
+    for _ in range(6):
+        sim = rebound.Simulation()
+        sim.add(m=1.0)
+        for x in a:
+            sim.add(m=mu, a=x, M=rng.uniform(0, 2 * np.pi), inc=rng.uniform(0, 1e-3))
+        sim.move_to_com()
+        sim.integrator = "whfast"
+        sim.dt = 2 * np.pi / 30
+        rh = [np.cbrt(2 * mu / 3) * 0.5 * (a[i] + a[i + 1]) for i in range(4)]
+        t, hit = 0, False
+        while t < 1e5 and not hit:
+            t += 1
+            sim.integrate(2 * np.pi * t, exact_finish_time=0)
+            ps = sim.particles
+            for i in range(4):
+                d = ps[i + 1] - ps[i + 2]
+                hit |= (d.x ** 2 + d.y ** 2 + d.z ** 2) < rh[i] ** 2
+        times.append(t)
+    assert np.log10(np.median(times)) == pytest.approx(float(lt), abs=0.7)
+
+
+def test_laplace_relations_of_the_galilean_satellites_and_a_seven_planet_chain():
+    # Io, Europa, Ganymede (handbook periods 1.769, 3.551, 7.155 d): n1 - 3 n2 + 2 n3 = 0, the Laplace
+    # relation (Murray & Dermott 1999, ch. 8).
+    rel = spacing.laplace_relations([1.769138, 3.551181, 7.154553])
+    assert [(r["p"], r["q"]) for r in rel] == [(1, 2)]
+    # TRAPPIST-1 (periods of Agol et al. 2021, from memory): the relations (p, q) = (2, 3), (1, 2),
+    # (2, 3), (1, 2), (1, 1) of Luger et al. 2017 (from memory).
+    rel = spacing.laplace_relations([1.51088, 2.42180, 4.04978, 6.09963, 9.20668, 12.35294, 18.7729])
+    assert [(r["p"], r["q"]) for r in rel] == [(2, 3), (1, 2), (2, 3), (1, 2), (1, 1)]
+
+
+def test_chain_pairs_near_second_and_third_order_resonances_are_named_like_the_super_periods():
+    # Issue 18: b-c (8:5, third order) and c-d (5:3, second order) were "near resonance 2 % / 0 %"
+    # while the same row said "super-period resonance 5:3".  One naming across the pair table.
+    doc = analyze(read_system(DATA / "chain7.toml"), _opts(nbody=0)).document
+    pairs = doc["pairs"]
+    assert [q["nearest_mmr"] for q in pairs] == ["8:5", "5:3", "3:2", "3:2", "4:3", "3:2"]
+    assert [q.get("super_period_resonance") for q in pairs] == [q["nearest_mmr"] for q in pairs]
+    assert all(q["near_resonance_probability"] == 1.0 for q in pairs)
+    assert doc["resonant_chains"] == [[p["name"] for p in doc["planets"]]]
+    assert doc["dynamics"]["class"] == "not_proven_stable"
+
+
+@pytest.mark.slow
+def test_seven_planet_chain_with_random_phases_is_chaotic_not_stable():
+    # Issue 18: the seven-planet chain (random phases) was reported "Hill stable 100 %, AMD-stable
+    # 100 %" while independent integrations find no regular draw.  archsys must integrate and agree.
+    res = analyze(read_system(DATA / "chain7.toml"), _opts(nbody=16, nbody_orbits=10000))
+    dyn = res.document["dynamics"]
+    assert dyn["class"] in ("chaotic_survived", "unstable_nbody", "mixed_nbody")
+    assert dyn["stable_probability"] <= 0.25
+    survived, regular = _referee_of(res, 4, 10000)
+    assert regular.mean() <= 0.5
