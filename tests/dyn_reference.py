@@ -2,7 +2,7 @@
 
 A deliberately plain rebound set-up, written for the tests and sharing nothing with
 archsys.physics.nbody: each draw is integrated with WHFast (dt = P_inner / 30) and MEGNO, and after
-every orbit of the innermost planet the distances between all pairs of planets are compared with their
+every quarter orbit of the innermost planet the distances between all pairs of planets are compared with their
 mutual Hill radius R_H,m = ((m_i + m_j) / 3 M_star)^(1/3) (a_i + a_j) / 2 (Chambers, Wetherill & Boss
 1996), and the osculating orbits are checked for crossing and escape (e >= 1).  "Stable" is the
 definition of issue 18: no encounter within one mutual Hill radius, no crossing or escape, final MEGNO
@@ -42,14 +42,14 @@ def referee(m_star, m, a, e, inc, omega, node, M0, n_orbits, megno=True):
                  for i, j in itertools.combinations(range(len(mm)), 2)]
         ps = sim.particles
         ok = True
-        for step in range(1, int(n_orbits) + 1):
-            sim.integrate(step * p_in, exact_finish_time=0)
+        for step in range(1, 4 * int(n_orbits) + 1):
+            sim.integrate(0.25 * step * p_in, exact_finish_time=0)
             for i, j, rh in pairs:
                 d = ps[i + 1] - ps[j + 1]
                 if d.x * d.x + d.y * d.y + d.z * d.z < rh * rh:
                     ok = False
                     break
-            if ok and step % 10 == 0:
+            if ok and step % 40 == 0:
                 orbs = sim.orbits()
                 if any(o.e >= 1 for o in orbs) or any(
                         orbs[i].a * (1 + orbs[i].e) > orbs[i + 1].a * (1 - orbs[i + 1].e)
