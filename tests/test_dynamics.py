@@ -56,7 +56,7 @@ def test_wide_pair_is_stable_by_analytic_criterion_without_integration():
     dyn = doc["dynamics"]
     assert dyn["class"] == "stable_analytic" and dyn["outside_domain"] == []
     assert dyn["stable_probability"] >= 0.95 and "nbody" not in dyn
-    assert doc["dynamics_verdict"].startswith("Dynamics: stable by analytic criterion")
+    assert doc["dynamics"]["verdict"].startswith("Dynamics: stable by analytic criterion")
     # Veras & Mustill 2013: log10 x ~ 5.2 [mu/(M_J/M_sun)]^-0.18 with mu of the heavier planet (8 M_E)
     lt = dyn["instability_time"]["pair_minimum"]["log10_inner_orbits"]["median"]
     assert lt == pytest.approx(5.2 * (8 * MEARTH_MSUN / 9.547919e-4) ** -0.18, rel=0.02)
@@ -70,11 +70,11 @@ def test_resonant_pair_with_phases_librates_and_survives():
     dyn = res.document["dynamics"]
     assert dyn["analytic_pass_probability"] < 0.05
     assert dyn["class"] == "regular_nbody", dyn
-    assert res.document["pairs"][0]["libration_fraction"] >= 0.9
+    assert res.document["pairs"][0]["libration_probability"] >= 0.9
     assert dyn["nbody"]["phases_uniform"] == []
     survived, regular = _referee_of(res, 6, 3000)
     assert survived.all() and regular.mean() >= 0.8
-    assert "unstable" not in res.document["dynamics_verdict"]
+    assert "unstable" not in res.document["dynamics"]["verdict"]
 
 
 def test_resonant_pair_with_random_phases_is_flagged_and_not_called_stable():
@@ -89,7 +89,7 @@ def test_resonant_pair_with_random_phases_is_flagged_and_not_called_stable():
     assert len(dyn["nbody"]["phases_uniform"]) == 2
     assert "Phases drawn uniformly" in " ".join(res.document["verdicts"])
     survived, _ = _referee_of(res, 8, 3000)
-    assert abs(survived.mean() - dyn["nbody"]["survived_fraction"]) <= 0.4     # 8 vs 16 draws: binomial noise
+    assert abs(survived.mean() - dyn["nbody"]["survival_probability"]) <= 0.4     # 8 vs 16 draws: binomial noise
     assert survived.mean() < 0.8
 
 
@@ -103,7 +103,7 @@ def test_compact_four_planets_at_five_hill_radii_are_unstable_not_hill_stable():
     dyn = doc["dynamics"]
     assert "compact_three_or_more" in dyn["outside_domain"]
     assert dyn["class"] in ("unstable_nbody", "mixed_nbody")
-    assert dyn["nbody"]["event_fraction"] >= 0.5
+    assert dyn["nbody"]["event_probability"] >= 0.5
     # published estimate inside its domain (circular, coplanar, >= 3 planets): ~10^3.2 inner orbits
     # (Yalinewich & Petrovich 2020), Obertas et al. 2017 fit log t = 0.951 Delta - 1.202 -> 3.55 (from memory)
     lt = dyn["instability_time"]["compact_three_body"]["log10_inner_orbits"]["median"]
@@ -115,8 +115,8 @@ def test_outside_domain_without_integration_is_not_proven_stable_never_unstable(
     doc = analyze(read_system(DATA / "gj876_like.toml"), _opts(nbody=0)).document
     dyn = doc["dynamics"]
     assert dyn["class"] == "not_proven_stable" and dyn["stable_probability"] is None
-    assert "unstable" not in doc["dynamics_verdict"].lower().replace("not proven stable", "")
-    assert "--nbody 0" in doc["dynamics_verdict"]
+    assert "unstable" not in doc["dynamics"]["verdict"].lower().replace("not proven stable", "")
+    assert "--nbody 0" in doc["dynamics"]["verdict"]
 
 
 def test_instability_time_against_independent_integration_of_equal_spacing():

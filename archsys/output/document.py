@@ -118,8 +118,8 @@ def build_document(res) -> dict:
     doc["verdicts"] = verdict_sentences(doc, structured)
     doc["structured_verdicts"] = structured
     dyn = [t for v, t in zip(structured, doc["verdicts"]) if v.get("code") == "dynamical_assessment"]
-    if dyn:
-        doc["dynamics_verdict"] = dyn[0]        # the headline of every format
+    if dyn and isinstance(doc.get("dynamics"), dict):
+        doc["dynamics"]["verdict"] = dyn[0]     # the headline of every format
     doc["sampler"] = dict(post.sampler)
     doc["disclaimer"] = DISCLAIMER
     doc["provenance"] = {

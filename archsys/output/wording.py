@@ -42,8 +42,9 @@ _NOT_RUN = {"turned_off": "no N-body integration ran (--nbody 0)",
 def _horizon(h):
     if not h:
         return ""
-    return (f"{h.get('inner_orbits', 0):.3g} inner orbits = {h.get('outer_orbits', 0):.3g} outer orbits = "
-            f"{h.get('years', 0):.3g} yr")
+    med = lambda x: (x or {}).get("median", 0) if isinstance(x, dict) else (x or 0)  # noqa: E731
+    return (f"{h.get('inner_orbits', 0):.3g} orbits of the innermost planet = {med(h.get('outer_orbits')):.3g} of "
+            f"the outermost = {med(h.get('years')):.3g} yr")
 
 
 def dynamics_sentence(doc, v):
@@ -65,9 +66,9 @@ def dynamics_sentence(doc, v):
              f"{why}; the sufficient criteria hold in {ap} of draws, which proves nothing here, and failing "
              "them is not instability.")
     elif cls in ("regular_nbody", "chaotic_survived", "unstable_nbody", "mixed_nbody"):
-        parts = (f"of {n} integrated draws, {fmt_percent(nb.get('regular_fraction'))} regular (MEGNO < 2.5, no "
-                 f"event), {fmt_percent(nb.get('chaotic_fraction'))} chaotic but surviving, "
-                 f"{fmt_percent(nb.get('event_fraction'))} with a close encounter (< 1 mutual Hill radius), "
+        parts = (f"of {n} integrated draws, {fmt_percent(nb.get('regular_probability'))} regular (MEGNO < 2.5, no "
+                 f"event), {fmt_percent(nb.get('chaotic_survived_probability'))} chaotic but surviving, "
+                 f"{fmt_percent(nb.get('event_probability'))} with a close encounter (< 1 mutual Hill radius), "
                  f"orbit crossing or escape")
         s = f"{head} — {parts}; horizon {_horizon(nb.get('horizon'))}."
         if cls == "chaotic_survived":
@@ -216,8 +217,10 @@ def verdict_sentence(doc, v, said=None):
         s = "Resonant chain: " + " – ".join(_names(doc, subj)) + " (consecutive pairs each near a resonance)."
     elif code == "three_body_relation":
         d = v.get("details") or {}
+        res = d.get("residual")
+        res = res.get("median") if isinstance(res, dict) else res
         s = (f"Three-body relation {d.get('relation')} for {_join(_names(doc, subj))} (residual "
-             f"{100 * float(d.get('residual') or 0):.2f} % of the middle mean motion)")
+             f"{100 * float(res or 0):.2f} % of the middle mean motion)")
         s += (f"; its angle librates in {pct} of integrated draws." if p is not None else
               "; libration not tested (no integration).")
     elif code == "resonance_overlap":

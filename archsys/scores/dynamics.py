@@ -137,7 +137,8 @@ def assess_domain(ctx):
     active = [r for r in REASONS if reasons.get(r, 0.0) >= limit.get(r, REASON_FRACTION)
               and (r != "failed_sufficient_criterion" or reasons[r] > limit[r])]
     return {"pass": passed, "p_pass": float(np.mean(passed)), "reasons": active,
-            "p_reason": {k: round(v, 6) for k, v in reasons.items()}, "near_pairs": near_pairs,
+            "p_reason": [{"reason": k, "probability": round(v, 6)} for k, v in reasons.items()],
+            "near_pairs": near_pairs,
             "known": bool(known.all())}
 
 
@@ -209,7 +210,10 @@ def run_nbody(post, n_draws, options, resonances=(), laplace=(), seed=0):
                                 laplace=laplace, n_snapshots=N_SNAPSHOTS)
     info.update(integrated=int(idx.size), orientation="posterior orientations" if not edge_on.any()
                 else "coplanar and edge-on where the posterior has no orientation")
-    info["horizon"] = nbody.horizon_summary(horizon, P[idx])
+    Pi = P[idx]
+    info["horizon"] = {"inner_orbits": int(round(horizon)),
+                       "outer_orbits": summarize(horizon * Pi[:, 0] / Pi[:, -1]),
+                       "years": summarize(horizon * Pi[:, 0] / 365.25)}
     return res, info
 
 
@@ -259,7 +263,7 @@ def _instability_times(ctx, domain):
         fin = np.isfinite(lt)
         if fin.mean() >= 0.5:
             out["compact_three_body"] = {
-                "log10_inner_orbits": summarize(lt[fin]), "in_domain_fraction": float(fin.mean()),
+                "log10_inner_orbits": summarize(lt[fin]), "in_domain_probability": float(fin.mean()),
                 "citation": "Yalinewich & Petrovich 2020; Petit et al. 2020",
                 "domain": "three or more planets, e <= 0.05, near-circular and coplanar, away from two-body "
                           "resonance overlap; the closest pair sets the time"}
@@ -270,7 +274,7 @@ def _instability_times(ctx, domain):
         fin = np.isfinite(lt)
         if fin.mean() >= 0.5:
             out["pair_minimum"] = {
-                "log10_inner_orbits": summarize(lt[fin]), "in_domain_fraction": float(fin.mean()),
+                "log10_inner_orbits": summarize(lt[fin]), "in_domain_probability": float(fin.mean()),
                 "citation": "Veras & Mustill 2013",
                 "domain": "two Hill-stable, nearly coplanar planets with e < 0.3; a minimum time before "
                           "Lagrange instability can appear"}
@@ -283,30 +287,33 @@ def _resonance_block(ctx, res, specs, laplace_specs, names):
         i, j, p, q = spec
         lib = np.asarray(res.librating[spec])[np.asarray(res.completed, bool)]
         amp = np.asarray(res.libration_amplitude[spec])[np.asarray(res.completed, bool)]
-        out_pairs[i] = {"resonance": spacing.mmr_label(p + q, q), "libration_fraction": float(np.mean(lib)),
+        out_pairs[i] = {"resonance": spacing.mmr_label(p + q, q), "libration_probability": float(np.mean(lib)),
                         "libration_amplitude_deg": summarize(np.degrees(amp[np.isfinite(amp)]))
                         if np.isfinite(amp).any() else None}
     lap = []
     for spec, rel in laplace_specs:
         lib = np.asarray(res.laplace_librating[spec])[np.asarray(res.completed, bool)]
-        lap.append({**rel, "libration_fraction": float(np.mean(lib))})
+        lap.append({**rel, "libration_probability": float(np.mean(lib))})
     return out_pairs, lap
 
 
 def _laplace(ctx):
-    P = np.nanmedian(np.asarray(ctx.post["period"], dtype=float), axis=0)
+    Pd = np.asarray(ctx.post["period"], dtype=float)
+    P = np.nanmedian(Pd, axis=0)
     names = ctx.names
     rels = []
     for r in spacing.laplace_relations(P):
         i, j, k = r["planets"]
-        rels.append({"planets": [names[i], names[j], names[k]], "p": r["p"], "q": r["q"],
-                     "relation": f"{r['p']}/P1 - {r['p'] + r['q']}/P2 + {r['q']}/P3 = 0",
-                     "residual": round(r["residual"], 8), "_spec": (i, j, k, *r["coefficients"])})
+        p, q = r["p"], r["q"]
+        resid = (p / Pd[:, i] - (p + q) / Pd[:, j] + q / Pd[:, k]) * Pd[:, j]
+        rels.append({"planets": [names[i], names[j], names[k]], "p": p, "q": q,
+                     "relation": f"{p}/P1 - {p + q}/P2 + {q}/P3 = 0",
+                     "residual": summarize(resid), "_spec": (i, j, k, *r["coefficients"])})
     return rels
 
 
-def _col(key, label, fmt="text", **kw):
-    return Column(f"dynamics.{key}", label, label, fmt=fmt, table="system", **kw)
+def _col(key, label, fmt="text", latex=None, **kw):
+    return Column(f"dynamics.{key}", label, latex or label, fmt=fmt, table="system", **kw)
 
 
 class DynamicsScore(Score):
@@ -317,17 +324,57 @@ class DynamicsScore(Score):
     verdict_order = 0
     columns = (
         _col("class", "dynamical class"),
+        _col("verdict", "dynamical verdict", show=False),
         _col("basis", "dynamical verdict rests on"),
         _col("stable_probability", "P(stable)", "percent"),
+        _col("survival_probability", "P(no close encounter, crossing or escape)", "percent"),
         _col("analytic_pass_probability", "sufficient criteria met (Hill + AMD)", "percent"),
+        _col("outside_domain", "outside the analytic domain because", show=False),
+        _col("outside_domain_probability", "draws outside the analytic domain, by reason", show=False),
+        _col("stable_means", "stable means", show=False),
+        _col("nbody_not_run", "why no N-body integration ran", show=False),
+        _col("three_body_relations", "three-body relations", show=False),
+        _col("instability_time.compact_three_body.log10_inner_orbits",
+             "log₁₀ instability time, compact system (Yalinewich & Petrovich 2020)", "summary",
+             latex=r"$\log_{10}$ instability time, compact system (Yalinewich \& Petrovich 2020)",
+             unit="inner orbits", unit_latex="inner orbits"),
+        _col("instability_time.compact_three_body.in_domain_probability", "draws inside that estimate's domain",
+             "percent", show=False),
+        _col("instability_time.compact_three_body.citation", "citation", show=False),
+        _col("instability_time.compact_three_body.domain", "domain", show=False),
+        _col("instability_time.pair_minimum.log10_inner_orbits",
+             "log₁₀ minimum Lagrange-instability time (Veras & Mustill 2013)", "summary",
+             latex=r"$\log_{10}$ minimum Lagrange-instability time (Veras \& Mustill 2013)",
+             unit="inner orbits", unit_latex="inner orbits"),
+        _col("instability_time.pair_minimum.in_domain_probability", "draws inside that estimate's domain",
+             "percent", show=False),
+        _col("instability_time.pair_minimum.citation", "citation", show=False),
+        _col("instability_time.pair_minimum.domain", "domain", show=False),
+        _col("nbody.why", "why N-body ran", show=False),
+        _col("nbody.requested", "N-body draws requested", "integer", show=False),
+        _col("nbody.usable", "draws with every mass known", "integer", show=False),
+        _col("nbody.work_cap_draws", "draws within the work budget", "integer", show=False),
+        _col("nbody.integrated", "N-body draws integrated", "integer", show=False),
+        _col("nbody.note", "N-body note", show=False),
         _col("nbody.draws", "N-body draws integrated", "integer"),
-        _col("nbody.horizon.inner_orbits", "N-body horizon (inner orbits)", "number"),
-        _col("nbody.horizon.years", "N-body horizon", "number", unit="yr", unit_latex="yr", unit_astropy="yr"),
-        _col("nbody.regular_fraction", "regular draws (MEGNO < 2.5, no event)", "percent"),
-        _col("nbody.chaotic_fraction", "chaotic draws that survived", "percent"),
-        _col("nbody.event_fraction", "draws with an encounter, crossing or escape", "percent"),
+        _col("nbody.horizon.inner_orbits", "N-body horizon (orbits of the innermost planet)", "integer"),
+        _col("nbody.horizon.outer_orbits", "N-body horizon (orbits of the outermost planet)", "summary"),
+        _col("nbody.horizon.years", "N-body horizon", "summary", unit="yr", unit_latex="yr", unit_astropy="yr"),
+        _col("nbody.integrator", "N-body integrator", show=False),
+        _col("nbody.regular_probability", "integrated draws regular (MEGNO < 2.5, no event)", "percent"),
+        _col("nbody.chaotic_survived_probability", "integrated draws chaotic but surviving", "percent"),
+        _col("nbody.event_probability", "integrated draws with an encounter, crossing or escape", "percent"),
+        _col("nbody.survival_probability", "integrated draws surviving", "percent", show=False),
+        _col("nbody.encounter_probability", "integrated draws with a close encounter", "percent", show=False),
+        _col("nbody.crossing_probability", "integrated draws with crossing orbits", "percent", show=False),
+        _col("nbody.escape_probability", "integrated draws with an escape", "percent", show=False),
+        _col("nbody.megno", "MEGNO at the end of the integration", "summary"),
+        _col("nbody.energy_error", "relative energy error", "summary", show=False),
         _col("nbody.phases", "phases"),
-        Column("libration_fraction", "P(librating)", r"$P_\mathrm{lib}$", fmt="percent",
+        _col("nbody.phases_uniform", "planets with uniformly drawn phases", "names", show=False),
+        _col("nbody.orientation", "N-body orientations", show=False),
+        _col("nbody.truncated_by_budget", "cut by the work budget", show=False),
+        Column("libration_probability", "P(librating)", r"$P_\mathrm{lib}$", fmt="percent",
                description="fraction of integrated draws in which a resonant angle of the pair librates"),
         Column("libration_resonance", "resonance tested", "Resonance tested", fmt="text",
                description="resonance whose angles were tested for libration in the integration"),
@@ -343,7 +390,7 @@ class DynamicsScore(Score):
         domain = assess_domain(ctx)
         n_req, why = nbody_plan(o, domain)
         block = {"analytic_pass_probability": domain["p_pass"], "outside_domain": domain["reasons"],
-                 "outside_domain_fraction": domain["p_reason"]}
+                 "outside_domain_probability": domain["p_reason"]}
         times = _instability_times(ctx, domain)
         if times:
             block["instability_time"] = times
@@ -366,14 +413,13 @@ class DynamicsScore(Score):
                 block["nbody"].update({
                     "draws": int(done.sum()), "horizon": info["horizon"],
                     "integrator": "rebound WHFast + MEGNO (IAS15 after an energy-error switch)",
-                    "regular_fraction": fr["regular"], "chaotic_fraction": fr["chaotic_survived"],
-                    "event_fraction": fr["events"], "survived_fraction": fr["survived"],
-                    "encounter_fraction": float(np.mean(np.asarray(res.encounter)[done])),
-                    "crossing_fraction": float(np.mean(np.asarray(res.crossing)[done])),
-                    "escape_fraction": float(np.mean(np.asarray(res.escape)[done])),
+                    "regular_probability": fr["regular"], "chaotic_survived_probability": fr["chaotic_survived"],
+                    "event_probability": fr["events"], "survival_probability": fr["survived"],
+                    "encounter_probability": float(np.mean(np.asarray(res.encounter)[done])),
+                    "crossing_probability": float(np.mean(np.asarray(res.crossing)[done])),
+                    "escape_probability": float(np.mean(np.asarray(res.escape)[done])),
                     "megno": summarize(np.asarray(res.megno)[done]),
-                    "max_energy_error": float(np.nanmax(np.asarray(res.energy_error)[done])),
-                    "encounter_distance_mutual_hill_radii": float(res.hill_factor),
+                    "energy_error": summarize(np.asarray(res.energy_error)[done]),
                     "phases": "from the data for every planet" if not uniform else
                               ("drawn uniformly for " + ", ".join(uniform)),
                     "phases_uniform": uniform,
@@ -382,7 +428,7 @@ class DynamicsScore(Score):
                 })
                 pr, lap = _resonance_block(ctx, res, specs, [(r["_spec"], r) for r in laplace_rel], ctx.names)
                 for i, entry in pr.items():
-                    pairs_out[i] = {"libration_fraction": entry["libration_fraction"],
+                    pairs_out[i] = {"libration_probability": entry["libration_probability"],
                                     "libration_resonance": entry["resonance"],
                                     "libration_amplitude_deg": entry["libration_amplitude_deg"]}
                 for r in laplace_rel:
@@ -422,7 +468,7 @@ class DynamicsScore(Score):
             caveats.append("minimum_masses")
         if getattr(ctx.options, "require_stable", False):
             caveats.append("stable_by_construction")
-        out = [verdict("three_body_relation", r.get("libration_fraction"), r["planets"],
+        out = [verdict("three_body_relation", r.get("libration_probability"), r["planets"],
                        criterion="three-body relation of the mean motions", citation="Murray & Dermott 1999",
                        relation=r["relation"], residual=r["residual"])
                for r in b.get("three_body_relations") or []]

@@ -157,7 +157,7 @@ class ResonanceScore(Score):
                 + (["weak_eccentricity"] if loose else []),
                 mmr=spacing.mmr_label(j, k) if j else q.get("nearest_mmr"), order=int(k) if j else q.get("mmr_order"),
                 nearest_mmr=q.get("nearest_mmr"), nearest_order=q.get("mmr_order"),
-                libration_fraction=q.get("libration_fraction")))
+                libration_fraction=q.get("libration_probability")))
         return out
 
 
