@@ -35,6 +35,21 @@ def _posterior(system, opts: AnalysisOptions) -> Posterior:
     return direct_draws(system, n=opts.n_draws, seed=opts.seed)
 
 
+def _not_the_sky(post, plane) -> Posterior:
+    """Inclinations measured from the ecliptic or the invariable plane (``reference_plane``).
+
+    The orbit orientations are used as given for everything that does not depend on the observer --
+    mutual inclinations, the invariable plane and AMD, the N-body integrations -- but m sin i (which
+    needs the inclination to the sky) is unknown, and the notes say what the inclinations are measured
+    from.  The reader refuses sky-plane data (K, m sin i, b, Rp/R*, transits) in such files.
+    """
+    post.draws["msini"] = np.full_like(np.asarray(post.draws["msini"], dtype=float), np.nan)
+    for name in post.system.planet_names:
+        post.notes.setdefault(name, {})["inc"] = (f"measured from the {plane} plane (reference_plane), not the "
+                                                  "sky: m sin i and transit quantities do not apply")
+    return post
+
+
 def _condition_on_survival(post, opts: AnalysisOptions) -> Posterior:
     """``--require-stable --stable-by nbody``: keep the integrated draws that survive the horizon.
 
@@ -73,6 +88,8 @@ def analyze(system, options: AnalysisOptions | None = None) -> Analysis:
     """Analyse one validated :class:`~archsys.model.system.System`."""
     opts = options or AnalysisOptions()
     post = _posterior(system, opts)
+    if getattr(system, "reference_plane", "sky") != "sky":
+        post = _not_the_sky(post, system.reference_plane)
     if opts.require_stable and opts.stable_by == "nbody":
         post = _condition_on_survival(post, opts)
     from .scores import compute_scores

@@ -59,9 +59,11 @@ def test_handbook_elements_run_in_default_mode_and_reproduce_hill_spacings():
         # [Standish1992] (derived from Table 1 a); a here comes from P by Kepler III, which agrees with
         # the mean elements to 5e-4 (2e), and the masses are the fact sheet's (3 significant figures).
         assert q["hill_separation"]["median"] == pytest.approx(ref, rel=0.01)
-    # Earth at i = 0 has m sin i = 0 exactly and a finite true mass
+    # Ecliptic inclinations are not sky inclinations (reference_plane = "ecliptic", issue 18): m sin i is
+    # unknown, the true masses stand, and the notes say what the inclinations are measured from.
     earth = doc["planets"][2]
-    assert earth["msini_mearth"]["median"] == pytest.approx(0.0, abs=1e-12)
+    assert earth.get("msini_mearth") is None
+    assert earth["mass_mearth"]["median"] == pytest.approx(1.0, rel=1e-9)
     assert "mutual_inclination_sigma_deg" in doc
 
 

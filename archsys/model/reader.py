@@ -352,6 +352,7 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
         _cross_checks(q, star, where, P)
         _phase_checks(q, tr, "epoch" in data, where, P)
         _mass_checks(q, star, where, P, source)
+        _plane_checks(q, tr, data.get("reference_plane", "sky"), where, P)
         if "period" in q:
             planets.append(Planet(name=pname, period=q.pop("period"), quantities=q, transiting=tr))
     P.raise_if_any()
@@ -366,6 +367,21 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
     _phase_span_check(times + ([("epoch", epoch)] if epoch is not None else []), source)
     return System(name=name.strip(), star=star, planets=tuple(planets), source=source, sha256=sha256,
                   reference_plane=str(data.get("reference_plane", "sky")), epoch=epoch)
+
+
+#: Fields whose meaning needs inclinations measured from the sky (the line of sight).
+SKY_FIELDS = ("k", "msini", "b", "ror", "transit_time")
+
+
+def _plane_checks(q, transiting, plane, where, P):
+    """Inclinations from the ecliptic or the invariable plane cannot be combined with sky-plane data."""
+    if plane in (None, "sky") or plane not in REFERENCE_PLANES:
+        return
+    bad = [k for k in SKY_FIELDS if k in q] + (["transiting"] if transiting else [])
+    if bad:
+        P.add(where, f"field '{bad[0]}' needs sky inclinations, but reference_plane = '{plane}' measures "
+                     "inclinations from another plane; give sky inclinations (reference_plane = 'sky') or leave "
+                     f"out {', '.join(repr(b) for b in bad)}")
 
 
 def _meant(key, known, value=None):
