@@ -66,6 +66,8 @@ def test_archsys_agrees_with_an_independent_referee(key):
     assert p_archsys is not None, dyn
     survived, regular = _referee_of(res, N_REFEREE, HORIZON)
     # 64 and 12 draws: the binomial noise of the difference is <= 0.16 (1 sigma at p = 0.5)
+    print(f"BENCH {key:28s} {dyn['class']:18s} archsys {p_archsys:.2f} referee {regular.mean():.2f} "
+          f"survived {survived.mean():.2f}")
     assert abs(p_archsys - regular.mean()) <= 0.35, (key, dyn["class"], p_archsys, regular.mean())
     if dyn["class"] == "unstable_nbody":
         assert survived.mean() <= 0.7, key
