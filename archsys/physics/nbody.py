@@ -78,7 +78,6 @@ class MegnoResult:
     """
 
     megno: np.ndarray
-    megno_inner_orbits: np.ndarray
     chaotic: np.ndarray
     encounter: np.ndarray
     escape: np.ndarray
