@@ -254,7 +254,7 @@ MIN_OUTER_ORBITS = 100.0
 #: circle (its range stays below 2 pi - LIBRATION_GAP) and its unwrapped secular drift over the
 #: integration (least-squares line) is below LIBRATION_DRIFT (common practice; see libration_test).
 LIBRATION_GAP = 0.5 * math.pi
-LIBRATION_DRIFT = math.pi
+LIBRATION_DRIFT = 0.5 * math.pi
 
 
 @dataclass(frozen=True)
@@ -578,7 +578,8 @@ def _run_draw(task):
             # clearly chaotic: keep its MEGNO and continue without variational equations
             out["megno"], out["megno_t"] = float(sim.megno()), sim.t / p_inner
             megno_live = False
-            sim = _without_variations(sim, n_pl, "ias15" if switch else integ, dt, radius, _resolve, exit_max)
+            sim = _without_variations(sim, n_pl, "whfast" if integ == "whfast" and not switch else "ias15", dt,
+                                      radius, _resolve, exit_max)
         elif switch:
             # WHFast is losing accuracy (an eccentric or close pass): continue adaptively
             sim.integrator = "ias15"
