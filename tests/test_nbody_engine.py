@@ -200,3 +200,27 @@ def test_four_planets_at_five_hill_radii_have_encounters():
                                 rng.uniform(0, TWO_PI, shape), n_inner_orbits=2e4, seed=8, jobs=2, megno=False)
     assert (~res.survived).mean() >= 0.5
     assert np.all(res.t_stop_inner_orbits[res.encounter] < 2e4)
+
+
+def test_posterior_with_phases_to_a_librating_gj876_like_pair():
+    # End to end: a GJ 876-like system file with mean longitudes at an epoch (values from memory of
+    # Rivera et al. 2010, Table 3: lambda = omega + M; masses as m sin i, coplanar edge-on), through the
+    # posterior's phases and initial_conditions, into the engine: the 2:1 angles librate, the pair survives.
+    from archsys.inference.draws import direct_draws
+    from archsys.inference.nbody_setup import initial_conditions
+    from archsys.model.reader import build_system
+    sysm = build_system({
+        "name": "GJ 876-like (invented test values)", "epoch": 2450602.093, "star": {"mass": 0.37},
+        "planet": [
+            {"name": "c", "period": {"value": 30.088, "err": 0.005}, "msini": {"value": 227.0, "err": 3.0},
+             "ecc": {"value": 0.256, "err": 0.002}, "omega": {"value": 48.8, "err": 0.5},
+             "mean_longitude": {"value": 343.4, "err": 0.5}},
+            {"name": "b", "period": {"value": 61.117, "err": 0.005}, "msini": {"value": 723.0, "err": 3.0},
+             "ecc": {"value": 0.032, "err": 0.002}, "omega": {"value": 50.3, "err": 3.0},
+             "mean_longitude": {"value": 16.0, "err": 0.5}}]})
+    post = direct_draws(sysm, n=200, seed=2)
+    el, info = initial_conditions(post, 3)
+    assert info["uniform_phases"] == [] and info["epoch"] == 2450602.093 and el["M0"].shape == (3, 2)
+    assert info["mass_basis"] == {"c": "minimum (m sin i)", "b": "minimum (m sin i)"}
+    res = nbody.integrate_draws(**el, n_inner_orbits=2000, seed=3, resonances=[(0, 1, 1, 1)])
+    assert res.survived.all() and res.librating[(0, 1, 1, 1)].all()
