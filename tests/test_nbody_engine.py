@@ -224,3 +224,28 @@ def test_posterior_with_phases_to_a_librating_gj876_like_pair():
     assert info["mass_basis"] == {"c": "minimum (m sin i)", "b": "minimum (m sin i)"}
     res = nbody.integrate_draws(**el, n_inner_orbits=2000, seed=3, resonances=[(0, 1, 1, 1)])
     assert res.survived.all() and res.librating[(0, 1, 1, 1)].all()
+
+
+def test_gj876_like_laplace_angle_librates():
+    # The 4:2:1 Laplace relation of a GJ 876-like c-b-e chain: 1/P_c - 3/P_b + 2/P_e ~ 0, angle
+    # lam_c - 3 lam_b + 2 lam_e librating about 0 (Rivera et al. 2010; elements from memory of their
+    # Table 3, lambda = omega + M, coplanar, m sin i).  Shifting the outer planet's mean longitude by 90 deg
+    # moves the angle by 180 deg, away from its centre: then it circulates.
+    from archsys.physics.constants import MEARTH_MSUN as ME
+    ms = 0.37
+    P = np.array([30.088, 61.117, 124.26])
+    m = np.array([227.0, 723.0, 14.6]) * ME
+    a = kepler.a_au(P, ms + m)
+    omega = np.radians([48.8, 50.3, 239.0])
+    lam = np.radians([343.4, 16.0, 214.0])
+    M0 = np.mod(lam - omega, TWO_PI)
+    args = dict(m=[m], a=[a], e=[[0.256, 0.032, 0.055]], inc=[[np.pi / 2] * 3], omega=[omega],
+                Omega=[[0.0] * 3], M0=[M0])
+    spec = (0, 1, 2, 1, -3, 2)
+    res = nbody.integrate_draws(ms, **args, n_inner_orbits=3000, seed=1, laplace=[spec], resonances=[(0, 1, 1, 1)])
+    assert res.survived[0] and res.laplace_librating[spec][0] and res.librating[(0, 1, 1, 1)][0]
+    assert res.laplace_amplitude[spec][0] < 1.5
+    lam[2] += 0.5 * np.pi
+    args["M0"] = [np.mod(lam - omega, TWO_PI)]
+    off = nbody.integrate_draws(ms, **args, n_inner_orbits=3000, seed=1, laplace=[spec])
+    assert not off.laplace_librating[spec][0]
