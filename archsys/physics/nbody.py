@@ -507,6 +507,8 @@ class _Shadow:
 
     def follow(self, nominal):
         """Integrate the shadow to the nominal's time and record ln(separation); False if it broke."""
+        if nominal.t <= self.t[-1]:
+            return True                              # no step since the last sample
         self.sim.integrate(nominal.t, exact_finish_time=0)
         self.sim.synchronize()
         if abs(self.sim.t - nominal.t) > 1e-9 * max(abs(nominal.t), nominal.dt):
