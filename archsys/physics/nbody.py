@@ -247,6 +247,9 @@ ENERGY_SWITCH = 1e-4
 #: linearly in time for chaotic orbits (Cincotta & Simo 2000), so a draw past twice the threshold
 #: stays above it.
 MEGNO_DROP = 2.0 * MEGNO_CHAOS
+#: Order of WHFast's symplectic corrector (Wisdom, Holman & Touma 1996; Rein & Tamayo 2015) where
+#: WHFast runs with safe_mode 0 (0: none).  Correctors act only at the snapshots.
+WHFAST_CORRECTOR = 0
 #: How MEGNO is computed by default: "variational" (rebound's variational equations, Rein & Tamayo
 #: 2016; needs WHFast's safe_mode 1) or "shadow" (finite differences with a shadow trajectory, both in
 #: safe_mode 0; see _Shadow).
@@ -442,10 +445,11 @@ def _jacobi_elements(sim, n_pl):
     return out
 
 
-def _configure(sim, integrator, dt, megno_on, radius, resolve, exit_max):
+def _configure(sim, integrator, dt, megno_on, radius, resolve, exit_max, corrector=0):
     sim.integrator = integrator
     if integrator == "whfast" and not megno_on:
         sim.integrator.safe_mode = 0                 # rebound refuses safe_mode 0 with MEGNO
+        sim.integrator.corrector = corrector         # applied only when synchronising (snapshots)
     sim.dt = dt
     for i, r in enumerate(radius[1:], start=1):
         sim.particles[i].r = float(r)
@@ -454,7 +458,7 @@ def _configure(sim, integrator, dt, megno_on, radius, resolve, exit_max):
     sim.exit_max_distance = exit_max
 
 
-def _without_variations(sim, n_pl, integrator, dt, radius, resolve, exit_max):
+def _without_variations(sim, n_pl, integrator, dt, radius, resolve, exit_max, corrector=0):
     """A copy of ``sim`` (synchronised) without the MEGNO variational particles."""
     import rebound
     new = rebound.Simulation()
@@ -462,7 +466,7 @@ def _without_variations(sim, n_pl, integrator, dt, radius, resolve, exit_max):
     for i in range(n_pl + 1):
         new.add(sim.particles[i])
     new.t = sim.t
-    _configure(new, integrator, dt, False, radius, resolve, exit_max)
+    _configure(new, integrator, dt, False, radius, resolve, exit_max, corrector)
     return new
 
 
@@ -479,8 +483,9 @@ class _Shadow:
     D0 = 1e-9
     RENORM = 1e-6
 
-    def __init__(self, nominal, n_pl, rng, length, speed):
+    def __init__(self, nominal, n_pl, rng, length, speed, corrector=0):
         self.n = n_pl + 1
+        self.corrector = corrector
         self.scale = np.array([length] * 3 + [speed] * 3)
         u = rng.standard_normal((self.n, 6))
         u[0] = 0.0                                   # displace the planets; the star follows
@@ -502,6 +507,7 @@ class _Shadow:
         new.t = nominal.t
         new.integrator = "whfast"
         new.integrator.safe_mode = 0
+        new.integrator.corrector = self.corrector
         new.dt = nominal.dt
         return new
 
@@ -538,7 +544,7 @@ class _Shadow:
 def _run_draw(task):
     """Integrate one draw (module level: worker processes run it)."""
     (m_star, m, a, e, inc, omega, Omega, M0, n_inner, seed, steps, hill_factor, res_specs, lap_specs,
-     n_snap, deadline, megno_mode, energy_switch, megno_drop) = task
+     n_snap, deadline, megno_mode, energy_switch, megno_drop, corrector) = task
     megno_on = megno_mode == "variational"
     rebound = _rebound()
     n_pl = len(m)
@@ -602,13 +608,13 @@ def _run_draw(task):
         return 0
 
     exit_max = ESCAPE_FACTOR * float(as_[-1])
-    _configure(sim, "whfast", dt, megno_on, radius, _resolve, exit_max)
+    _configure(sim, "whfast", dt, megno_on, radius, _resolve, exit_max, corrector)
     rng = np.random.default_rng(seed)
     if megno_on:
         sim.init_megno(seed=seed)
     shadow = None
     if megno_mode == "shadow":
-        shadow = _Shadow(sim, n_pl, rng, float(as_[0]), TWO_PI * float(as_[0]) / p_inner)
+        shadow = _Shadow(sim, n_pl, rng, float(as_[0]), TWO_PI * float(as_[0]) / p_inner, corrector)
     e0 = sim.energy()
     # snapshot times: one per slot, jittered within the slot so that a circulating angle is never
     # sampled in step with its own period (aliasing), the last one at the horizon
@@ -661,7 +667,7 @@ def _run_draw(task):
             out["megno"], out["megno_t"] = float(sim.megno()), sim.t / p_inner
             megno_live = False
             sim = _without_variations(sim, n_pl, "whfast" if integ == "whfast" and not switch else "ias15", dt,
-                                      radius, _resolve, exit_max)
+                                      radius, _resolve, exit_max, corrector)
         elif switch:
             # WHFast is losing accuracy (an eccentric or close pass): continue adaptively
             sim.integrator = "ias15"
@@ -726,7 +732,7 @@ def integrate_draws(m_star, m, a, e, inc, omega, Omega, M0, *, n_inner_orbits, j
                     resonances=(), laplace=(), n_snapshots=200, time_budget=None,
                     hill_factor=HILL_ENCOUNTER, megno=True, steps_per_orbit=STEPS_PER_ORBIT,
                     megno_threshold=MEGNO_CHAOS, energy_switch=ENERGY_SWITCH,
-                    megno_drop=MEGNO_DROP) -> NbodyResult:
+                    megno_drop=MEGNO_DROP, corrector=WHFAST_CORRECTOR) -> NbodyResult:
     """Integrate posterior draws with rebound and judge survival, chaos and resonances.
 
     Each draw is integrated on its own (WHFast, Jacobi elements, time step 1/``steps_per_orbit`` of
@@ -777,6 +783,11 @@ def integrate_draws(m_star, m, a, e, inc, omega, Omega, M0, *, n_inner_orbits, j
     megno_drop : float
         A draw whose MEGNO passes this value (clearly chaotic) keeps it and continues without the
         chaos indicator (survival only).
+    corrector : int
+        Order of WHFast's symplectic corrector (0, 3, 5, 7, 11 or 17) where WHFast runs with
+        ``safe_mode = 0``; applied only at snapshots.  With ``corrector=17`` and ``steps_per_orbit=14``
+        the seven-planet benchmark runs about 1.5 times faster with a smaller energy error (our
+        measurements; the default keeps the common P/20 step without corrector).
 
     Returns
     -------
@@ -819,7 +830,7 @@ def integrate_draws(m_star, m, a, e, inc, omega, Omega, M0, *, n_inner_orbits, j
     deadline = None if time_budget is None else time.time() + float(time_budget)
     tasks = [(float(m_star[k]), m[k], a[k], e[k], inc[k], omega[k], Omega[k], M0[k], float(n_inner_orbits),
               seeds[k], int(steps_per_orbit), float(hill_factor), res_specs, lap_specs, int(n_snapshots),
-              deadline, mode, float(energy_switch), float(megno_drop)) for k in range(n_draws)]
+              deadline, mode, float(energy_switch), float(megno_drop), int(corrector)) for k in range(n_draws)]
     jobs = min(int(jobs), max(n_draws, 1))
     import multiprocessing
     if jobs > 1 and multiprocessing.current_process().daemon:
