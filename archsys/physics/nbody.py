@@ -1,4 +1,9 @@
-"""Direct N-body check of posterior draws: WHFast + MEGNO with rebound.
+"""Direct N-body integrations of posterior draws with rebound.
+
+:func:`integrate_draws` is the engine of the dynamical verdicts: per draw, survival (no encounter
+within one mutual Hill radius, no escape), orbit crossing, MEGNO, energy error, and libration of
+resonant and three-body angles over a horizon (:func:`default_horizon`), within a time budget.
+:func:`megno_draws` is the older, simpler MEGNO check (kept for its callers).
 
 Optional: needs the ``nbody`` extra (``pip install 'archsys[nbody]'``), which
 provides rebound, a general-purpose N-body library (Rein & Liu 2012).
@@ -243,7 +248,7 @@ HILL_ENCOUNTER = 1.0
 #: Relative energy error |dE / E| at a snapshot above which a draw switches from WHFast to IAS15.
 ENERGY_SWITCH = 1e-4
 #: MEGNO above which a draw is clearly chaotic: its MEGNO is kept and the integration continues
-#: without the variational equations (survival only, about three times faster).  MEGNO grows about
+#: without the chaos indicator (survival only: two to three times faster).  MEGNO grows about
 #: linearly in time for chaotic orbits (Cincotta & Simo 2000), so a draw past twice the threshold
 #: stays above it.
 MEGNO_DROP = 2.0 * MEGNO_CHAOS
@@ -288,7 +293,8 @@ class NbodyResult:
     energy_error : largest relative energy error |E - E0| / |E0| over the snapshots.
     integrator : per draw, "whfast", "whfast+ias15" (switched after the energy error exceeded
         ENERGY_SWITCH) or "" (not integrated).
-    librating : spec (i, j, p, q) -> bool array: some resonant angle of that pair librates.
+    librating : spec (i, j, p, q) -> bool array: some resonant angle of that pair librates (False
+        for draws stopped by an encounter or escape, or with fewer than 8 snapshots).
     libration_amplitude : spec -> float array [rad]: half the range of the best (least wide)
         resonant angle; NaN when none librates.
     laplace_librating : spec (i, j, k, c_i, c_j, c_k) -> bool array.
