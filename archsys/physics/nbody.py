@@ -1,4 +1,9 @@
-"""Direct N-body check of posterior draws: WHFast + MEGNO with rebound.
+"""Direct N-body integrations of posterior draws with rebound.
+
+:func:`integrate_draws` is the engine of the dynamical verdicts: per draw, survival (no encounter
+within one mutual Hill radius, no escape), orbit crossing, MEGNO, energy error, and libration of
+resonant and three-body angles over a horizon (:func:`default_horizon`), within a time budget.
+:func:`megno_draws` is the older, simpler MEGNO check (kept for its callers).
 
 Optional: needs the ``nbody`` extra (``pip install 'archsys[nbody]'``), which
 provides rebound, a general-purpose N-body library (Rein & Liu 2012).
@@ -78,7 +83,6 @@ class MegnoResult:
     """
 
     megno: np.ndarray
-    megno_inner_orbits: np.ndarray
     chaotic: np.ndarray
     encounter: np.ndarray
     escape: np.ndarray
@@ -244,10 +248,17 @@ HILL_ENCOUNTER = 1.0
 #: Relative energy error |dE / E| at a snapshot above which a draw switches from WHFast to IAS15.
 ENERGY_SWITCH = 1e-4
 #: MEGNO above which a draw is clearly chaotic: its MEGNO is kept and the integration continues
-#: without the variational equations (survival only, about three times faster).  MEGNO grows about
+#: without the chaos indicator (survival only: two to three times faster).  MEGNO grows about
 #: linearly in time for chaotic orbits (Cincotta & Simo 2000), so a draw past twice the threshold
 #: stays above it.
 MEGNO_DROP = 2.0 * MEGNO_CHAOS
+#: Order of WHFast's symplectic corrector (Wisdom, Holman & Touma 1996; Rein & Tamayo 2015) where
+#: WHFast runs with safe_mode 0 (0: none).  Correctors act only at the snapshots.
+WHFAST_CORRECTOR = 0
+#: How MEGNO is computed by default: "variational" (rebound's variational equations, Rein & Tamayo
+#: 2016; needs WHFast's safe_mode 1) or "shadow" (finite differences with a shadow trajectory, both in
+#: safe_mode 0; see _Shadow).
+MEGNO_METHOD = "shadow"
 #: Shortest default horizon in orbits of the innermost planet and of the outermost planet.
 MIN_INNER_ORBITS = 1e4
 MIN_OUTER_ORBITS = 100.0
@@ -255,7 +266,7 @@ MIN_OUTER_ORBITS = 100.0
 #: circle (its range stays below 2 pi - LIBRATION_GAP) and its unwrapped secular drift over the
 #: integration (least-squares line) is below LIBRATION_DRIFT (common practice; see libration_test).
 LIBRATION_GAP = 0.5 * math.pi
-LIBRATION_DRIFT = math.pi
+LIBRATION_DRIFT = 0.5 * math.pi
 
 
 @dataclass(frozen=True)
@@ -282,7 +293,8 @@ class NbodyResult:
     energy_error : largest relative energy error |E - E0| / |E0| over the snapshots.
     integrator : per draw, "whfast", "whfast+ias15" (switched after the energy error exceeded
         ENERGY_SWITCH) or "" (not integrated).
-    librating : spec (i, j, p, q) -> bool array: some resonant angle of that pair librates.
+    librating : spec (i, j, p, q) -> bool array: some resonant angle of that pair librates (False
+        for draws stopped by an encounter or escape, or with fewer than 8 snapshots).
     libration_amplitude : spec -> float array [rad]: half the range of the best (least wide)
         resonant angle; NaN when none librates.
     laplace_librating : spec (i, j, k, c_i, c_j, c_k) -> bool array.
@@ -439,10 +451,11 @@ def _jacobi_elements(sim, n_pl):
     return out
 
 
-def _configure(sim, integrator, dt, megno_on, radius, resolve, exit_max):
+def _configure(sim, integrator, dt, megno_on, radius, resolve, exit_max, corrector=0):
     sim.integrator = integrator
     if integrator == "whfast" and not megno_on:
         sim.integrator.safe_mode = 0                 # rebound refuses safe_mode 0 with MEGNO
+        sim.integrator.corrector = corrector         # applied only when synchronising (snapshots)
     sim.dt = dt
     for i, r in enumerate(radius[1:], start=1):
         sim.particles[i].r = float(r)
@@ -451,7 +464,7 @@ def _configure(sim, integrator, dt, megno_on, radius, resolve, exit_max):
     sim.exit_max_distance = exit_max
 
 
-def _without_variations(sim, n_pl, integrator, dt, radius, resolve, exit_max):
+def _without_variations(sim, n_pl, integrator, dt, radius, resolve, exit_max, corrector=0):
     """A copy of ``sim`` (synchronised) without the MEGNO variational particles."""
     import rebound
     new = rebound.Simulation()
@@ -459,14 +472,86 @@ def _without_variations(sim, n_pl, integrator, dt, radius, resolve, exit_max):
     for i in range(n_pl + 1):
         new.add(sim.particles[i])
     new.t = sim.t
-    _configure(new, integrator, dt, False, radius, resolve, exit_max)
+    _configure(new, integrator, dt, False, radius, resolve, exit_max, corrector)
     return new
+
+
+class _Shadow:
+    """A shadow trajectory for MEGNO by finite differences (the two-particle method of Benettin et
+    al. 1980): a copy of the system displaced by D0 in scaled phase space (positions over the inner
+    semi-major axis, velocities over its circular speed; every body, star included), integrated beside
+    the nominal one with the same WHFast steps (``safe_mode = 0``) and renormalised back to D0 (same
+    direction) whenever the separation passes RENORM.  With L(t) the accumulated ln(separation / D0),
+    MEGNO is Y(t) = (2/t) int_0^t s dL = 2 L(t) - (2/t) int_0^t L ds and <Y>(t) = (1/t) int_0^t Y ds
+    (Cincotta & Simo 2000, eqs. 2-3), integrated by trapezoids over the snapshots; quasi-periodic
+    orbits give <Y> -> 2, chaotic ones <Y> ~ lambda t / 2."""
+
+    D0 = 1e-9
+    RENORM = 1e-6
+
+    def __init__(self, nominal, n_pl, rng, length, speed, corrector=0):
+        self.n = n_pl + 1
+        self.corrector = corrector
+        self.scale = np.array([length] * 3 + [speed] * 3)
+        u = rng.standard_normal((self.n, 6))
+        u[0] = 0.0                                   # displace the planets; the star follows
+        self.sim = self._build(nominal, u * (self.D0 / np.linalg.norm(u)))
+        self.t, self.logs, self.acc = [0.0], [0.0], 0.0
+
+    def _state(self, sim):
+        ps = sim.particles
+        return np.array([[p.x, p.y, p.z, p.vx, p.vy, p.vz] for p in (ps[i] for i in range(self.n))])
+
+    def _build(self, nominal, offset):
+        import rebound
+        new = rebound.Simulation()
+        new.G = nominal.G
+        shifted = self._state(nominal) + offset * self.scale
+        for i in range(self.n):
+            new.add(m=nominal.particles[i].m, x=shifted[i, 0], y=shifted[i, 1], z=shifted[i, 2],
+                    vx=shifted[i, 3], vy=shifted[i, 4], vz=shifted[i, 5])
+        new.t = nominal.t
+        new.integrator = "whfast"
+        new.integrator.safe_mode = 0
+        new.integrator.corrector = self.corrector
+        new.dt = nominal.dt
+        return new
+
+    def follow(self, nominal):
+        """Integrate the shadow to the nominal's time and record ln(separation); False if it broke."""
+        if nominal.t <= self.t[-1]:
+            return True                              # no step since the last sample
+        self.sim.integrate(nominal.t, exact_finish_time=0)
+        self.sim.synchronize()
+        if abs(self.sim.t - nominal.t) > 1e-9 * max(abs(nominal.t), nominal.dt):
+            return False
+        off = (self._state(self.sim) - self._state(nominal)) / self.scale
+        d = float(np.linalg.norm(off))
+        if not (math.isfinite(d) and d > 0):
+            return False
+        self.t.append(nominal.t)
+        self.logs.append(self.acc + math.log(d / self.D0))
+        if d > self.RENORM:
+            self.acc += math.log(d / self.D0)
+            self.sim = self._build(nominal, off * (self.D0 / d))
+        return True
+
+    def megno(self):
+        t, L = np.asarray(self.t), np.asarray(self.logs)
+        if len(t) < 3 or t[-1] <= 0:
+            return math.nan
+        dt = np.diff(t)
+        integral = np.concatenate([[0.0], np.cumsum(0.5 * (L[1:] + L[:-1]) * dt)])
+        y = np.zeros_like(t)
+        y[1:] = 2.0 * L[1:] - 2.0 * integral[1:] / t[1:]
+        return float(np.sum(0.5 * (y[1:] + y[:-1]) * dt) / t[-1])
 
 
 def _run_draw(task):
     """Integrate one draw (module level: worker processes run it)."""
     (m_star, m, a, e, inc, omega, Omega, M0, n_inner, seed, steps, hill_factor, res_specs, lap_specs,
-     n_snap, deadline, megno_on, energy_switch, megno_drop) = task
+     n_snap, deadline, megno_mode, energy_switch, megno_drop, corrector) = task
+    megno_on = megno_mode == "variational"
     rebound = _rebound()
     n_pl = len(m)
     out = {"megno": math.nan, "megno_t": 0.0, "encounter": False, "escape": False, "crossing": False,
@@ -529,11 +614,14 @@ def _run_draw(task):
         return 0
 
     exit_max = ESCAPE_FACTOR * float(as_[-1])
-    _configure(sim, "whfast", dt, megno_on, radius, _resolve, exit_max)
+    _configure(sim, "whfast", dt, megno_on, radius, _resolve, exit_max, corrector)
+    rng = np.random.default_rng(seed)
     if megno_on:
         sim.init_megno(seed=seed)
+    shadow = None
+    if megno_mode == "shadow":
+        shadow = _Shadow(sim, n_pl, rng, float(as_[0]), TWO_PI * float(as_[0]) / p_inner, corrector)
     e0 = sim.energy()
-    rng = np.random.default_rng(seed)
     # snapshot times: one per slot, jittered within the slot so that a circulating angle is never
     # sampled in step with its own period (aliasing), the last one at the horizon
     slots = (np.arange(n_snap) + 1.0 - 0.5 * rng.uniform(size=n_snap)) / n_snap
@@ -575,11 +663,17 @@ def _run_draw(task):
             out["t_stop"] = sim.t / p_inner
             return out                              # not completed: left out by the time budget
         switch = integ == "whfast" and err > energy_switch
+        if shadow is not None:
+            if not shadow.follow(sim) or switch or shadow.megno() > megno_drop:
+                # the shadow broke, the nominal leaves WHFast, or the draw is clearly chaotic
+                out["megno"], out["megno_t"] = shadow.megno(), sim.t / p_inner
+                shadow = None
         if megno_live and k < n_snap - 1 and sim.megno() > megno_drop:
             # clearly chaotic: keep its MEGNO and continue without variational equations
             out["megno"], out["megno_t"] = float(sim.megno()), sim.t / p_inner
             megno_live = False
-            sim = _without_variations(sim, n_pl, "ias15" if switch else integ, dt, radius, _resolve, exit_max)
+            sim = _without_variations(sim, n_pl, "whfast" if integ == "whfast" and not switch else "ias15", dt,
+                                      radius, _resolve, exit_max, corrector)
         elif switch:
             # WHFast is losing accuracy (an eccentric or close pass): continue adaptively
             sim.integrator = "ias15"
@@ -591,6 +685,8 @@ def _run_draw(task):
     out["completed"] = True
     if megno_live:
         out["megno"], out["megno_t"] = float(sim.megno()), sim.t / p_inner
+    if shadow is not None:
+        out["megno"], out["megno_t"] = shadow.megno(), sim.t / p_inner
     ok = slice(0, k_done)
     if k_done >= 8 and not (out["encounter"] or out["escape"]):
         ts = t_samp[ok]
@@ -642,11 +738,11 @@ def integrate_draws(m_star, m, a, e, inc, omega, Omega, M0, *, n_inner_orbits, j
                     resonances=(), laplace=(), n_snapshots=200, time_budget=None,
                     hill_factor=HILL_ENCOUNTER, megno=True, steps_per_orbit=STEPS_PER_ORBIT,
                     megno_threshold=MEGNO_CHAOS, energy_switch=ENERGY_SWITCH,
-                    megno_drop=MEGNO_DROP) -> NbodyResult:
+                    megno_drop=MEGNO_DROP, corrector=WHFAST_CORRECTOR) -> NbodyResult:
     """Integrate posterior draws with rebound and judge survival, chaos and resonances.
 
-    Each draw is integrated on its own (WHFast, ``safe_mode = 0``, Jacobi elements, time step
-    1/``steps_per_orbit`` of the shortest pericentre time scale, MEGNO variational equations) for
+    Each draw is integrated on its own (WHFast, Jacobi elements, time step 1/``steps_per_orbit`` of
+    the shortest pericentre time scale, MEGNO; see ``megno``) for
     ``n_inner_orbits`` orbits of its innermost planet, about the invariable plane.  At
     ``n_snapshots`` jittered times the orbits are checked for crossing and unbound planets, the
     energy error is measured, and the mean longitudes and longitudes of pericentre (Jacobi
@@ -684,8 +780,20 @@ def integrate_draws(m_star, m, a, e, inc, omega, Omega, M0, *, n_inner_orbits, j
         budget that binds depend on the machine's speed; without one they are deterministic.
     hill_factor : float
         Encounter distance in mutual Hill radii (default 1).
-    megno : bool
-        Compute MEGNO (about doubles the cost); without it ``chaotic`` holds only events.
+    megno : bool or {"shadow", "variational"}
+        How MEGNO is computed: ``"shadow"`` (default, :data:`MEGNO_METHOD`; a displaced copy of the
+        system integrated beside it, both with WHFast's ``safe_mode = 0``; about 1.5 times faster than
+        the variational equations for seven planets, same verdicts in our tests), ``"variational"``
+        (rebound's variational equations, Rein & Tamayo 2016; needs ``safe_mode = 1``), or False
+        (none: ``chaotic`` holds only encounters and escapes; about three times faster).
+    megno_drop : float
+        A draw whose MEGNO passes this value (clearly chaotic) keeps it and continues without the
+        chaos indicator (survival only).
+    corrector : int
+        Order of WHFast's symplectic corrector (0, 3, 5, 7, 11 or 17) where WHFast runs with
+        ``safe_mode = 0``; applied only at snapshots.  With ``corrector=17`` and ``steps_per_orbit=14``
+        the seven-planet benchmark runs about 1.5 times faster with a smaller energy error (our
+        measurements; the default keeps the common P/20 step without corrector).
 
     Returns
     -------
@@ -721,11 +829,14 @@ def integrate_draws(m_star, m, a, e, inc, omega, Omega, M0, *, n_inner_orbits, j
         raise ValueError("n_inner_orbits, steps_per_orbit, n_snapshots and hill_factor must be positive "
                          "and jobs >= 1")
     res_specs, lap_specs = _check_specs(resonances, laplace, n_pl)
+    mode = {True: MEGNO_METHOD, False: "off"}.get(megno, megno) if isinstance(megno, bool) else megno
+    if mode not in ("variational", "shadow", "off"):
+        raise ValueError(f"megno must be True, False, 'variational' or 'shadow'; got {megno!r}")
     seeds = [int(s.generate_state(1)[0] & 0x7FFFFFFF) for s in np.random.SeedSequence(seed).spawn(n_draws)]
     deadline = None if time_budget is None else time.time() + float(time_budget)
     tasks = [(float(m_star[k]), m[k], a[k], e[k], inc[k], omega[k], Omega[k], M0[k], float(n_inner_orbits),
               seeds[k], int(steps_per_orbit), float(hill_factor), res_specs, lap_specs, int(n_snapshots),
-              deadline, bool(megno), float(energy_switch), float(megno_drop)) for k in range(n_draws)]
+              deadline, mode, float(energy_switch), float(megno_drop), int(corrector)) for k in range(n_draws)]
     jobs = min(int(jobs), max(n_draws, 1))
     import multiprocessing
     if jobs > 1 and multiprocessing.current_process().daemon:
@@ -739,7 +850,7 @@ def integrate_draws(m_star, m, a, e, inc, omega, Omega, M0, *, n_inner_orbits, j
     enc = np.array([o["encounter"] for o in out], dtype=bool) & done
     esc = np.array([o["escape"] for o in out], dtype=bool) & done
     cross = np.array([o["crossing"] for o in out], dtype=bool) & done
-    if megno:
+    if mode != "off":
         with np.errstate(invalid="ignore"):
             chaotic = done & (enc | esc | ~np.isfinite(megno_arr) | (megno_arr > megno_threshold))
     else:
