@@ -191,3 +191,36 @@ def test_seven_planet_chain_with_random_phases_is_chaotic_not_stable():
     assert dyn["stable_probability"] <= 0.25
     survived, regular = _referee_of(res, 4, 10000)
     assert regular.mean() <= 0.5
+
+
+def test_resonant_chain_with_phases_is_regular_and_librating_and_random_phases_are_flagged():
+    # A 3:2, 3:2 chain captured by convergent migration in an independent rebound run
+    # (tests/data/dynamics/make_resonant_chain.py; TRAPPIST-1-like in miniature).  With its phases: regular,
+    # both pairs and the three-body angle 2 lam1 - 5 lam2 + 3 lam3 librating, as the referee confirms.
+    res = analyze(read_system(DATA / "chain3_resonant.toml"), _opts(nbody=12, nbody_orbits=4000))
+    dyn = res.document["dynamics"]
+    assert dyn["class"] == "regular_nbody", dyn["class"]
+    assert [q["libration_probability"] for q in res.document["pairs"]] == [1.0, 1.0]
+    (rel,) = dyn["three_body_relations"]
+    assert (rel["p"], rel["q"]) == (2, 3) and rel["libration_probability"] >= 0.9
+    survived, regular = _referee_of(res, 4, 4000)
+    assert survived.all() and regular.all()
+    # Without phases: drawn uniformly, said so, and not called regular.
+    s = read_system(DATA / "chain3_resonant.toml")
+    for p in s.planets:
+        p.quantities.pop("mean_longitude", None)
+    res = analyze(s, _opts(nbody=12, nbody_orbits=4000))
+    dyn = res.document["dynamics"]
+    assert dyn["class"] != "regular_nbody" and len(dyn["nbody"]["phases_uniform"]) == 3
+    assert "Phases drawn uniformly" in " ".join(res.document["verdicts"])
+
+
+def test_handbook_solar_system_is_regular_over_the_horizon():
+    # The eight planets (JPL Table 1 elements, fact-sheet masses; test_joint._handbook_system) fail the
+    # AMD criterion as a whole (Laskar & Petit 2017), so the verdict rests on integration; the Solar
+    # System is regular over such a horizon (common practice; its Lyapunov time is ~5 Myr).
+    from test_joint import _handbook_system
+    res = analyze(_handbook_system(), _opts(n_draws=50, nbody=8, nbody_orbits=2000))
+    dyn = res.document["dynamics"]
+    assert "failed_sufficient_criterion" in dyn["outside_domain"]
+    assert dyn["class"] == "regular_nbody" and dyn["nbody"]["event_probability"] == 0.0

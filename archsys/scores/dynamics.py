@@ -186,7 +186,7 @@ def run_nbody(post, n_draws, options, resonances=(), laplace=(), seed=0):
     cap = int(options.nbody_budget * NOMINAL_BODY_STEPS_PER_S // max(per_draw, 1.0))
     idx = np.flatnonzero(ok)[:max(cap, 0)]
     info = {"requested": int(n_draws), "usable": int(ok.sum()), "work_cap_draws": int(cap)}
-    if idx.size < MIN_NBODY_DRAWS:
+    if idx.size < min(MIN_NBODY_DRAWS, int(n_draws)):
         return None, info
     inc = np.asarray(d["inc"], dtype=float)[idx]
     node = np.asarray(d["node"], dtype=float)[idx]
