@@ -1,6 +1,6 @@
 """N-body benchmark: archsys.physics.nbody.integrate_draws against a bare rebound loop, same run.
 
-    python benchmarks/nbody.py                       # 64 draws, 1e4 inner orbits, 2 processes
+    python benchmarks/nbody.py                       # from the repository root: 64 draws, 1e4 inner orbits, 2 processes
     python benchmarks/nbody.py --draws 8 --orbits 2000
 
 The system (issue 18): seven Earth-mass planets on circular orbits with the periods of a
@@ -15,12 +15,17 @@ from __future__ import annotations
 import argparse
 import math
 import multiprocessing
+import pathlib
+import sys
 import time
 
 import numpy as np
 
-from archsys.physics import kepler, nbody
-from archsys.physics.constants import GM_SUN, MEARTH_MSUN, TWO_PI
+if __package__ in (None, ""):             # python benchmarks/nbody.py: make the repository importable
+    sys.path.insert(0, str(pathlib.Path(__file__).resolve().parents[1]))
+
+from archsys.physics import kepler, nbody  # noqa: E402
+from archsys.physics.constants import GM_SUN, MEARTH_MSUN, TWO_PI  # noqa: E402
 
 PERIODS = np.array([1.51, 2.42, 4.05, 6.10, 9.21, 12.35, 18.77])
 M_STAR = 0.09

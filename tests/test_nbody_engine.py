@@ -1,9 +1,9 @@
 """archsys.physics.nbody.integrate_draws: survival, chaos, resonances, horizon, budget.
 
-Outside references: independent rebound set-ups written here (Rein & Liu 2012; IAS15, Rein & Spiegel
-2015), Gladman 1993 (two-planet Hill stability), Chambers, Wetherill & Boss 1996 and Obertas, Van
-Laerhoven & Tamayo 2017 (instability times of compact equal-mass systems), and a GJ 876-like 2:1 pair
-(values from memory of Rivera et al. 2010).  Heavier runs are marked slow.
+Outside references: independent rebound set-ups written here ([ReinLiu2012]; IAS15, Rein & Spiegel
+2015), [Gladman1993] (two-planet Hill stability), [Chambers1996] and [Obertas2017] (instability times of
+compact equal-mass systems), MEGNO [CincottaSimo2000] as computed by rebound [ReinTamayo2015], and a
+GJ 876-like 2:1 pair (values from memory of [Rivera2010]).  Heavier runs are marked slow.
 """
 import math
 

@@ -1,9 +1,9 @@
 """Orbital phases (transit time, periastron time, mean longitude) carried into the posterior draws.
 
-Checked against rebound (Rein & Liu 2012), an independent general-purpose N-body library: its own
+Checked against rebound [ReinLiu2012], an independent general-purpose N-body library: its own
 orbit-from-elements set-up and its own two-body integration.  Conventions: observer along +z, so
-mid-transit (inferior conjunction) is at true anomaly f = pi/2 - omega (Winn 2010, "Transits and
-Occultations", Sect. 3, eq. 1-3); Kepler's equation M = E - e sin E (Murray & Dermott 1999, eq. 2.52).
+mid-transit (inferior conjunction) is at true anomaly f = pi/2 - omega ([Winn2010], "Transits and
+Occultations", Sect. 3, eq. 1-3); Kepler's equation M = E - e sin E ([MurrayDermott1999], eq. 2.52).
 """
 import csv
 import math
@@ -190,7 +190,7 @@ def test_times_with_different_zero_points_warn():
 
 def test_survey_columns_carry_phases_and_epoch(tmp_path):
     from archsys.survey.catalog import group_systems, read_catalog
-    from archsys.survey.columns import bind, canonical_map, system_mapping
+    from archsys.survey.column_map import bind, canonical_map, system_mapping
     header = ["system", "planet", "period", "star_mass", "transit_time", "transit_time_err", "epoch"]
     rows = [{"system": "S", "planet": "S b", "period": "3.5", "star_mass": "0.9", "transit_time": "2459000.1",
              "transit_time_err": "0.001", "epoch": "2459001"},
