@@ -162,8 +162,10 @@ def _caveat_sentences(doc, v):
     if "uniform_phases" in caveats:
         nb = (doc.get("dynamics") or {}).get("nbody") or {}
         who = _join(_names(doc, nb.get("phases_uniform") or []))
-        out.append(f"Phases drawn uniformly for {who} (no transit time, periastron time or mean longitude given): "
-                   "resonant protection depends on the phases, so give them where known.")
+        near = "near_resonance" in ((doc.get("dynamics") or {}).get("outside_domain") or [])
+        out.append(f"Phases drawn uniformly for {who} (no transit time, periastron time or mean longitude given)"
+                   + (": near resonance, survival depends on the phases, so give them where known." if near
+                      else "."))
     if "stable_by_construction" in caveats:
         cond = ((doc.get("sampler") or {}).get("stability_conditioning") or {})
         if cond:
