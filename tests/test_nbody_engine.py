@@ -130,7 +130,7 @@ def test_time_budget_leaves_draws_out_and_says_so():
     res = nbody.integrate_draws(**_gj876_like(2.03, 6, rng), n_inner_orbits=2e5, seed=1, time_budget=0.5,
                                 n_snapshots=50)
     assert res.truncated and res.n_draws_integrated < 6
-    assert not res.survived[~res.completed].any() and np.isnan(res.megno[~res.completed]).all()
+    assert not res.survived[~res.completed].any()
 
 
 def test_energy_switch_to_ias15():
