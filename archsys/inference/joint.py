@@ -43,6 +43,7 @@ from .exact import ecc_prior_for, exact_draws, geometry_factor, mass_basis
 from .orient_chain import BURN_TAU, N_TAU, run_orientation_mcmc
 from .orient_proposal import OrientationProposal, pareto_khat
 from .orientation import OrientationModel, orbit_normals, prior_orientations
+from .phases import add_phases
 from .posterior import Posterior
 from .stability import stable_draws
 
@@ -133,7 +134,7 @@ def _why(system, opts):
     if opts.mode == "mcmc":
         return "requested (--mode mcmc)"
     reasons = []
-    if opts.require_stable:
+    if opts.analytic_stability_prior:
         reasons.append("stability prior")
     if opts.ecc_prior not in (None, "ecc-uniform"):
         reasons.append("population eccentricity prior")
@@ -270,7 +271,7 @@ def sample_joint(system, opts) -> Posterior:
         "converged": bool((info.get("converged", True) if info else True) and total_ess >= 0.5 * n),
     })
     post.prior = _prior_block(user, sp, ecc_priors, system)
-    return post
+    return add_phases(post)
 
 
 #: Pareto k-hat above which the independent orientation proposal is not trusted (Vehtari et al. 2024).
@@ -394,7 +395,7 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
                  msini=msini, mass=mass, inc=np.arccos(cos_i), node=node, radius=d["radius"])
     if psi is not None:
         draws.update(psi=psi, sigma_mutual=sigma, ref_inc=ref_inc)
-    if opts.require_stable and npl >= 2:
+    if opts.analytic_stability_prior and npl >= 2:
         live = np.isfinite(logw)
         if live.any():
             st, _ = stable_draws({k: v[live] for k, v in draws.items()})

@@ -90,7 +90,9 @@ def _priors_that_ran(post, opts):
         out[q] = {"name": pr.name, "citation": pr.citation, "from_memory": bool(pr.from_memory),
                   "default": not name}
     if getattr(opts, "require_stable", False):
-        out["stability"] = "Hill (Gladman 1993) and AMD (Laskar & Petit 2017) stability of every adjacent pair"
+        out["stability"] = ("survival of each draw over the N-body horizon (--stable-by nbody; importance weights "
+                            "0/1 over the integrated draws)" if getattr(opts, "stable_by", "analytic") == "nbody" else
+                            "Hill (Gladman 1993) and AMD (Laskar & Petit 2017) stability of every adjacent pair")
     return out
 
 
@@ -115,6 +117,9 @@ def build_document(res) -> dict:
     structured = _finite(sc.get("verdicts", []))
     doc["verdicts"] = verdict_sentences(doc, structured)
     doc["structured_verdicts"] = structured
+    dyn = [t for v, t in zip(structured, doc["verdicts"]) if v.get("code") == "dynamical_assessment"]
+    if dyn and isinstance(doc.get("dynamics"), dict):
+        doc["dynamics"]["verdict"] = dyn[0]     # the headline of every format
     doc["sampler"] = dict(post.sampler)
     doc["disclaimer"] = DISCLAIMER
     doc["provenance"] = {

@@ -143,6 +143,9 @@ def render_html(doc, figures=()) -> str:
          f'<p class="meta">System architecture · {escape(meta)}</p>', "</header>",
          '<p class="lede">Values are medians with the central 68.3 % interval of the posterior draws, '
          "rounded to two significant figures of the larger error; probabilities are fractions of the draws.</p>"]
+    if (doc.get("dynamics") or {}).get("verdict"):
+        head, _, rest = doc["dynamics"]["verdict"].partition(" — ")
+        L.append(f'<p class="headline"><strong>{escape(head)}</strong> — {escape(rest)}</p>')
     if (doc.get("sampler") or {}).get("converged") is False:
         L.append('<p class="warn">The chain did not reach the convergence criterion; treat intervals as rough.</p>')
     L += ['<section id="verdicts"><h2>Verdicts</h2><ul class="verdicts">']

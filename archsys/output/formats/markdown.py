@@ -59,6 +59,9 @@ def render_markdown(doc, figures=None) -> str:
     L += ["*" + " · ".join(m for m in meta if m) + "*", "",
           "Values are medians with the central 68.3 % interval of the posterior draws, rounded to "
           "two significant figures of the larger error.", ""]
+    if (doc.get("dynamics") or {}).get("verdict"):
+        L += [f"**{_esc(doc['dynamics']['verdict'].split(' — ')[0])}** — "
+              f"{_esc(doc['dynamics']['verdict'].split(' — ', 1)[-1])}", ""]
     smp = doc.get("sampler") or {}
     if smp.get("converged") is False:
         L += ["> **Warning.** The chain did not reach the convergence criterion; treat intervals as rough.", ""]

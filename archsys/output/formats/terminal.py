@@ -82,6 +82,9 @@ def render_text(doc, colour=False) -> str:
         L.append(st.head("Star    ") + "   ".join(f"{c.label} = {plain_cell(cell)}" + (f" {c.unit}" if c.unit else "")
                                                   for c, cell in t.star))
     L.append(st.head("Draws   ") + intro_line(doc))
+    if (doc.get("dynamics") or {}).get("verdict"):
+        L.append(st.head("Verdict ") + _tone(doc["dynamics"]["verdict"].split(" — ")[0], st)
+                 + " — " + doc["dynamics"]["verdict"].split(" — ", 1)[-1])
     if (doc.get("sampler") or {}).get("converged") is False:
         L.append(st.warn("        warning: the chain did not reach the convergence criterion; treat intervals as rough"))
     L += ["", st.head("Planets") + st.dim("   median and 68 % interval")]
