@@ -45,7 +45,7 @@ from .orient_proposal import OrientationProposal, pareto_khat
 from .orientation import OrientationModel, orbit_normals, prior_orientations
 from .posterior import Posterior
 from .stability import stable_draws
-from .usability import KHAT_MAX, Status, assess
+from .usability import KHAT_MAX, Status, assess, required_ess
 
 __all__ = ["sample_joint", "MASS_CAP", "N_TAU", "BURN_TAU", "MAX_POOL_FACTOR"]
 
@@ -243,9 +243,12 @@ def sample_joint(system, opts) -> Posterior:
         raise InputError(f"{system.source}: no draw satisfies the joint constraints; every one of {pool} draws "
                          f"failed, most often on {_REASONS[worst]}{detail}; check the inputs")
     if total_ess < n:
+        worst = _REASONS[max(rejected, key=rejected.get)]
+        verdict = ("the posterior is unusable (README, 'Usable posteriors')" if total_ess < required_ess(n)
+                   else "intervals are rough")
         warnings.warn(f"{system.name}: importance effective sample size {total_ess:.0f} < {n} requested draws "
-                      f"after {pool} proposals (most rejected on {_REASONS[max(rejected, key=rejected.get)]}); "
-                      "intervals are rough", ConvergenceWarning, stacklevel=2)
+                      f"after {pool} proposals (most rejected on {worst}); {verdict}",
+                      ConvergenceWarning, stacklevel=2)
     draws = {k: np.concatenate([p["draws"][k] for p in pieces]) for k in pieces[0]["draws"]}
     idx = np.flatnonzero(good)
     wn = np.exp(lw[good] - lw[good].max())
