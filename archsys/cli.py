@@ -230,6 +230,12 @@ def _cmd_survey(args):
             _note(f"survey: {line}")
     for line in pop.get("_notes", []):
         _note(line)
+    if c.get("systems_unusable_posterior"):
+        _note(f"survey: warning: {c['systems_unusable_posterior']} analysed systems have an unusable posterior "
+              f"(column posterior_usability_usable in systems.csv; README, 'Usable posteriors')")
+    ecc_warn = (pop.get("eccentricity_population") or {}).get("ess_warning")
+    if ecc_warn and not args.quiet:
+        _note(f"survey: warning: population eccentricities: {ecc_warn}")
     if c["rejected_analysis_error"]:
         _note(f"survey: warning: {c['rejected_analysis_error']} systems failed inside the analysis "
               f"(reason 'analysis failed: ...' in rejects.csv); please report them")
