@@ -132,10 +132,16 @@ def test_oec_sigma_against_fabrycky_and_fang_margot(oec_block):
     s = oec_block["fit"]["two_populations"]["sigma_deg"]
     # Fabrycky et al. 2014 (verified; tilt range derived): the 68 % interval overlaps 0.71-1.56 deg.
     assert s["lo"] <= FABRYCKY_TILT_DEG[1] and s["hi"] >= FABRYCKY_TILT_DEG[0]
-    # Fang & Margot 2012 (verified headline; bound derived): median below 1.55 deg.
-    assert s["median"] < FANG_MARGOT_MAX_TILT_DEG
-    # Lissauer et al. 2011 (from memory): a few degrees at most.
-    assert s["hi95"] < 5.0
+    # Fang & Margot 2012 (verified headline; bound derived): 1.55 deg lies inside the 68 % interval.
+    # (With the observed spacing -- adjacent period ratios near 2 -- outer planets rarely transit together,
+    # so counts alone constrain sigma only loosely: the interval spans more than a decade; README.)
+    assert s["lo"] < FANG_MARGOT_MAX_TILT_DEG < s["hi"]
+    # Lissauer et al. 2011 (from memory): a few degrees, inside the 95 % interval.
+    assert s["lo95"] < 3.0 < s["hi95"]
+    # the spacing the model used, and that the lower part of the posterior follows the prior
+    assert oec_block["model"]["spacing"]["kind"] == "observed_ratios"
+    assert oec_block["model"]["spacing"]["n_ratios"] > 500
+    assert oec_block["sigma_follows_prior"] is True
 
 
 def test_oec_excess_of_single_transit_systems(oec_block):

@@ -115,6 +115,13 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
     base = replace(opts, quiet=True, jobs=1)          # what every system is analysed with
     groups, orphans = group_systems(cat, cmap.system)
     selected = [g for g in groups if select(g, nodes)]
+    if nodes:                    # a bare comparison that drops systems any() would keep: one line each
+        import warnings
+        from ..model.checks import InputWarning
+        from .where import any_note, kept_by_any
+        chosen = {id(g) for g in selected}
+        for expr, n in kept_by_any([g for g in groups if id(g) not in chosen], sv.where, nodes):
+            warnings.warn(any_note(expr, n), InputWarning, stacklevel=2)
     if sv.limit is not None:
         selected = selected[:sv.limit]
     ids = {g.system for g in selected}
