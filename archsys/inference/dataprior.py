@@ -10,8 +10,7 @@ same draws the report summarises, the prior's from its quantile function.  A
 log-uniform prior (a scale parameter) is compared in ln x, where it is flat.
 r near 1: the data did not narrow the prior; r << 1: the data set the number.
 It is the interval form of the posterior contraction ``1 - Var_post/Var_prior``
-(Betancourt 2018, arXiv:1803.08393; Schad, Betancourt & Vasishth 2021,
-Psychological Methods 26, 103; from memory): for Gaussian marginals the
+([Betancourt2018]; [Schad2021]; from memory): for Gaussian marginals the
 contraction is ``1 - r**2``.  Widths rather than variances keep the measure
 finite for heavy-tailed posteriors.
 

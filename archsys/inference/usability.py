@@ -7,14 +7,14 @@ A posterior is judged from its sampler record (``Posterior.sampler``) alone:
   Its intervals and probabilities rest on a handful of distinct draws; the
   reports say so in their first line, show no intervals and no verdicts, and
   ``archsys report --strict`` exits with status 3.  The threshold follows
-  Vehtari et al. 2021 (Bayesian Analysis 16, 667), who ask for an effective
-  sample size above 100 per chain before quantiles are trusted.
+  Vehtari et al. 2021 [Vehtari2021], who ask for an effective sample size
+  above 100 per chain before quantiles are trusted.
 * **rough** — usable, but a diagnostic fails: the Pareto k-hat of the final
-  importance weights is above :data:`KHAT_MAX` (0.7; Vehtari et al. 2024,
-  JMLR 25, 72: the effective sample size itself is then unreliable and
+  importance weights is above :data:`KHAT_MAX` (0.7; Vehtari et al. 2024
+  [Vehtari2024]: the effective sample size itself is then unreliable and
   estimates may be biased), an orientation chain stopped before its target
   length, or the effective sample size is below half the requested draws.
-  The reports show the intervals with a warning on their second line.
+  The reports say which in their first line and show the intervals.
 * **ok** — none of the above; ``sampler.converged`` is true only here.
 
 Status and reasons are structured (:class:`Status`, reason codes); English is
