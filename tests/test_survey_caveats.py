@@ -8,7 +8,7 @@ import pytest
 
 from archsys.model.checks import InputWarning
 from archsys.survey.catalog import group_systems, read_catalog
-from archsys.survey.columns import bind, canonical_map, where_names
+from archsys.survey.column_map import bind, canonical_map, where_names
 from archsys.survey.multiplicity_block import summary_lines
 from archsys.survey.where import kept_by_any, parse_where, select
 
