@@ -3,7 +3,8 @@
 
 Exit status: 0 success, 2 bad input, a bad argument or an output that cannot be
 written (one clear line per problem on stderr, no traceback unless --debug),
-1 internal error, 130 interrupted.
+3 ``report --strict`` with an unusable posterior (README, "Usable posteriors"; the
+reports are still written), 1 internal error, 130 interrupted.
 """
 from __future__ import annotations
 
@@ -136,7 +137,21 @@ def _cmd_report(args):
         from .output.formats import render
         text = "\n".join(render(r, fmt, preset=args.preset) for r in results)
     _write_stdout(text)
-    return 0
+    return _strict_status(results, args)
+
+
+#: Exit status of ``archsys report --strict`` when a posterior is unusable.
+EXIT_UNUSABLE = 3
+
+
+def _strict_status(results, args):
+    """0, or EXIT_UNUSABLE under --strict when any system's posterior is unusable (named on stderr)."""
+    bad = [r.document.get("system", "?") for r in results
+           if not (r.document.get("posterior_usability") or {}).get("usable", True)]
+    for name in bad:
+        _note(f"warning: the posterior of '{name}' is unusable (effective sample size below the "
+              f"threshold; README, 'Usable posteriors')")
+    return EXIT_UNUSABLE if bad and getattr(args, "strict", False) else 0
 
 
 def _write_report_files(results, args):
@@ -215,6 +230,12 @@ def _cmd_survey(args):
             _note(f"survey: {line}")
     for line in pop.get("_notes", []):
         _note(line)
+    if c.get("systems_unusable_posterior"):
+        _note(f"survey: warning: {c['systems_unusable_posterior']} analysed systems have an unusable posterior "
+              f"(column posterior_usability_usable in systems.csv; README, 'Usable posteriors')")
+    ecc_warn = (pop.get("eccentricity_population") or {}).get("ess_warning")
+    if ecc_warn and not args.quiet:
+        _note(f"survey: warning: population eccentricities: {ecc_warn}")
     if c["rejected_analysis_error"]:
         _note(f"survey: warning: {c['rejected_analysis_error']} systems failed inside the analysis "
               f"(reason 'analysis failed: ...' in rejects.csv); please report them")
@@ -269,6 +290,8 @@ def build_parser():
     r.add_argument("--preset", default="one-column", help="figure preset: one-column, two-column, slide")
     r.add_argument("--corner-params", default=None, metavar="KEYS", help=_CORNER_HELP)
     r.add_argument("--no-colour", action="store_true", help="plain text even on a terminal")
+    r.add_argument("--strict", action="store_true",
+                   help=f"exit with status {EXIT_UNUSABLE} when a posterior is unusable (reports are still written)")
     r.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(r)
     _add_prediction_options(r)

@@ -289,3 +289,82 @@ def prior_lines(doc):
     if ecc["assumed"]:
         out.append(f"Assumed, not measured: circular orbits for {_join(ecc['assumed'])}.")
     return out
+
+
+# --------------------------------------------------------------------------- what a number rests on
+# (posterior usability, imposed constraints, prior-driven verdicts, data-or-prior marks)
+
+_STATUS_REASONS = {
+    "khat": "the Pareto k̂ of the final importance weights is {khat} > 0.7, so the effective sample size is "
+            "unreliable and intervals may be biased (Vehtari et al. 2024)",
+    "chain_not_converged": "an MCMC chain stopped before its target length in autocorrelation times",
+    "ess_below_half": "the effective sample size {ess} is below half of the {n} draws",
+    "low_ess": "the effective sample size {ess} is below the {need} a usable posterior needs",
+}
+
+
+def _fmt_count(x):
+    try:
+        x = float(x)
+    except (TypeError, ValueError):
+        return "?"
+    return f"{x:.0f}" if x >= 10 else f"{x:.2g}"
+
+
+def status_line(doc):
+    """The line a report opens with when its posterior is not fully usable, or None.
+
+    Unusable: it says so and that no intervals or verdicts are shown.  Rough: what failed.
+    """
+    st = doc.get("posterior_usability") or {}
+    status = st.get("status")
+    if status not in ("unusable", "rough"):
+        return None
+    prov = doc.get("provenance") or {}
+    imp = (doc.get("sampler") or {}).get("importance") or {}
+    vals = {"ess": _fmt_count(st.get("effective_sample_size")), "need": _fmt_count(st.get("required_effective_sample_size")),
+            "n": prov.get("draws", "?"), "khat": st.get("pareto_khat")}
+    why = [_STATUS_REASONS[r].format(**vals) for r in st.get("reasons", []) if r in _STATUS_REASONS]
+    if status == "unusable":
+        src = f" from {imp['proposals']} proposals" if imp.get("proposals") else ""
+        return (f"UNUSABLE POSTERIOR: effective sample size {vals['ess']}{src}, below the {vals['need']} "
+                f"needed (README, 'Usable posteriors'); no intervals or verdicts are shown.")
+    return "Rough posterior: " + "; ".join(why) + "; treat intervals as rough."
+
+
+def unusable_verdict_line(doc):
+    """The single verdict line of an unusable posterior."""
+    st = doc.get("posterior_usability") or {}
+    return (f"No verdicts: the posterior rests on an effective sample size of "
+            f"{_fmt_count(st.get('effective_sample_size'))} draws, too few for any probability.")
+
+
+#: Constraint codes -> the words that name them where a result rests on them.
+CONSTRAINT_WORDS = {"require_stable": "stable by construction: --require-stable"}
+
+
+def verdict_tags(doc, v):
+    """Short bracketed tags that open a verdict sentence: imposed constraints and prior-driven inputs."""
+    tags = [CONSTRAINT_WORDS.get(c, c) for c in v.get("constraints") or []]
+    if "prior_only_eccentricity" in (v.get("caveats") or []):
+        ecc = unconstrained_planets(doc)["prior"]
+        if ecc:
+            prov = doc.get("provenance") or {}
+            pr = (prov.get("priors") or {}).get("eccentricity_without_data") or {}
+            name = pr.get("name") if isinstance(pr, dict) else None
+            tags.append(f"rests on the {'default ' if not (prov.get('options') or {}).get('ecc_prior') else ''}"
+                        f"eccentricity prior{' ' + name if name else ''} for {_join(ecc)}")
+    return tags
+
+
+def tagged(sentence, tags):
+    return (f"[{'; '.join(tags)}] " if tags else "") + sentence
+
+
+#: Data-or-prior classes (``archsys.inference.dataprior``) -> table mark and its note.
+DATA_PRIOR_MARKS = {"prior": ("†", "† set by the prior: the 68 % interval is at least 80 % as wide as the "
+                                    "prior's (posterior-to-prior width ratio; README, 'Data or prior?')."),
+                    "mixed": ("‡", "‡ partly set by the prior: the 68 % interval is 50–80 % as wide as the "
+                                    "prior's.")}
+CONSTRAINT_MARK = ("§", "§ imposed, not measured: the posterior keeps only stable draws (--require-stable).")
+WITHHELD_NOTE = "Values withheld: the posterior is unusable (see the first line); the JSON keeps its summaries."

@@ -52,7 +52,8 @@ def render_markdown(doc, figures=None) -> str:
     t = document_tables(doc)
     name = doc.get("system", "system")
     prov = doc.get("provenance") or {}
-    L = [f"# {_esc(name)} — system architecture", ""]
+    L = [f"> **{_esc(t.status)}**", ""] if t.status else []
+    L += [f"# {_esc(name)} — system architecture", ""]
     meta = [f"archsys {prov.get('package_version', '?')}", intro_line(doc)]
     if prov.get("input_file"):
         meta.append(f"input `{prov['input_file']}`")
@@ -62,9 +63,6 @@ def render_markdown(doc, figures=None) -> str:
     if (doc.get("dynamics") or {}).get("verdict"):
         L += [f"**{_esc(doc['dynamics']['verdict'].split(' — ')[0])}** — "
               f"{_esc(doc['dynamics']['verdict'].split(' — ', 1)[-1])}", ""]
-    smp = doc.get("sampler") or {}
-    if smp.get("converged") is False:
-        L += ["> **Warning.** The chain did not reach the convergence criterion; treat intervals as rough.", ""]
     if t.star:
         L += ["## Star", ""] + _kv(t.star) + [""]
     L += ["## Planets", ""] + _table(t.planets) + [""]
