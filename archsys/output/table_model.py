@@ -31,7 +31,7 @@ META_KEYS = {"schema_version", "system", "star", "planets", "pairs", "sampler", 
 _PLANET_SKIP = {"name", "not_constrained_by_data", "data_or_prior"}
 _PAIR_SKIP = {"inner", "outer"}
 MARK = "†"
-MARK_NOTE = "† not constrained by the data: the value is (nearly) the prior's."
+MARK_NOTE = "† not constrained by the data: the value is (nearly) set by the prior."
 NAME_COLUMN = Column("name", "planet", "Planet", fmt="text", table="planet")
 PAIR_COLUMN = Column("pair", "pair", "Pair", fmt="text", table="pair")
 

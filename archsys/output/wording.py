@@ -26,7 +26,7 @@ DYNAMICS_CLASS_WORDS = {
     "mixed_nbody": "inconclusive: integrated draws split between outcomes",
     "not_proven_stable": "not proven stable",
 }
-#: Why a system is outside the analytic criteria's domain (archsys.scores.dynamics.REASONS).
+#: Why a system is outside the domain of the analytic criteria (archsys.scores.dynamics.REASONS).
 DOMAIN_WORDS = {
     "near_resonance": "pairs near resonance",
     "compact_three_or_more": "three or more planets closer than 12 mutual Hill radii or period ratio 1.5",
@@ -62,7 +62,7 @@ def dynamics_sentence(doc, v):
              f"stability, Laskar & Petit 2017) hold in {ap} of draws, inside their domain.")
     elif cls == "not_proven_stable":
         why = _NOT_RUN.get(b.get("nbody_not_run") or d.get("nbody_not_run"), "no N-body integration ran")
-        s = (f"{head} — outside the analytic criteria's domain ({_join(reasons) or 'see the criteria'}) and "
+        s = (f"{head} — outside the domain of the analytic criteria ({_join(reasons) or 'see the criteria'}) and "
              f"{why}; the sufficient criteria hold in {ap} of draws, which proves nothing here, and failing "
              "them is not instability.")
     elif cls in ("regular_nbody", "chaotic_survived", "unstable_nbody", "mixed_nbody"):
