@@ -15,6 +15,7 @@ import numpy as np
 
 from ...errors import InputError
 from ...physics.constants import MEARTH_MSUN
+from ...inference.summary import angle_branch, wrap_angle
 from ..files import safe_name
 from .common import letter, mathrm
 
@@ -94,17 +95,9 @@ def _spread(x):
 
 
 def _compact_angle(deg):
-    """Angles in [0, 360) or [-180, 180), whichever gives the narrower central 99 % (then 68 %) interval."""
-    a = np.asarray(deg, dtype=float) % 360.0
-    b = (a + 180.0) % 360.0 - 180.0
-    fa, fb = a[np.isfinite(a)], b[np.isfinite(b)]
-    if fa.size < 10:
-        return a
-
-    def width(x):
-        return (round(float(np.diff(np.quantile(x, (0.005, 0.995)))[0]), 6),
-                float(np.diff(np.quantile(x, (0.158655, 0.841345)))[0]))
-    return b if width(fb) < width(fa) else a
+    """Angles on the branch of the one angle convention (:func:`archsys.inference.summary.angle_branch`),
+    the same branch as the tables and the JSON document."""
+    return wrap_angle(deg, angle_branch(deg))
 
 
 def planet_parameters(draws, document, j):
