@@ -72,6 +72,8 @@ def html_cell(cell, key="", raw=None) -> str:
         if m == p:
             return f"{v} ± {p}"
         return f'<span class="pm">{v}<span class="err"><span>+{p}</span><span>−{m}</span></span></span>'
+    if kind == "limit":
+        return f"&lt; {escape(cell[2])} <span class=\"cl\">({escape(cell[3])})</span>"
     text = escape(cell[1])
     if kind == "percent" and key in _VERDICT_KEYS and isinstance(raw, (int, float)):
         cls = "good" if raw >= 0.95 else "bad" if raw <= 0.05 else "mid"
