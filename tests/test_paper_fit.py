@@ -266,3 +266,20 @@ def test_figure_value_blocks_tables_and_json_agree(runs):
                 figure = _value_of_line(_value_line(p, x[np.isfinite(x)]))
                 assert figure == tuple(format_value(doc["mutual_inclination_sigma_deg"], "summary")[1:])
     assert checked_angles >= 3
+
+
+def test_cite_command_prints_the_same_references_as_the_bib(runs, tmp_path, capsys):
+    from archsys.cli import main
+    from archsys.output.references import render_bib
+    doc = runs["velmora"].document
+    path = tmp_path / "Velmora.json"
+    path.write_text(json.dumps(doc), encoding="utf-8")
+    assert main(["cite", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "\\citet{Gladman1993}" in out and "@article{Gladman1993," in out
+    assert main(["cite", str(path), "--bib"]) == 0
+    assert capsys.readouterr().out == render_bib(doc)
+    bad = tmp_path / "bad.json"
+    bad.write_text("{", encoding="utf-8")
+    assert main(["cite", str(bad)]) == 2
+    assert "bad.json" in capsys.readouterr().err

@@ -196,8 +196,13 @@ def _sampler_texts(doc):
         out.append(("MCMC sampling", "Foreman-Mackey et al. 2013"))
     if smp.get("importance") or smp.get("orientation_pilot"):
         out.append(("importance weights: Pareto k-hat diagnostic", "Vehtari et al. 2024"))
-    if doc.get("hierarchical") or doc.get("eccentricity_distribution") or doc.get("population"):
-        out.append(("hierarchical population fits", "Hogg, Myers & Bovy 2010; Foreman-Mackey et al. 2013"))
+    if doc.get("eccentricity_population") or doc.get("mutual_inclination_population"):
+        out.append(("hierarchical population fits (importance sampling of per-system posteriors, emcee)",
+                    "Hogg, Myers & Bovy 2010; Foreman-Mackey et al. 2013"))
+    if isinstance(doc.get("transit_multiplicity"), dict) and doc["transit_multiplicity"].get("fit"):
+        out.append(("transit-multiplicity fit (emcee)", "Foreman-Mackey et al. 2013"))
+    if doc.get("counts") and "systems_analysed" in (doc.get("counts") or {}):
+        out.append(("per-system analyses (Hill stability)", "Gladman 1993"))
     return out
 
 
