@@ -283,3 +283,49 @@ def test_cite_command_prints_the_same_references_as_the_bib(runs, tmp_path, caps
     bad.write_text("{", encoding="utf-8")
     assert main(["cite", str(bad)]) == 2
     assert "bad.json" in capsys.readouterr().err
+
+
+# --- HTML at 1280 px ------------------------------------------------------------------------------
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+_MEASURE = """<script>
+(function () {
+  var r = {page: document.documentElement.scrollWidth, view: document.documentElement.clientWidth, tables: []};
+  document.querySelectorAll('table').forEach(function (t) {
+    var box = t.parentElement;
+    r.tables.push([t.getBoundingClientRect().right, box.scrollWidth, box.clientWidth]);
+  });
+  var pre = document.createElement('pre'); pre.id = 'archsys-measure';
+  pre.textContent = JSON.stringify(r); document.body.appendChild(pre);
+})();
+</script>"""
+
+
+def _measure(html, tmp_path, tag):
+    page = tmp_path / f"{tag}.html"
+    page.write_text(html.replace("</main></body>", "</main>" + _MEASURE + "</body>"), encoding="utf-8")
+    cmd = [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--no-first-run", "--hide-scrollbars",
+           "--disable-extensions", "--host-resolver-rules=MAP * ~NOTFOUND",
+           f"--user-data-dir={tmp_path / ('profile-' + tag)}", "--window-size=1280,2000", "--dump-dom",
+           page.resolve().as_uri()]
+    r = subprocess.run(cmd, capture_output=True, text=True, timeout=180)
+    m = re.search(r'<pre id="archsys-measure">(.*?)</pre>', r.stdout, re.S)
+    assert m, r.stderr[-2000:]
+    return json.loads(m.group(1).replace("&quot;", '"'))
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="chromium not installed (.ci/run installs it)")
+def test_html_tables_need_no_horizontal_scroll_at_1280px(runs, tmp_path):
+    from archsys.output import html as html_out
+    for name, res in runs.items():
+        page = html_out.render_html(res.document, [])
+        assert "R_H,m" not in page and "σ_mut" not in page          # symbols rendered, not raw
+        got = _measure(page, tmp_path, name)
+        assert got["view"] >= 1200, got                              # the window really is 1280 px wide
+        assert got["page"] <= got["view"], (name, got)
+        for right, scroll, client in got["tables"]:
+            assert scroll <= client + 1 and right <= got["view"], (name, got)
+    # the check sees a table that scrolls: the unsplit seven-planet pairs table in a narrow window
+    wide = html_out.render_html(runs["seven"].document, []).replace(
+        "<main>", '<main style="max-width: 30rem">')
+    got = _measure(wide, tmp_path, "narrow")
+    assert any(scroll > client + 1 for _, scroll, client in got["tables"]), got

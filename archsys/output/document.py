@@ -59,8 +59,8 @@ def _planet_entry(post, j, pl):
         entry["radius_rearth"] = summarize(np.asarray(radius, dtype=float)[:, j])
     if pl.transiting is not None:
         entry["transiting"] = pl.transiting
-    node = d.get("node")
-    if node is not None and np.isfinite(node[:, j]).all():
+    node = d.get("node")      # a sky node given in the input (elsewhere it is a model convention, not data)
+    if node is not None and "ascending_node" in pl.quantities and np.isfinite(node[:, j]).all():
         entry["node_deg"] = summarize_angle(np.degrees(node[:, j]))
     loose = _not_constrained(entry, post, j)
     if loose:
