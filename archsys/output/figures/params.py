@@ -72,6 +72,11 @@ class CornerParam:
         return CornerParam(**d)
 
 
+#: The tables' marks of estimates (output.tables.MARKS) as mathtext superscripts of corner labels.
+ESTIMATE_MARKS = {"prior_dominated": "^{\\dagger}", "mass_radius_relation": "^{\\ddagger}",
+                  "prior_inclination": "^{\\S}"}
+
+
 def _col(draws, key, j=None):
     a = draws.get(key) if draws is not None else None
     if a is None:
@@ -110,19 +115,25 @@ def planet_parameters(draws, document, j):
     lt = letter(pl["name"], document.get("system"))
     x, k = mathrm(lt), safe_name(lt)
     out = []
+    est = {key: ESTIMATE_MARKS.get(code, "") for key, code in (pl.get("estimated") or {}).items()}
+    for key in pl.get("not_constrained_by_data") or []:
+        est.setdefault(key, ESTIMATE_MARKS["prior_dominated"])
     e = _col(draws, "ecc", j)
     if "ecc" in pl and e is not None:
-        out.append(CornerParam(f"e_{j}", f"e_{{{x}}}", "", e, key=f"e_{k}", lower=0.0, upper=1.0, group="orbit"))
+        out.append(CornerParam(f"e_{j}", f"e_{{{x}}}{est.get('ecc', '')}", "", e, key=f"e_{k}", lower=0.0,
+                               upper=1.0, group="orbit"))
     w = _col(draws, "omega", j)
     if "omega_deg" in pl and w is not None:
         v = _compact_angle(np.degrees(w))
         lo = -180.0 if np.nanmin(v) < 0 else 0.0
-        out.append(CornerParam(f"omega_{j}", f"\\omega_{{{x}}}", "^\\circ", v, key=f"omega_{k}", lower=lo,
+        out.append(CornerParam(f"omega_{j}", f"\\omega_{{{x}}}{est.get('omega_deg', '')}", "^\\circ", v,
+                               key=f"omega_{k}", lower=lo,
                                upper=lo + 360.0, circular=True, group="orbit"))
     inc = _col(draws, "inc", j)
     if "inclination_deg" in pl and inc is not None:
         v = np.degrees(inc)
-        out.append(CornerParam(f"inc_{j}", f"i_{{{x}}}", "^\\circ", v, log=_spread(v) > LOG_SPREAD, key=f"i_{k}",
+        out.append(CornerParam(f"inc_{j}", f"i_{{{x}}}{est.get('inclination_deg', '')}", "^\\circ", v,
+                               log=_spread(v) > LOG_SPREAD, key=f"i_{k}",
                                lower=0.0, upper=180.0, group="orientation"))
     psi = _col(draws, "psi", j)
     if psi is not None and np.isfinite(psi).any():
@@ -132,7 +143,8 @@ def planet_parameters(draws, document, j):
     m, ms = _col(draws, "mass", j), _col(draws, "msini", j)
     if "mass_mearth" in pl and m is not None:
         v = m / MEARTH_MSUN
-        out.append(CornerParam(f"mass_{j}", f"m_{{{x}}}", "M_\\oplus", v, log=_spread(v) > LOG_SPREAD,
+        out.append(CornerParam(f"mass_{j}", f"m_{{{x}}}{est.get('mass_mearth', '')}", "M_\\oplus", v,
+                               log=_spread(v) > LOG_SPREAD,
                                key=f"m_{k}", lower=0.0, group="mass"))
     elif "msini_mearth" in pl and ms is not None:
         v = ms / MEARTH_MSUN
