@@ -63,6 +63,9 @@ def _check_numbers(node, path=""):
         for k, v in node.items():
             if path == "" and k in ("provenance", "sampler", "schema_version"):
                 continue
+            if isinstance(v, float) and path.endswith("_limit") and k in ("upper", "lower"):
+                assert math.isfinite(v), f"{path}/{k}"       # a limit is one number (README, ecc_limit)
+                continue
             if isinstance(v, float):
                 assert "probability" in k, f"{path}/{k} is a bare float, not a summary"
                 assert math.isfinite(v) and 0.0 <= v <= 1.0, f"{path}/{k}"

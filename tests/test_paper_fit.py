@@ -139,7 +139,7 @@ def test_limits_shown_as_limits_and_unconstrained_omega_not_shown(runs):
     from archsys.output.tables import document_tables
     doc = runs["ondrel"].document                 # Ondrel b: e < 0.12 (95 %) in the input, no omega data
     b = doc["planets"][0]
-    assert b["ecc_limit"]["cl"] == 0.95 and 0 < b["ecc_limit"]["upper"] < 0.2
+    assert b["ecc_limit"]["probability"] == 0.95 and 0 < b["ecc_limit"]["upper"] < 0.2
     assert b["estimated"]["omega_deg"] == "prior_dominated"
     t = document_tables(doc)
     cols = [c.key for c in t.planets.columns]

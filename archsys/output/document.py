@@ -79,7 +79,7 @@ LIMIT_CL = 0.95
 
 
 def _ecc_limit(pl, entry, post, j, loose):
-    """``{"upper", "cl"}``: the posterior's 95th percentile of e, where the input gave only an upper
+    """``{"upper", "probability"}``: the posterior's 95th percentile of e, where the input gave only an upper
     limit on e or the data do not constrain it (then a median would suggest a measurement)."""
     if "ecc" not in entry:
         return None
@@ -90,7 +90,7 @@ def _ecc_limit(pl, entry, post, j, loose):
     e = e[np.isfinite(e)]
     if e.size == 0:
         return None
-    return {"upper": float(np.quantile(e, LIMIT_CL)), "cl": LIMIT_CL}
+    return {"upper": float(np.quantile(e, LIMIT_CL)), "probability": LIMIT_CL}
 
 
 #: Codes of ``estimated``: why a planet's value is an estimate rather than a measurement.

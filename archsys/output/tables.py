@@ -145,10 +145,10 @@ def basis_notes(doc):
 
 
 def limit_cell(limit):
-    """The cell of an upper limit ``{"upper", "cl"}``: ``("limit", "<", "0.060", "95 %")``."""
+    """The cell of an upper limit ``{"upper", "probability"}``: ``("limit", "<", "0.060", "95 %")``."""
     from .numbers import decimals_for, _fmt
     v = float(limit["upper"])
-    return ("limit", "<", _fmt(v, decimals_for(v, LIMIT_SIG)), fmt_percent(limit.get("cl", 0.95)))
+    return ("limit", "<", _fmt(v, decimals_for(v, LIMIT_SIG)), fmt_percent(limit.get("probability", 0.95)))
 
 
 def estimate_marks(entry):
