@@ -250,7 +250,14 @@ def test_figure_value_blocks_tables_and_json_agree(runs):
                 if key is None or pl.get(key) is None:
                     continue
                 x = np.asarray(p.values, dtype=float)
-                figure = _value_of_line(_value_line(p, x[np.isfinite(x)]))
+                line = _value_line(p, x[np.isfinite(x)])
+                if key == "ecc" and pl.get("ecc_limit"):        # a limit in the figure as in the table
+                    from archsys.output.tables import limit_cell
+                    cell = limit_cell(pl["ecc_limit"])
+                    assert line.endswith(f"< {cell[2]}$ ({cell[3]})"), (name, line, cell)
+                    assert t.planets.rows[j][keys.index("ecc")] == cell
+                    continue
+                figure = _value_of_line(line)
                 cell = format_value(pl[key], "summary")          # the JSON summary, rounded
                 assert cell[0] == "pm" and figure == tuple(cell[1:]), (name, p.key, figure, cell)
                 shown = t.planets.rows[j][keys.index(key)] if key in keys else None

@@ -37,6 +37,7 @@ class CornerParam:
     upper: float = None
     circular: bool = False  # an angle defined modulo 360 deg
     group: str = "other"    # orbit / orientation / mass: how large sets are split
+    limit: dict = None      # {"upper", "probability"}: shown as a limit, as in the tables (ecc_limit)
 
     def __post_init__(self):
         if not self.key:
@@ -121,7 +122,7 @@ def planet_parameters(draws, document, j):
     e = _col(draws, "ecc", j)
     if "ecc" in pl and e is not None:
         out.append(CornerParam(f"e_{j}", f"e_{{{x}}}{est.get('ecc', '')}", "", e, key=f"e_{k}", lower=0.0,
-                               upper=1.0, group="orbit"))
+                               upper=1.0, group="orbit", limit=pl.get("ecc_limit")))
     w = _col(draws, "omega", j)
     if "omega_deg" in pl and w is not None:
         v = _compact_angle(np.degrees(w))
