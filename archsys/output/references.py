@@ -1,8 +1,9 @@
 r"""What to cite: the papers whose methods, constants or priors produced a run's numbers.
 
-The library is the project's BibTeX file ``archsys/data/references.bib``; each
-entry lists, in its ``archsys`` field, the short citation forms archsys writes in
-its outputs ("Gladman 1993", "Laskar & Petit 2017").  :func:`run_references`
+The library is the project's BibTeX file ``archsys/data/references.bib``.  The
+short citation forms archsys writes in its outputs ("Gladman 1993", "Laskar &
+Petit 2017", "Petit, Laskar & Boue 2017", "Van Eylen et al. 2019") are derived
+from each entry's authors and year; an optional ``archsys`` field adds others.  :func:`run_references`
 reads a report document (or a survey's ``population.json``) and returns the
 entries its numbers rest on, each with the reason; :func:`render_bib` writes
 ``NAME.bib``; :func:`cite_latex` turns citation texts inside LaTeX into
@@ -81,6 +82,38 @@ def _fields(body):
 _LIBRARY = None
 
 
+def _plain(text):
+    """A BibTeX name without LaTeX accents and braces: 'Pr{\\v{s}}a' -> 'Prsa', 'Bou{\\'e}' -> 'Boue'."""
+    t = re.sub(r"\\[a-zA-Z]+\s*|\\.", "", str(text))
+    return t.replace("{", "").replace("}", "").strip()
+
+
+def _author_forms(fields):
+    """Short citation forms of an entry from its authors and year: 'A Y', 'A & B Y', 'A, B & C Y',
+    'A et al. Y'."""
+    year = fields.get("year", "").strip()
+    authors = [a.strip() for a in re.split(r"\s+and\s+", fields.get("author", "")) if a.strip()]
+    names = []
+    for a in authors:
+        if a.lower() == "others":
+            names.append(None)
+            continue
+        sur = a.split(",")[0] if "," in a else a.split()[-1]
+        names.append(_plain(sur))
+    if not year or not names or names[0] is None:
+        return []
+    first = names[0]
+    forms = [f"{first} et al. {year}"]
+    real = [n for n in names if n]
+    if len(names) == 1:
+        forms.insert(0, f"{first} {year}")
+    elif len(names) == 2 and None not in names:
+        forms.insert(0, f"{names[0]} & {names[1]} {year}")
+    elif None not in names:
+        forms.insert(0, f"{', '.join(real[:-1])} & {real[-1]} {year}")
+    return forms
+
+
 def library(path=None):
     """{key: Entry} of the project's BibTeX library (read once)."""
     global _LIBRARY
@@ -90,7 +123,7 @@ def library(path=None):
     lib = {}
     for kind, key, body in _split_entries(text):
         f = _fields(body)
-        forms = [s.strip() for s in f.get("archsys", "").split(";") if s.strip()]
+        forms = _author_forms(f) + [s.strip() for s in f.get("archsys", "").split(";") if s.strip()]
         clean = re.sub(r"\n\s*archsys\s*=\s*\{[^{}]*\},?", "", body)
         lib[key] = Entry(key, kind, f, clean, forms)
     if path is None:
@@ -117,8 +150,8 @@ def _spans(text):
         # walk back over the author list: words, commas, '&', 'and', 'et al.', initials
         k = start
         seg = text[:start]
-        mm = re.search(r"((?:[A-Z][\w'\-\u00c0-\u017f]*\.?,?\s*(?:&\s*|and\s+)?|(?:et al\.?)\s*|"
-                       r"(?:[A-Z]\.\s*(?:[A-Z]\.\s*)*,?\s*))+)$", seg)
+        mm = re.search(r"((?:[A-Z]\.(?:-[A-Z]\.)?,?\s*(?:&\s*|and\s+)?|"
+                       r"[A-Z][\w'\-\u00c0-\u017f]*\.?,?\s*(?:&\s*|and\s+)?|(?:et al\.?)\s*)+)$", seg)
         if mm:
             k = mm.start(1)
         if k < start:
@@ -149,8 +182,8 @@ def _match(cite, idx):
             return key
     # 'Kipping, D. M. 2013' or 'Fabrycky, D. C. et al. 2014': drop initials, compare surname + year
     year = cite.strip()[-4:]
-    sur = re.match(r"\s*([A-Z][\w'\-\u00c0-\u017f]*(?:\s+[A-Z][\w'\-]*)?)", cite)
-    if sur:
+    sur = re.match(r"\s*([A-Z][\w'\-\u00c0-\u017f]+(?:\s+[A-Z][\w'\-]+)?)", cite)
+    if sur and len(_norm(sur.group(1))) >= 2:
         for key, e in library().items():
             if e.fields.get("year", "") == year and _norm(e.forms[0] if e.forms else "").startswith(
                     _norm(sur.group(1))):
