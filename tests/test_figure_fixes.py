@@ -32,7 +32,7 @@ def _texts(fig):
 def test_timing_figure_of_second_order_pairs_only(ondrel):
     # Ondrel b-c is near 3:1 (second order): a super-period but no amplitude. The figure is a strip on
     # the period axis, with a legend and several tick labels, never an empty amplitude axis.
-    from archsys.output.figure_timing import timing_figure
+    from archsys.output.figures.timing import timing_figure
     from archsys.output.figures.common import layout_problems
     fig = timing_figure(ondrel.document, preset="one-column")
     assert fig is not None and len(fig.axes) == 1
@@ -45,7 +45,7 @@ def test_timing_figure_of_second_order_pairs_only(ondrel):
 
 
 def test_timing_figure_names_every_pair_and_its_markers():
-    from archsys.output.figure_timing import timing_figure
+    from archsys.output.figures.timing import timing_figure
     s = lambda m: {"median": m, "lo": 0.8 * m, "hi": 1.2 * m}          # noqa: E731
     pairs = [{"inner": "X b", "outer": "X c", "super_period_days": s(400.0), "super_period_resonance": "3:2",
               "ttv_amplitude_inner_min": s(5.0), "ttv_amplitude_outer_min": s(6.0)},
@@ -62,7 +62,7 @@ def test_timing_figure_names_every_pair_and_its_markers():
 
 
 def test_transit_odds_figure_marks_known_transiting_planets_and_keeps_the_band(ondrel):
-    from archsys.output.figure_transit_odds import transit_odds_figure
+    from archsys.output.figures.transit_odds import transit_odds_figure
     doc = ondrel.document
     fig = transit_odds_figure(doc, preset="one-column")
     ax = fig.axes[0]

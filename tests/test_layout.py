@@ -238,7 +238,7 @@ def _transit_block():
 
 @pytest.mark.parametrize("preset", PRESET_NAMES)
 def test_survey_figures_stay_on_the_canvas(preset):
-    from archsys.survey.multiplicity_figure import plot_transit_multiplicity
+    from archsys.output.figures.multiplicity import plot_transit_multiplicity
     pairs, planets, systems, mult, ecc_pop = _survey_rows()
     figs = {"period_ratios": S.plot_period_ratios(pairs, preset=preset),
             "hill": S.plot_hill_separations(pairs, preset=preset),

@@ -94,7 +94,7 @@ def overflow_pt(log, pdf):
 
 @needs_tex
 def test_every_table_fits_a_two_column_page(runs, tmp_path):
-    from archsys.output import latex
+    from archsys.output.formats import latex
     assert MUTOOL or not shutil.which("apt-get"), "mutool (mupdf-tools) needed to place deluxetable glyphs"
     for name, res in runs.items():
         doc = res.document
@@ -112,7 +112,7 @@ def test_every_table_fits_a_two_column_page(runs, tmp_path):
 @needs_tex
 @pytest.mark.skipif(MUTOOL is None, reason="mutool (mupdf-tools) not installed")
 def test_the_fit_check_catches_an_unsplit_table(runs, tmp_path, monkeypatch):
-    from archsys.output import latex
+    from archsys.output.formats import latex
     monkeypatch.setattr(latex, "TEXTWIDTH_BUDGET", 1e9)          # never split: the old, too-wide tables
     doc = runs["seven"].document
     for kind, body in (("tex", latex.render_latex(doc)), ("aas", latex.render_aastex(doc))):
@@ -122,7 +122,7 @@ def test_the_fit_check_catches_an_unsplit_table(runs, tmp_path, monkeypatch):
 
 
 def test_wide_tables_are_split_into_parts(runs):
-    from archsys.output import latex
+    from archsys.output.formats import latex
     doc = runs["velmora"].document
     aas = latex.render_aastex(doc)
     labels = re.findall(r"\\label\{(tab:[^}]*)\}", aas)
@@ -135,8 +135,8 @@ def test_wide_tables_are_split_into_parts(runs):
 
 
 def test_limits_shown_as_limits_and_unconstrained_omega_not_shown(runs):
-    from archsys.output import latex
-    from archsys.output.tables import document_tables
+    from archsys.output.formats import latex
+    from archsys.output.table_model import document_tables
     doc = runs["ondrel"].document                 # Ondrel b: e < 0.12 (95 %) in the input, no omega data
     b = doc["planets"][0]
     assert b["ecc_limit"]["probability"] == 0.95 and 0 < b["ecc_limit"]["upper"] < 0.2
@@ -157,7 +157,7 @@ def test_estimates_are_flagged_structurally(runs):
     est = {p["name"][-1]: p.get("estimated", {}) for p in doc["planets"]}
     assert est["e"]["mass_mearth"] == "mass_radius_relation" and est["g"]["mass_mearth"] == "mass_radius_relation"
     assert "mass_mearth" not in est["b"]
-    from archsys.output.latex import render_latex
+    from archsys.output.formats.latex import render_latex
     tex = render_latex(doc)
     assert "$^\\ddagger$" in tex
 
@@ -172,7 +172,7 @@ def _cite_keys(tex):
 
 def test_bib_parses_and_every_cited_key_resolves(runs):
     pybtex = pytest.importorskip("pybtex.database", reason="pybtex is in the test extra")
-    from archsys.output import latex
+    from archsys.output.formats import latex
     from archsys.output.references import render_bib
     for name, res in runs.items():
         doc = res.document
@@ -206,7 +206,7 @@ def test_library_entries_are_all_reachable_and_unique():
 @needs_tex
 @pytest.mark.skipif(BIBTEX is None, reason="bibtex not installed")
 def test_latex_with_bibliography_compiles(runs, tmp_path):
-    from archsys.output import latex
+    from archsys.output.formats import latex
     from archsys.output.references import render_bib
     doc = runs["velmora"].document
     where = tmp_path / "bib"
@@ -234,7 +234,7 @@ def test_figure_value_blocks_tables_and_json_agree(runs):
     from archsys.output.figures.corner import _value_line
     from archsys.output.figures.params import planet_parameters, system_parameters
     from archsys.output.numbers import format_value
-    from archsys.output.tables import document_tables
+    from archsys.output.table_model import document_tables
     checked_angles = 0
     for name in ("velmora", "ondrel", "korrin"):
         res = runs[name]
@@ -252,7 +252,7 @@ def test_figure_value_blocks_tables_and_json_agree(runs):
                 x = np.asarray(p.values, dtype=float)
                 line = _value_line(p, x[np.isfinite(x)])
                 if key == "ecc" and pl.get("ecc_limit"):        # a limit in the figure as in the table
-                    from archsys.output.tables import limit_cell
+                    from archsys.output.table_model import limit_cell
                     cell = limit_cell(pl["ecc_limit"])
                     assert line.endswith(f"< {cell[2]}$ ({cell[3]})"), (name, line, cell)
                     assert t.planets.rows[j][keys.index("ecc")] == cell
@@ -322,7 +322,7 @@ def _measure(html, tmp_path, tag):
 
 @pytest.mark.skipif(CHROMIUM is None, reason="chromium not installed (.ci/run installs it)")
 def test_html_tables_need_no_horizontal_scroll_at_1280px(runs, tmp_path):
-    from archsys.output import html as html_out
+    from archsys.output.formats import html as html_out
     from archsys.output.figures import make_figures
     for name, res in runs.items():
         figs = make_figures(None, res.document) if name == "velmora" else []   # figures as in the report

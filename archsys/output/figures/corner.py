@@ -82,7 +82,7 @@ def split_parameters(params, max_params):
 
 def _value_line(q, x):
     if q.limit:                          # an upper limit, worded and rounded as in the tables
-        from ..tables import limit_cell
+        from ..table_model import limit_cell
         _, _, v, cl = limit_cell(q.limit)
         return f"${q.symbol} < {v}$ ({cl})"
     lo, med, hi = np.quantile(x, QUANTILES)

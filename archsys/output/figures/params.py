@@ -73,7 +73,7 @@ class CornerParam:
         return CornerParam(**d)
 
 
-#: The tables' marks of estimates (output.tables.MARKS) as mathtext superscripts of corner labels.
+#: The tables' marks of estimates (output.table_model.MARKS) as mathtext superscripts of corner labels.
 ESTIMATE_MARKS = {"prior_dominated": "^{\\dagger}", "mass_radius_relation": "^{\\ddagger}",
                   "prior_inclination": "^{\\S}"}
 

@@ -13,8 +13,8 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
 
-from .figures.common import letter
-from .style import GREY, PALETTE, get_preset, rc_params
+from ..style import GREY, PALETTE, get_preset, rc_params
+from .common import letter
 
 __all__ = ["transit_odds_figure", "CAPTION"]
 

@@ -16,7 +16,7 @@ from matplotlib.figure import Figure
 from matplotlib.transforms import Bbox
 from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
 
-from .style import PALETTE, get_preset, rc_params
+from ..style import PALETTE, get_preset, rc_params
 
 __all__ = ["timing_figure", "CAPTION"]
 

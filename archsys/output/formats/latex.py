@@ -5,10 +5,10 @@ two agree after rounding), rounded to two significant figures of the larger
 error with :func:`archsys.output.numbers.round_uncertain` (common practice);
 upper limits are written as limits (``$<0.060$ (95\,\%)``); units sit in a
 second header row.  Labels and units come from the table model
-(:mod:`archsys.output.tables`).
+(:mod:`archsys.output.table_model`).
 
 Every table fits an AAS two-column page at ``\textwidth``: a table wider than
-that is split (:func:`archsys.output.tables.split_table`) into parts — planets'
+that is split (:func:`archsys.output.table_model.split_table`) into parts — planets'
 orbits, masses and radii; pairs' dynamics and predictions — each a table of its
 own.  Long text (assumptions, bases, caveats) goes below the table (plain
 ``.tex``) or into ``\tablecomments`` (AAS), never into a cell.  Citation texts
@@ -24,10 +24,10 @@ from __future__ import annotations
 
 import re
 
-from .files import safe_name
-from .references import LATEX_FALLBACK, cite_latex
-from .tables import document_tables, intro_line, split_table
-from .tex import escape
+from ..files import safe_name
+from ..latex_escape import escape
+from ..references import LATEX_FALLBACK, cite_latex
+from ..table_model import document_tables, intro_line, split_table
 
 __all__ = ["render_latex", "render_aastex", "render_verdicts_tex", "latex_cell", "escape", "standalone",
            "TEXTWIDTH_BUDGET", "column_width"]

@@ -9,8 +9,8 @@ import base64
 import re
 from html import escape
 
-from .tables import document_tables, intro_line, provenance_items, sampler_items, split_table
-from .style import PALETTE
+from ..style import PALETTE
+from ..table_model import document_tables, intro_line, provenance_items, sampler_items, split_table
 
 __all__ = ["render_html", "html_cell"]
 
