@@ -263,7 +263,8 @@ def render_bib(doc) -> str:
     entries, unmatched = run_references(doc)
     name = doc.get("system") or "survey"
     L = [f"% References of the archsys run on {name}: the papers whose methods, constants or priors",
-         "% produced its numbers. Each entry's archsys_status says whether it was verified against the paper or is from memory.", ""]
+         "% produced its numbers. Each entry's archsys_status says whether it was verified against the",
+         "% paper or is from memory.", ""]
     for e, why in entries:
         L += [f"% used for: {'; '.join(why)}", e.text.strip(), ""]
     for reason, text in unmatched:
