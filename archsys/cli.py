@@ -216,7 +216,8 @@ def _cmd_survey(args):
     from .survey.run import run_survey
     opts = options_from_args(args)
     sopts = SurveyOptions(columns=args.columns, where=tuple(args.where or ()), resume=args.resume,
-                          scheduler=args.scheduler, limit=args.limit, figures=not args.no_figures)
+                          scheduler=args.scheduler, limit=args.limit, figures=not args.no_figures,
+                          preset=args.preset)
     _warn_unused(opts)
     from .survey.multiplicity_block import MultiplicitySettings, summary_lines
     transit = MultiplicitySettings.from_cli(args.transit_planets, args.transit_period, args.transit_radius,
@@ -240,6 +241,54 @@ def _cmd_survey(args):
         _note(f"survey: warning: {c['rejected_analysis_error']} systems failed inside the analysis "
               f"(reason 'analysis failed: ...' in rejects.csv); please report them")
     _note(f"wrote the survey tables and population.json to {args.out}")
+    return 0
+
+
+def _cite_document(path, args):
+    """The report document (or population.json) behind one ``archsys cite`` input."""
+    import pathlib
+    from .model.inputfile import read_input_bytes
+    p = pathlib.Path(path)
+    if p.is_dir():
+        p = p / "population.json"
+        if not p.exists():
+            raise InputError(f"{path}: not a survey folder (no population.json)")
+    low = p.name.lower()
+    if low.endswith(".toml"):
+        from . import read_system
+        from .pipeline import analyze
+        opts = options_from_args(args)
+        return analyze(read_system(str(p)), opts).document
+    if low.endswith(".npz"):
+        from .output.chains import load_posterior
+        _, meta = load_posterior(str(p))
+        doc = meta.get("document") if isinstance(meta, dict) else None
+        if not isinstance(doc, dict):
+            raise InputError(f"{path}: the chains file holds no report document")
+        return doc
+    if low.endswith(".json"):
+        data = read_input_bytes(str(p), "report document (.json)")
+        try:
+            doc = json.loads(data.decode("utf-8"))
+        except (UnicodeDecodeError, ValueError) as exc:
+            raise InputError(f"{path}: not a JSON document ({exc})") from None
+        if isinstance(doc, list) and doc and all(isinstance(d, dict) for d in doc):
+            return doc
+        if not isinstance(doc, dict):
+            raise InputError(f"{path}: expected a report document (a JSON object)")
+        return doc
+    raise InputError(f"{path}: expected a system file (.toml), a report document (.json), saved chains "
+                     "(.npz) or a survey folder")
+
+
+def _cmd_cite(args):
+    from .output.references import render_bib, render_citations
+    docs = []
+    for path in args.inputs:
+        d = _cite_document(path, args)
+        docs += d if isinstance(d, list) else [d]
+    out = [render_bib(d) if args.bib else render_citations(d) for d in docs]
+    _write_stdout("\n".join(out))
     return 0
 
 
@@ -311,6 +360,7 @@ def build_parser():
     s.add_argument("--scheduler", default=None, metavar="ADDRESS", help="Dask scheduler address")
     s.add_argument("--limit", type=int, default=None, help="analyse at most N systems (after --where)")
     s.add_argument("--no-figures", action="store_true")
+    s.add_argument("--preset", default="one-column", help="figure preset: one-column, two-column, slide")
     t = s.add_argument_group("transit multiplicity (population mutual inclinations; geometric only)")
     t.add_argument("--transit-planets", default=None, metavar="EXPR",
                    help="row expression for the planets counted as transiting (default 'transiting == true'; "
@@ -324,6 +374,14 @@ def build_parser():
     s.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(s)
     s.set_defaults(func=_cmd_survey, jobs=0, nbody="0")   # survey: one worker per core; N-body when asked
+
+    c = sub.add_parser("cite", help="what to cite for a run: the papers behind its numbers, and their BibTeX")
+    c.add_argument("inputs", nargs="+", help="system files (.toml, analysed with the options below), report "
+                   "documents (.json), saved chains (.npz) or survey folders")
+    c.add_argument("--bib", action="store_true", help="print only the BibTeX (the NAME.bib of `report --out`)")
+    c.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+    _add_analysis_options(c)
+    c.set_defaults(func=_cmd_cite)
 
     q = sub.add_parser("plot", help="redraw figures from a saved result (no resampling)")
     q.add_argument("result", help="chains file (.npz) written by `archsys report --out`")

@@ -318,6 +318,7 @@ class SurveyOptions:
     scheduler : Dask scheduler address (None = local processes)
     limit : analyse at most this many systems (after ``where``), >= 1
     figures : draw the population figures
+    preset : figure preset of the population figures (one-column, two-column, slide)
     """
 
     columns: str | None = None
@@ -326,8 +327,11 @@ class SurveyOptions:
     scheduler: str | None = None
     limit: int | None = None
     figures: bool = True
+    preset: str = "one-column"
 
     def __post_init__(self):
+        from .output.style import get_preset
+        object.__setattr__(self, "preset", get_preset(self.preset).name)   # refuses an unknown preset
         where = self.where
         if isinstance(where, str):
             where = (where,)

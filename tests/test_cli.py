@@ -65,6 +65,9 @@ def _check_numbers(node, path=""):
                 continue
             if k == "data_or_prior":        # diagnostics (README "Data or prior?"): ratios, not summaries
                 continue
+            if isinstance(v, float) and path.endswith("_limit") and k in ("upper", "lower"):
+                assert math.isfinite(v), f"{path}/{k}"       # a limit is one number (README, ecc_limit)
+                continue
             if isinstance(v, float):
                 assert "probability" in k, f"{path}/{k} is a bare float, not a summary"
                 assert math.isfinite(v) and 0.0 <= v <= 1.0, f"{path}/{k}"

@@ -61,10 +61,71 @@ def _planet_entry(post, j, pl):
         entry["radius_rearth"] = summarize(np.asarray(radius, dtype=float)[:, j])
     if pl.transiting is not None:
         entry["transiting"] = pl.transiting
+    node = d.get("node")      # a sky node given in the input (elsewhere it is a model convention, not data)
+    if node is not None and "ascending_node" in pl.quantities and np.isfinite(node[:, j]).all():
+        entry["node_deg"] = summarize_angle(np.degrees(node[:, j]))
     loose = _not_constrained(entry, post, j)
     if loose:
         entry["not_constrained_by_data"] = loose
+    limit = _ecc_limit(pl, entry, post, j, loose)
+    if limit:
+        entry["ecc_limit"] = limit
+    estimated = _estimated(pl, entry, loose)
+    if estimated:
+        entry["estimated"] = estimated
     return entry
+
+
+#: Confidence level of an eccentricity shown as an upper limit (common practice: 95 %).
+LIMIT_CL = 0.95
+
+
+def _ecc_limit(pl, entry, post, j, loose):
+    """``{"upper", "probability"}``: the posterior's 95th percentile of e, where the input gave only an upper
+    limit on e or the data do not constrain it (then a median would suggest a measurement)."""
+    if "ecc" not in entry:
+        return None
+    q = pl.quantities.get("ecc")
+    if not ((q is not None and q.kind == "upper") or "ecc" in loose):
+        return None
+    e = np.asarray(post["ecc"][:, j], dtype=float)
+    e = e[np.isfinite(e)]
+    if e.size == 0:
+        return None
+    return {"upper": float(np.quantile(e, LIMIT_CL)), "probability": LIMIT_CL}
+
+
+#: Codes of ``estimated``: why a planet's value is an estimate rather than a measurement.
+ESTIMATE_CODES = ("mass_radius_relation", "prior_inclination", "prior_dominated")
+
+
+def _estimated(pl, entry, loose):
+    """``{document key: code}`` of the planet's values that rest on a relation or a prior, not on its
+    data (decided from the input quantities, never from wording): masses from the mass-radius
+    relation, sky inclinations (and true masses through them) with no orientation data of the
+    planet's own, and values the data leave prior-dominated."""
+    q = pl.quantities
+    out = {}
+    mass_data = any(k in q for k in ("mass", "msini", "k"))
+    if not mass_data and "mass_mearth" in entry:
+        out["mass_mearth"] = "mass_radius_relation"
+    own_orientation = bool(pl.transiting) or any(k in q for k in ("b", "inclination"))
+    if not own_orientation and "inclination_deg" in entry:
+        out["inclination_deg"] = "prior_inclination"
+        if "mass_mearth" in entry and "mass" not in q and "mass_mearth" not in out:
+            out["mass_mearth"] = "prior_inclination"
+    for key in loose:
+        out.setdefault(key, "prior_dominated")
+    omega_data = any(k in q for k in ("omega", "secosw", "sesinw", "ecosw", "esinw"))
+    w = entry.get("omega_deg")
+    if w and (not omega_data or "ecc" in out or (w["hi"] - w["lo"]) >= OMEGA_LOOSE_DEG):
+        out["omega_deg"] = "prior_dominated"
+    return out
+
+
+#: An omega whose central 68.3 % interval is at least 80 % as wide as the uniform prior's
+#: (0.683 x 360 deg) is not constrained by the data (the same 80 % rule as the eccentricities).
+OMEGA_LOOSE_DEG = 0.8 * 0.6827 * 360.0
 
 
 def _not_constrained(entry, post, j):

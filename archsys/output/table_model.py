@@ -18,20 +18,32 @@ from dataclasses import dataclass, field
 
 from ..scores.registry import Column, column, score_columns
 from ..scores.planet_columns import PLANET_COLUMNS, STAR_COLUMNS
-from .numbers import fmt_plain, format_value, is_summary, short_name
 from .latex_escape import escape
+from .numbers import fmt_percent, fmt_plain, format_value, is_summary, short_name
 from .wording import CONSTRAINT_MARK, DATA_PRIOR_MARKS, WITHHELD_NOTE, prior_lines, status_line
 
 __all__ = ["Table", "Tables", "document_tables", "format_cell", "verdict_lines", "sampler_items",
-           "provenance_items", "intro_line", "basis_notes", "column_of", "META_KEYS", "MARK", "MARK_NOTE"]
+           "provenance_items", "intro_line", "basis_notes", "column_of", "META_KEYS", "MARK", "MARK_NOTE",
+           "MARKS", "MARK_NOTES", "limit_cell", "estimate_marks", "column_group", "split_table"]
 
 #: Document keys that are not quantities (rendered in their own sections).
 META_KEYS = {"schema_version", "system", "star", "planets", "pairs", "sampler", "disclaimer",
              "provenance", "verdicts", "structured_verdicts", "posterior_usability", "data_or_prior"}
-_PLANET_SKIP = {"name", "not_constrained_by_data", "data_or_prior"}
+_PLANET_SKIP = {"name", "not_constrained_by_data", "ecc_limit", "estimated", "data_or_prior"}
 _PAIR_SKIP = {"inner", "outer"}
 MARK = "†"
 MARK_NOTE = "† not constrained by the data: the value is (nearly) set by the prior."
+#: One mark per kind of estimate (the document's structured ``estimated`` codes), the same in
+#: every table of every format and in the figures' legends.
+MARKS = {"prior_dominated": "†", "mass_radius_relation": "‡", "prior_inclination": "§"}
+MARK_NOTES = {
+    "prior_dominated": MARK_NOTE + " An unconstrained ω is not shown.",
+    "mass_radius_relation": "‡ estimate from the mass–radius relation (no mass data).",
+    "prior_inclination": "§ rests on an inclination with no orientation data of the planet's own "
+                         "(prior or population model).",
+}
+#: Number of significant figures of an upper limit (common practice).
+LIMIT_SIG = 2
 NAME_COLUMN = Column("name", "planet", "Planet", fmt="text", table="planet")
 PAIR_COLUMN = Column("pair", "pair", "Pair", fmt="text", table="pair")
 
@@ -42,6 +54,15 @@ class Table:
     rows: list = field(default_factory=list)     # each row: list of cells (see format_value)
     raw: list = field(default_factory=list)      # each row: {key: document value}
     marks: dict = field(default_factory=dict)    # (row index, key) -> mark, e.g. "†"
+    title: str = ""                              # the part of a split table ("orbits", "predictions")
+
+    def part(self, columns, title=""):
+        """The same rows with only ``columns`` (the first, naming column is always kept)."""
+        keep = [self.columns[0]] + [c for c in columns if c is not self.columns[0]]
+        idx = [self.columns.index(c) for c in keep]
+        keys = {c.key for c in keep}
+        return Table(keep, [[row[i] for i in idx] for row in self.rows], list(self.raw),
+                     {k: v for k, v in self.marks.items() if k[1] in keys}, title)
 
 
 @dataclass
@@ -126,6 +147,23 @@ def basis_notes(doc):
     return notes
 
 
+def limit_cell(limit):
+    """The cell of an upper limit ``{"upper", "probability"}``: ``("limit", "<", "0.060", "95 %")``."""
+    from .numbers import decimals_for, _fmt
+    v = float(limit["upper"])
+    return ("limit", "<", _fmt(v, decimals_for(v, LIMIT_SIG)), fmt_percent(limit.get("probability", 0.95)))
+
+
+def estimate_marks(entry):
+    """{key: mark} of a planet's document entry (from its structured ``estimated`` codes)."""
+    out = {}
+    for key in entry.get("not_constrained_by_data") or []:
+        out[key] = MARKS["prior_dominated"]
+    for key, code in (entry.get("estimated") or {}).items():
+        out[key] = MARKS.get(code, MARK)
+    return out
+
+
 def _planet_table(doc):
     sysname = doc.get("system", "")
     planets = doc.get("planets", [])
@@ -137,13 +175,22 @@ def _planet_table(doc):
     cols = _columns(entries, known, "planet", _PLANET_SKIP)
     tab = Table([NAME_COLUMN] + cols)
     for i, (p, e) in enumerate(zip(planets, entries)):
-        tab.rows.append([("text", short_name(p.get("name", "?"), sysname))] + [_cell(e.get(c.key), c) for c in cols])
+        row = [("text", short_name(p.get("name", "?"), sysname))]
+        estimated = p.get("estimated") or {}
+        for c in cols:
+            if c.key == "ecc" and p.get("ecc_limit"):
+                row.append(limit_cell(p["ecc_limit"]))
+            elif c.key == "omega_deg" and estimated.get("omega_deg") == "prior_dominated":
+                row.append(("none",))           # an unconstrained omega is the prior's: not shown
+            else:
+                row.append(_cell(e.get(c.key), c))
+        tab.rows.append(row)
         tab.raw.append(e)
-        for key in p.get("not_constrained_by_data") or []:
-            tab.marks[(i, key)] = MARK
+        for key, mark in estimate_marks(p).items():
+            tab.marks[(i, key)] = mark
         for key, m in (p.get("data_or_prior") or {}).items():
             mark = DATA_PRIOR_MARKS.get((m or {}).get("source"), ("",))[0]
-            if mark:
+            if mark and (i, key) not in tab.marks:
                 tab.marks[(i, key)] = mark
     return tab
 
@@ -192,11 +239,13 @@ def document_tables(doc) -> Tables:
                 if "stable" in col.key and "probability" in col.key:
                     pair_tab.marks[(r, col.key)] = CONSTRAINT_MARK[0]
                     used.add(CONSTRAINT_MARK[0])
-    if MARK in used:
-        notes.append(MARK_NOTE)
-    notes += [note for mark, note in DATA_PRIOR_MARKS.values() if mark in used and mark != MARK]
+    notes += [MARK_NOTES[code] for code, mark in MARKS.items() if mark in used]
+    notes += [note for mark, note in DATA_PRIOR_MARKS.values() if mark in used and mark not in MARKS.values()]
     if CONSTRAINT_MARK[0] in used:
         notes.append(CONSTRAINT_MARK[1])
+    if any(p.get("ecc_limit") for p in doc.get("planets", [])):
+        notes.append("e < x (95 %): the 95th percentile of the eccentricity posterior, where the input gave "
+                     "only an upper limit or the data do not constrain e.")
     tabs = Tables(ptab, pair_tab, star, system, notes, verdict_lines(doc), prior_lines(doc),
                   status=status_line(doc), usable=(doc.get("posterior_usability") or {}).get("usable", True))
     if not tabs.usable:
@@ -220,7 +269,7 @@ def _withhold(t):
         tab.marks = {}
     t.star = [(col, ("none",) if c[0] in _NUMERIC else c) for col, c in t.star]
     t.system = [(col, ("none",) if c[0] in _NUMERIC else c) for col, c in t.system]
-    t.notes = [n for n in t.notes if not n.startswith(("†", "‡", "§"))] + [WITHHELD_NOTE]
+    t.notes = [n for n in t.notes if not n.startswith(("†", "‡", "§", "¶", "‖"))] + [WITHHELD_NOTE]
 
 
 def verdict_lines(doc):
@@ -305,3 +354,62 @@ def intro_line(doc):
     if "seed" in prov:
         text += f", seed {prov['seed']}"
     return text
+
+
+# --- splitting wide tables (LaTeX at \textwidth, HTML at 1280 px) ------------------------------
+_PLANET_GROUPS = {"mass_mearth": "masses and radii", "msini_mearth": "masses and radii",
+                  "radius_rearth": "masses and radii"}
+
+
+def column_group(col):
+    """The part of a split table a column belongs to: planet columns "orbits", "masses and radii" or
+    "predictions"; pair columns "dynamics" or "predictions" (a score's ``table_group``)."""
+    from ..scores.registry import registered_scores
+    for s in registered_scores():
+        if any(c.key == col.key and c.table == col.table for c in s.columns):
+            group = getattr(s, "table_group", "dynamics")
+            if col.table == "planet" and group == "dynamics":
+                return "orbits"
+            return group
+    if col.table == "planet":
+        return _PLANET_GROUPS.get(col.key, "orbits")
+    return "dynamics"
+
+
+def split_table(table, width, budget):
+    """Parts of ``table`` whose estimated width fits ``budget``: the whole table if it fits, else one
+    part per column group (:func:`column_group`), and a group still too wide in consecutive runs of
+    columns.  ``width(col, cells)`` estimates one column's width (header and cells) in the budget's
+    units.  Every part keeps the naming first column."""
+    cols = table.columns
+    w = {id(c): width(c, [row[i] for row in table.rows]) for i, c in enumerate(cols)}
+    first = w[id(cols[0])]
+
+    def fits(cs):
+        return first + sum(w[id(c)] for c in cs) <= budget
+
+    rest = cols[1:]
+    if fits(rest):
+        return [table]
+    groups = {}
+    for c in rest:
+        groups.setdefault(column_group(c), []).append(c)
+    parts = []
+    for name, cs in groups.items():
+        run = []
+        for c in cs:
+            if run and not fits(run + [c]):
+                parts.append((name, run))
+                run = []
+            run.append(c)
+        if run:
+            parts.append((name, run))
+    counts = {}
+    for name, _ in parts:
+        counts[name] = counts.get(name, 0) + 1
+    seen, out = {}, []
+    for name, cs in parts:
+        seen[name] = seen.get(name, 0) + 1
+        title = name if counts[name] == 1 else f"{name}, {seen[name]} of {counts[name]}"
+        out.append(table.part(cs, title))
+    return out

@@ -364,7 +364,7 @@ def tagged(sentence, tags):
 #: Data-or-prior classes (``archsys.inference.dataprior``) -> table mark and its note.
 DATA_PRIOR_MARKS = {"prior": ("†", "† set by the prior: the 68 % interval is at least 80 % as wide as the "
                                     "prior's (posterior-to-prior width ratio; README, 'Data or prior?')."),
-                    "mixed": ("‡", "‡ partly set by the prior: the 68 % interval is 50–80 % as wide as the "
+                    "mixed": ("¶", "¶ partly set by the prior: the 68 % interval is 50–80 % as wide as the "
                                     "prior's.")}
-CONSTRAINT_MARK = ("§", "§ imposed, not measured: the posterior keeps only stable draws (--require-stable).")
+CONSTRAINT_MARK = ("‖", "‖ imposed, not measured: the posterior keeps only stable draws (--require-stable).")
 WITHHELD_NOTE = "Values withheld: the posterior is unusable (see the first line); the JSON keeps its summaries."

@@ -148,6 +148,7 @@ _D = dict(unit="d", unit_latex="d", unit_astropy="d")
 
 
 class RoomForPlanetsScore(Score):
+    table_group = "predictions"      # tables: the pair/planet predictions table (output.table_model)
     name = "room_for_planets"
     order = 86
     columns = (

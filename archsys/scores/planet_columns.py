@@ -26,6 +26,8 @@ PLANET_COLUMNS = (
            description="argument of periastron"),
     Column("inclination_deg", "i (sky)", r"$i_\mathrm{sky}$", "deg", "deg", table="planet", unit_astropy="deg",
            description="inclination to the sky plane"),
+    Column("node_deg", "Ω", r"$\Omega$", "deg", "deg", table="planet", unit_astropy="deg",
+           description="longitude of the ascending node on the sky"),
     Column("psi_deg", "ψ (tilt)", r"$\psi$", "deg", "deg", table="planet", unit_astropy="deg",
            description="tilt from the system reference plane"),
     Column("transiting", "transiting", "Transiting", fmt="text", table="planet", show=False),
@@ -33,6 +35,12 @@ PLANET_COLUMNS = (
     Column("ecc_basis", "eccentricity basis", "Eccentricity basis", fmt="text", table="planet", show=False),
     Column("inclination_basis", "inclination basis", "Inclination basis", fmt="text", table="planet",
            show=False),
+    Column("ecc_limit", "e upper limit", "$e$ upper limit", fmt="text", table="planet", show=False,
+           description="95th percentile of e where the input gave only an upper limit or the data do not "
+                       "constrain e (shown in the e column as a limit)"),
+    Column("estimated", "estimates", "Estimates", fmt="text", table="planet", show=False,
+           description="keys whose values are estimates: mass_radius_relation, prior_inclination, "
+                       "prior_dominated"),
 )
 
 STAR_COLUMNS = (

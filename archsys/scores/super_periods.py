@@ -95,6 +95,7 @@ _MIN = dict(unit="min", unit_latex="min", unit_astropy="min")
 
 
 class SuperPeriodScore(Score):
+    table_group = "predictions"      # tables: the pair/planet predictions table (output.table_model)
     name = "super_period"
     order = 85
     columns = (

@@ -235,7 +235,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
         write_csv(out / "rejects.csv", list(REJECT_COLS), rejects)
         if sv.figures:
             from ..output.figures.survey_set import survey_figures
-            survey_figures(pop, ok_rows, pairs, planets, out / "figures")
+            survey_figures(pop, ok_rows, pairs, planets, out / "figures", preset=sv.preset)
         atomic_write(out / "population.json", json.dumps(pop, indent=2, allow_nan=False) + "\n")
     return pop
 

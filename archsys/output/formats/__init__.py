@@ -19,6 +19,7 @@ from . import latex as latex_out
 from . import markdown as markdown_out
 from . import terminal as text_out
 from ..numbers import short_name
+from ..references import render_bib
 from ..table_model import Table, Tables, document_tables, format_cell, verdict_lines
 
 __all__ = ["Column", "Table", "Tables", "document_tables", "format_cell", "short_name",
@@ -82,7 +83,8 @@ def _dir(path, what):
 def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, corner_params=None):
     """Write every report format, chains, provenance and figures of ``result``.
 
-    Into ``out_dir``: ``<name>.json``, ``.md``, ``.html``, ``.tex``, ``.aas.tex``, ``.txt``,
+    Into ``out_dir``: ``<name>.json``, ``.md``, ``.html``, ``.tex``, ``.aas.tex``, ``.verdicts.tex``
+    (the verdicts as a paragraph), ``.bib`` (what to cite), ``.txt``,
     ``<name>.chains.npz`` and ``<name>.provenance.json``; figures (PDF and PNG)
     into ``fig_dir`` (``out_dir/figures`` when only ``out_dir`` is given).
     Everything is rendered in memory first; each file is then written
@@ -121,6 +123,8 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, co
         files[out / f"{stem}.html"] = (html_out.render_html(doc, figures), "w")
         files[out / f"{stem}.tex"] = (latex_out.render_latex(doc), "w")
         files[out / f"{stem}.aas.tex"] = (latex_out.render_aastex(doc), "w")
+        files[out / f"{stem}.verdicts.tex"] = (latex_out.render_verdicts_tex(doc), "w")
+        files[out / f"{stem}.bib"] = (render_bib(doc), "w")
         files[out / f"{stem}.txt"] = (text_out.render_text(doc), "w")
         post = getattr(result, "posterior", None)
         if post is not None:

@@ -20,6 +20,8 @@ def md_cell(cell):
     if kind == "pm":
         v, m, p = cell[1:]
         return f"{v} ± {p}" if m == p else f"{v} +{p}/−{m}"
+    if kind == "limit":
+        return _esc(f"{cell[1]} {cell[2]} ({cell[3]})")
     return _esc(cell[1])
 
 
