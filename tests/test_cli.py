@@ -61,7 +61,12 @@ def _check_numbers(node, path=""):
             assert lo <= m <= hi, path
             return
         for k, v in node.items():
-            if path == "" and k in ("provenance", "sampler", "schema_version"):
+            if path == "" and k in ("provenance", "sampler", "schema_version", "posterior_usability"):
+                continue
+            if k == "data_or_prior":        # diagnostics (README "Data or prior?"): ratios, not summaries
+                continue
+            if isinstance(v, float) and path.endswith("_limit") and k in ("upper", "lower"):
+                assert math.isfinite(v), f"{path}/{k}"       # a limit is one number (README, ecc_limit)
                 continue
             if isinstance(v, float):
                 assert "probability" in k, f"{path}/{k} is a bare float, not a summary"

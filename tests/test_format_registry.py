@@ -16,7 +16,7 @@ def korrin():
 
 
 def test_builtin_formats_in_file_order():
-    assert format_names() == ["json", "markdown", "html", "latex", "aastex", "text"]
+    assert format_names() == ["json", "markdown", "html", "latex", "aastex", "verdicts", "bib", "text"]
 
 
 def test_command_line_offers_every_registered_format_including_aastex(capsys):

@@ -196,3 +196,67 @@ def test_text_overlaps_detects_a_collision():
     fig.text(0.5, 0.5, "2.5")
     fig.text(0.52, 0.5, "5.0")
     assert len(text_overlaps(fig)) == 1
+
+
+# --- nothing leaves the canvas; slide figures fit the slide ---------------------------------------
+from archsys.output.figures.common import layout_problems, leaves_canvas  # noqa: E402
+
+
+def test_layout_check_catches_a_clipped_axis_label():
+    from matplotlib.figure import Figure
+    fig = Figure(figsize=(3.5, 2.5))
+    ax = fig.add_subplot(111)
+    ax.plot([1, 2, 3], [1, 4, 9])
+    ax.set_xlabel("period [d]")
+    fig.subplots_adjust(bottom=0.02)                 # the x-axis label below the bottom edge, on purpose
+    found = leaves_canvas(fig)
+    assert any("period [d]" in f for f in found), found
+    assert layout_problems(fig)
+    fig.subplots_adjust(bottom=0.25)                 # the same figure laid out properly passes
+    assert layout_problems(fig) == []
+    leg = ax.legend(["data"], loc="upper left", bbox_to_anchor=(1.5, 1.0))   # a legend pushed off the canvas
+    assert any("legend" in f for f in leaves_canvas(fig)), leaves_canvas(fig)
+    leg.remove()
+    tall = Figure(figsize=(10.0, 7.2))               # the slide preset promises at most 5.6 in of height
+    tall.add_subplot(111)
+    assert any("tall" in f for f in layout_problems(tall, PRESETS["slide"].page_height_in))
+
+
+@pytest.mark.parametrize("preset", PRESET_NAMES)
+def test_every_system_figure_stays_on_the_canvas_and_the_page(figure_sets, preset):
+    names = {it.name for it in figure_sets[preset]}
+    assert {"timing", "architecture"} <= names, names
+    bad = {}
+    for item in figure_sets[preset]:
+        probs = layout_problems(item.figure, PRESETS[preset].page_height_in)
+        if probs:
+            bad[item.name] = probs[:3]
+    assert not bad, bad
+
+
+def _transit_block():
+    """An invented transit_multiplicity block (observed counts and posterior-predictive ranges)."""
+    labels = ["1", "2", "3", "4", "5", "6+"]
+    counts = [1820, 370, 120, 45, 15, 4]
+
+    def pp(scale):
+        med = [c * scale for c in counts]
+        return {"median": med, "lo": [m * 0.8 for m in med], "hi": [m * 1.2 for m in med],
+                "lo95": [m * 0.6 for m in med], "hi95": [m * 1.4 for m in med]}
+    return {"observed": {"labels": labels, "counts": counts},
+            "fit": {"one_population": {"posterior_predictive": pp(0.9)},
+                    "two_populations": {"posterior_predictive": pp(1.05)}}}
+
+
+@pytest.mark.parametrize("preset", PRESET_NAMES)
+def test_survey_figures_stay_on_the_canvas(preset):
+    from archsys.output.figures.multiplicity import plot_transit_multiplicity
+    pairs, planets, systems, mult, ecc_pop = _survey_rows()
+    figs = {"period_ratios": S.plot_period_ratios(pairs, preset=preset),
+            "hill": S.plot_hill_separations(pairs, preset=preset),
+            "multiplicity": S.plot_multiplicity(mult, preset=preset),
+            "gap": S.plot_gap_complexity(systems, preset=preset),
+            "ecc": S.plot_eccentricity_population(planets, ecc_pop, preset=preset),
+            "transit_multiplicity": plot_transit_multiplicity(_transit_block(), preset=preset)}
+    for name, fig in figs.items():
+        assert layout_problems(fig, PRESETS[preset].page_height_in) == [], name

@@ -13,7 +13,7 @@ from archsys.pipeline import Analysis, AnalysisOptions, analyze
 from archsys.scores import compute_scores
 from archsys.scores.common import summarize_with_infinite
 from archsys.scores.resonance import near_first_order
-from archsys.inference.basis import Basis, Source
+from archsys.inference.basis import Basis, Origin
 
 HUMAN = ("text", "markdown", "html", "latex", "aastex")
 
@@ -125,17 +125,22 @@ def test_assumed_circular_amd_verdict_says_so(tmp_path):
     res = analyze(_system(tmp_path, RV_PAIR), AnalysisOptions(n_draws=400, mode="direct"))
     amd = [v for v in res.document["structured_verdicts"] if v["code"] == "amd_stable_system"]
     assert amd and "assumed_circular" in amd[0]["caveats"]
-    sentence = [s for s in res.document["verdicts"] if "AMD-stable in" in s][0]
+    sentence = [s for s in res.document["verdicts"] if s.startswith("AMD criterion met in")][0]
     assert "rests on the assumption" in sentence and "circular" in sentence
     for f in HUMAN:
         assert "rests on the assumption" in render(res, f, figures=[]), f
 
 
-def test_near_resonance_caveat_beside_stability_verdict():
+def test_near_resonance_takes_the_system_out_of_the_analytic_domain():
+    # Issue 18: analytic criteria are not proof for near-resonant pairs; without an integration the
+    # verdict is "not proven stable" and names the reason, and no sentence calls the system stable.
     from archsys import demo_path
-    res = analyze(read_system(demo_path("velmora")), AnalysisOptions(n_draws=300, mode="fast"))
-    hill = [s for s in res.document["verdicts"] if s.startswith("Every adjacent pair Hill stable")][0]
-    assert "analytic criteria can call a resonant chain stable" in hill
+    res = analyze(read_system(demo_path("velmora")), AnalysisOptions(n_draws=300, mode="fast", nbody=0))
+    dyn = res.document["dynamics"]
+    assert "near_resonance" in dyn["outside_domain"] and dyn["class"] == "not_proven_stable"
+    assert "pairs near resonance" in res.document["verdicts"][0]
+    hill = [s for s in res.document["verdicts"] if s.startswith("Hill criterion")][0]
+    assert "likely" not in hill and "not sufficient for three or more planets" in hill
     assert "first-order resonance:" not in " ".join(res.document["verdicts"])
 
 
@@ -157,7 +162,7 @@ def test_prior_only_eccentricity_flagged_with_its_verdicts(tmp_path):
     post = res.posterior
     rng = np.random.default_rng(1)
     post.draws["ecc"] = rng.uniform(0, 1, post.draws["ecc"].shape)     # draws from the flat prior
-    prior_only = Basis("prior only (no eccentricity data)", Source.PRIOR)     # as the joint engine notes it
+    prior_only = Basis("prior only (no eccentricity data)", Origin.PRIOR)     # as the joint engine notes it
     post.notes = {n: dict(v, ecc=prior_only) for n, v in post.notes.items()}
     out = _rebuild(res, post)
     assert all(p["not_constrained_by_data"] == ["ecc"] for p in out.document["planets"])
@@ -182,7 +187,9 @@ def test_wide_measured_eccentricity_flagged(tmp_path):
     assert "Barely constrained by the data" in render(res, "text")
     hill = [v for v in res.document["structured_verdicts"] if v["code"] == "hill_stable_all_pairs"][0]
     assert "weak_eccentricity" in hill["caveats"]
-    assert "nearly as wide as the prior's, and they drive this verdict" in res.document["verdicts"][0]
+    hill_sentence = [t for t, v in zip(res.document["verdicts"], res.document["structured_verdicts"])
+                     if v["code"] == "hill_stable_all_pairs"][0]
+    assert "nearly as wide as the prior's, and they drive this verdict" in hill_sentence
 
 
 # --- item 5: planet radii -------------------------------------------------------------------------
@@ -213,7 +220,7 @@ def test_flagged_and_infinite_latex_compiles(tmp_path):
     from archsys.output.formats.latex import standalone
     res = analyze(_system(tmp_path, RV_PAIR), AnalysisOptions(n_draws=300, mode="direct"))
     post = res.posterior
-    prior_only = Basis("prior only (no eccentricity data)", Source.PRIOR)     # as the joint engine notes it
+    prior_only = Basis("prior only (no eccentricity data)", Origin.PRIOR)     # as the joint engine notes it
     post.notes = {n: dict(v, ecc=prior_only) for n, v in post.notes.items()}
     doc = json.loads(json.dumps(_rebuild(res, post).document))
     doc["pairs"][0]["amd_beta"] = {"median": 40.0, "lo": 3.2, "hi": None, "infinite_fraction": 0.3}

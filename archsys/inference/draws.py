@@ -14,7 +14,8 @@ from ..errors import InputError
 from ..physics import kepler, transit
 from ..physics.constants import MEARTH_MSUN, REARTH_AU, RSUN_AU
 from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
-from .basis import Basis, Source
+from .basis import Basis, Origin
+from .phases import add_phases
 from .posterior import Posterior
 
 __all__ = ["direct_draws", "eccentricity_draws", "radius_draws", "mass_from_radius_draws", "DEFAULT_DRAWS",
@@ -56,16 +57,16 @@ def eccentricity_draws(planet, rng, n):
         e = r2 if a == "secosw" else np.sqrt(r2)
         e = np.minimum(e, 1 - 1e-9)
         w = np.arctan2(x[:, 1], x[:, 0])
-        return e, w, Basis(f"from {a}/{b}", Source.DATA)
+        return e, w, Basis(f"from {a}/{b}", Origin.DATA)
     if "ecc" in q:
         e = q["ecc"].sample(rng, n)
         if "omega" in q:
             w = np.radians(q["omega"].sample(rng, n))
         else:
             w = rng.uniform(-np.pi, np.pi, n)
-        return e, w, Basis("measured" if not q["ecc"].is_limit else f"{q['ecc'].kind} limit", Source.DATA)
+        return e, w, Basis("measured" if not q["ecc"].is_limit else f"{q['ecc'].kind} limit", Origin.DATA)
     w = np.radians(q["omega"].sample(rng, n)) if "omega" in q else rng.uniform(-np.pi, np.pi, n)
-    return np.zeros(n), w, Basis("assumed circular", Source.ASSUMED)
+    return np.zeros(n), w, Basis("assumed circular", Origin.ASSUMED)
 
 
 #: Rounds of redrawing rows whose periods break the planets' period order.
@@ -102,9 +103,10 @@ def direct_draws(system, n=DEFAULT_DRAWS, seed=0) -> Posterior:
         raise InputError(f"periods of planets '{names[j]}' and '{names[j + 1]}' overlap so much that "
                          f"their order is undetermined; check the period uncertainties",
                          source=system.source)
-    return Posterior(system, draws, "direct", seed=seed, notes=notes,
+    post = Posterior(system, draws, "direct", seed=seed, notes=notes,
                      sampler={"method": "direct Monte Carlo", "draws": n,
                               "why": DIRECT_WHY})
+    return add_phases(post)
 
 
 #: Upper bound of every true mass [M_sun] (about 84 M_J, the hydrogen-burning limit; common practice):
@@ -188,7 +190,7 @@ def _draw_rows(system, rng, n):
         # inclination to the sky
         if "inclination" in q:
             inc[:, j] = np.radians(q["inclination"].sample(rng, n))
-            note["inc"] = Basis("measured", Source.DATA)
+            note["inc"] = Basis("measured", Origin.DATA)
         elif "b" in q or pl.transiting:
             if st.radius is not None:
                 aor = transit.a_over_rstar(a[:, j], r_star)
@@ -199,11 +201,11 @@ def _draw_rows(system, rng, n):
             if aor is not None:
                 if "b" in q:
                     b = q["b"].sample(rng, n)
-                    note["inc"] = Basis("from impact parameter", Source.DATA)
+                    note["inc"] = Basis("from impact parameter", Origin.DATA)
                 else:
                     ror = q["ror"].sample(rng, n) if "ror" in q else 0.0
                     b = rng.uniform(0.0, 1.0 + ror, n)
-                    note["inc"] = Basis("transiting (b uniform on [0, 1 + Rp/R*])", Source.DATA)
+                    note["inc"] = Basis("transiting (b uniform on [0, 1 + Rp/R*])", Origin.DATA)
                 inc[:, j] = transit.inclination_from_b(b, aor, e[:, j], w[:, j])
         if "ascending_node" in q:
             node[:, j] = np.radians(q["ascending_node"].sample(rng, n))

@@ -70,7 +70,7 @@ def choose_path(system, opts) -> PathChoice:
     reasons = []
     if str(getattr(opts.mode, "value", opts.mode)) == "mcmc":
         reasons.append(PathReason.REQUESTED)
-    if opts.require_stable:
+    if opts.analytic_stability_prior:
         reasons.append(PathReason.STABILITY_PRIOR)
     if opts.ecc_prior not in (None, "ecc-uniform"):
         reasons.append(PathReason.ECC_PRIOR)

@@ -5,7 +5,7 @@ import math
 
 import numpy as np
 
-__all__ = ["summarize", "summarize_angle", "QUANTILES", "probability"]
+__all__ = ["summarize", "summarize_angle", "angle_branch", "wrap_angle", "ANGLE_BRANCHES", "QUANTILES", "probability"]
 
 #: Central 68.27 % interval, i.e. +/- 1 sigma for a Gaussian.
 QUANTILES = (0.158655, 0.5, 0.841345)
@@ -41,13 +41,37 @@ def probability(flags):
     return float(f.mean()) if f.size else None
 
 
-def summarize_angle(deg):
-    """Summary of an angle in degrees, wrapped to [0, 360) or [-180, 180), whichever gives the
-    narrower 68 % interval (so that an angle near 0 is not split across the wrap)."""
+#: The one angle convention of every output (tables, JSON, figures): an angle is shown on the
+#: branch [0, 360) or [-180, 180) whose central 68.3 % interval of the draws is narrower (so an
+#: angle near 0 is not split across the wrap); a tie keeps [0, 360).
+ANGLE_BRANCHES = ((0.0, "[0, 360)"), (-180.0, "[-180, 180)"))
+
+
+def wrap_angle(deg, lower):
+    """Angles in degrees wrapped to [lower, lower + 360)."""
+    return np.mod(np.asarray(deg, dtype=float) - lower, 360.0) + lower
+
+
+def angle_branch(deg):
+    """The lower end (0 or -180) of the branch of the angle draws ``deg`` (degrees) by the convention
+    of :data:`ANGLE_BRANCHES`: the one with the narrower central 68.3 % interval."""
     x = np.asarray(deg, dtype=float).ravel()
-    a = np.mod(x, 360.0)
-    b = np.mod(x + 180.0, 360.0) - 180.0
-    sa, sb = summarize(a), summarize(b)
-    if sa is None or sb is None:
-        return sa
-    return sa if (sa["hi"] - sa["lo"]) <= (sb["hi"] - sb["lo"]) else sb
+    x = x[np.isfinite(x)]
+    if x.size == 0:
+        return 0.0
+    widths = []
+    for lower, _ in ANGLE_BRANCHES:
+        lo, hi = np.quantile(wrap_angle(x, lower), (QUANTILES[0], QUANTILES[2]))
+        widths.append(round(float(hi - lo), 9))
+    return ANGLE_BRANCHES[int(np.argmin(widths))][0]
+
+
+def summarize_angle(deg):
+    """Summary of an angle in degrees on the branch chosen by :func:`angle_branch`; the summary
+    states its branch as ``"branch": [lower, lower + 360]``."""
+    x = np.asarray(deg, dtype=float).ravel()
+    lower = angle_branch(x)
+    out = summarize(wrap_angle(x, lower))
+    if out is not None:
+        out["branch"] = [lower, lower + 360.0]
+    return out

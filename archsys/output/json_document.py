@@ -13,11 +13,13 @@ import platform
 import numpy as np
 
 from ..version import __version__
-from ..inference.basis import Source, source_of
+from ..inference.basis import Origin, origin_of
+from ..inference.dataprior import posterior_measures
 from ..inference.summary import summarize, summarize_angle
+from ..inference.usability import posterior_status
 from ..physics.constants import MEARTH_MSUN
 from ..scores.common import barely_constrained, flat_ecc_prior
-from .wording import verdict_sentences
+from .wording import tagged, unusable_verdict_line, verdict_sentences, verdict_tags
 
 __all__ = ["build_document", "DISCLAIMER", "SCHEMA_VERSION"]
 
@@ -47,31 +49,92 @@ def _planet_entry(post, j, pl):
         entry["msini_mearth"] = summarize(msini, 1.0 / MEARTH_MSUN)
     entry["mass_basis"] = basis or "unknown (no K, mass or radius)"
     ecc_basis = note.get("ecc", "")
-    if source_of(ecc_basis) is not Source.ASSUMED or post.method != "direct":
+    if origin_of(ecc_basis) is not Origin.ASSUMED or post.method != "direct":
         entry["ecc"] = summarize(d["ecc"][:, j])
     entry["ecc_basis"] = str(ecc_basis)
-    entry["ecc_source"] = source_of(ecc_basis).value
+    entry["ecc_origin"] = origin_of(ecc_basis).value
     if post.method != "direct" or "omega" in pl.quantities or ecc_basis.startswith("from"):
         entry["omega_deg"] = summarize_angle(np.degrees(d["omega"][:, j]))
     if np.isfinite(d["inc"][:, j]).any():
         entry["inclination_deg"] = summarize(np.degrees(d["inc"][:, j]))
         entry["inclination_basis"] = str(note.get("inc", ""))
-        entry["inclination_source"] = source_of(note.get("inc", "")).value
+        entry["inclination_origin"] = origin_of(note.get("inc", "")).value
     radius = post.get("radius")
     if radius is not None and np.isfinite(np.asarray(radius, dtype=float)[:, j]).any():
         entry["radius_rearth"] = summarize(np.asarray(radius, dtype=float)[:, j])
     if pl.transiting is not None:
         entry["transiting"] = pl.transiting
+    node = d.get("node")      # a sky node given in the input (elsewhere it is a model convention, not data)
+    if node is not None and "ascending_node" in pl.quantities and np.isfinite(node[:, j]).all():
+        entry["node_deg"] = summarize_angle(np.degrees(node[:, j]))
     loose = _not_constrained(note.get("ecc", ""), entry, post, j)
     if loose:
         entry["not_constrained_by_data"] = loose
+    limit = _ecc_limit(pl, entry, post, j, loose)
+    if limit:
+        entry["ecc_limit"] = limit
+    estimated = _estimated(pl, entry, loose)
+    if estimated:
+        entry["estimated"] = estimated
     return entry
+
+
+#: Confidence level of an eccentricity shown as an upper limit (common practice: 95 %).
+LIMIT_CL = 0.95
+
+
+def _ecc_limit(pl, entry, post, j, loose):
+    """``{"upper", "probability"}``: the posterior's 95th percentile of e, where the input gave only an upper
+    limit on e or the data do not constrain it (then a median would suggest a measurement)."""
+    if "ecc" not in entry:
+        return None
+    q = pl.quantities.get("ecc")
+    if not ((q is not None and q.kind == "upper") or "ecc" in loose):
+        return None
+    e = np.asarray(post["ecc"][:, j], dtype=float)
+    e = e[np.isfinite(e)]
+    if e.size == 0:
+        return None
+    return {"upper": float(np.quantile(e, LIMIT_CL)), "probability": LIMIT_CL}
+
+
+#: Codes of ``estimated``: why a planet's value is an estimate rather than a measurement.
+ESTIMATE_CODES = ("mass_radius_relation", "prior_inclination", "prior_dominated")
+
+
+def _estimated(pl, entry, loose):
+    """``{document key: code}`` of the planet's values that rest on a relation or a prior, not on its
+    data (decided from the input quantities, never from wording): masses from the mass-radius
+    relation, sky inclinations (and true masses through them) with no orientation data of the
+    planet's own, and values the data leave prior-dominated."""
+    q = pl.quantities
+    out = {}
+    mass_data = any(k in q for k in ("mass", "msini", "k"))
+    if not mass_data and "mass_mearth" in entry:
+        out["mass_mearth"] = "mass_radius_relation"
+    own_orientation = bool(pl.transiting) or any(k in q for k in ("b", "inclination"))
+    if not own_orientation and "inclination_deg" in entry:
+        out["inclination_deg"] = "prior_inclination"
+        if "mass_mearth" in entry and "mass" not in q and "mass_mearth" not in out:
+            out["mass_mearth"] = "prior_inclination"
+    for key in loose:
+        out.setdefault(key, "prior_dominated")
+    omega_data = any(k in q for k in ("omega", "secosw", "sesinw", "ecosw", "esinw"))
+    w = entry.get("omega_deg")
+    if w and (not omega_data or "ecc" in out or (w["hi"] - w["lo"]) >= OMEGA_LOOSE_DEG):
+        out["omega_deg"] = "prior_dominated"
+    return out
+
+
+#: An omega whose central 68.3 % interval is at least 80 % as wide as the uniform prior's
+#: (0.683 x 360 deg) is not constrained by the data (the same 80 % rule as the eccentricities).
+OMEGA_LOOSE_DEG = 0.8 * 0.6827 * 360.0
 
 
 def _not_constrained(ecc_note, entry, post, j):
     """Document keys of a planet whose values come from the prior rather than the data."""
-    source = source_of(ecc_note)
-    if source is Source.PRIOR or ("ecc" in entry and source is Source.DATA
+    source = origin_of(ecc_note)
+    if source is Origin.PRIOR or ("ecc" in entry and source is Origin.DATA
                                   and barely_constrained(post["ecc"][:, j], flat_ecc_prior(post))):
         return ["ecc"]
     return []
@@ -97,7 +160,9 @@ def _priors_that_ran(post, opts):
         out[q] = {"name": pr.name, "citation": pr.citation, "from_memory": bool(pr.from_memory),
                   "default": not name}
     if getattr(opts, "require_stable", False):
-        out["stability"] = "Hill (Gladman 1993) and AMD (Laskar & Petit 2017) stability of every adjacent pair"
+        out["stability"] = ("survival of each draw over the N-body horizon (--stable-by nbody; importance weights "
+                            "0/1 over the integrated draws)" if getattr(opts, "stable_by", "analytic") == "nbody" else
+                            "Hill (Gladman 1993) and AMD (Laskar & Petit 2017) stability of every adjacent pair")
     return out
 
 
@@ -105,12 +170,15 @@ def build_document(res) -> dict:
     """JSON-ready document of one analysis (see module docstring for the contract)."""
     post, sysm, sc = res.posterior, res.system, res.scores
     d = post.draws
+    usability = posterior_status(post.sampler, post.n_draws)
+    dp_planets, dp_system = posterior_measures(post)
     star = {"mass_msun": summarize(d["m_star"])}
     if sysm.star.radius is not None:
         star["radius_rsun"] = summarize(d["r_star"])
     if sysm.star.density is not None:
         star["density_gcc"] = summarize(d["rho_star"])
     doc = {
+        "posterior_usability": usability,
         "schema_version": SCHEMA_VERSION,
         "system": sysm.name,
         "star": star,
@@ -118,10 +186,29 @@ def build_document(res) -> dict:
                     for j, (pl, extra) in enumerate(zip(sysm.planets, sc.get("planets") or [{}] * sysm.n_planets))],
         "pairs": sc["pairs"],
     }
+    for entry in doc["planets"]:
+        if entry["name"] in dp_planets:
+            entry["data_or_prior"] = dp_planets[entry["name"]]
     doc.update({k: v for k, v in sc["system"].items()})
+    if dp_system:
+        doc["data_or_prior"] = dp_system
     structured = _finite(sc.get("verdicts", []))
-    doc["verdicts"] = verdict_sentences(doc, structured)
+    constraints = _constraints(res.options)
+    for v in structured:
+        if constraints:
+            v["constraints"] = list(constraints)
+    doc["provenance"] = {"priors": _priors_that_ran(post, res.options),
+                         "options": res.options.as_dict()}        # read by the wording (replaced below)
+    if usability["usable"]:
+        doc["verdicts"] = [tagged(s, verdict_tags(doc, v))
+                           for s, v in zip(verdict_sentences(doc, structured), structured)]
+    else:
+        doc["verdicts"] = [unusable_verdict_line(doc)]
+    del doc["provenance"]                     # (its final place is at the end)
     doc["structured_verdicts"] = structured
+    dyn = [t for v, t in zip(structured, doc["verdicts"]) if v.get("code") == "dynamical_assessment"]
+    if dyn and isinstance(doc.get("dynamics"), dict):
+        doc["dynamics"]["verdict"] = dyn[0]     # the headline of every format
     doc["sampler"] = dict(post.sampler)
     doc["disclaimer"] = DISCLAIMER
     doc["provenance"] = {
@@ -135,6 +222,11 @@ def build_document(res) -> dict:
         "versions": _versions(),
     }
     return _finite(doc)
+
+
+def _constraints(opts):
+    """Codes of the constraints imposed on the posterior (named wherever a result rests on them)."""
+    return ("require_stable",) if getattr(opts, "require_stable", False) else ()
 
 
 def _finite(obj):

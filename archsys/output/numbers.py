@@ -117,6 +117,7 @@ def format_value(value, fmt="summary", scale=1.0):
     """A format-neutral cell of ``value`` under a column's number format (``Column.fmt``).
 
     Cells: ``("none",)``, ``("text", s)``, ``("number", s)``, ``("percent", s)``,
+    ``("limit", "<", value, confidence)`` (an upper limit, built by ``tables.limit_cell``),
     ``("pm", value, minus, plus)`` (strings rounded by the larger error; equal
     ``minus`` and ``plus`` mean symmetric; ``plus == "∞"`` for an upper
     percentile at infinity) and ``("inf", share)`` for an infinite median
@@ -152,6 +153,8 @@ def plain_cell(cell, unicode=True):
         return "—"
     if kind == "inf":
         return f"∞ ({cell[1]} of draws infinite)"
+    if kind == "limit":
+        return f"{cell[1]} {cell[2]} ({cell[3]})"
     if kind == "pm":
         v, m, p = cell[1:]
         pm, mn = ("±", "−") if unicode else ("+/-", "-")

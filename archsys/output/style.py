@@ -124,9 +124,11 @@ def get_preset(preset=None) -> Preset:
 
 
 def figure_size(preset=None, aspect=0.75, height_in=None):
-    """(width, height) in inches: the preset width and ``height = aspect * width`` unless given."""
+    """(width, height) in inches: the preset width and ``height = aspect * width`` unless given, never
+    taller than the preset's page (slide) height."""
     p = get_preset(preset)
-    return (p.width_in, float(height_in) if height_in is not None else aspect * p.width_in)
+    h = float(height_in) if height_in is not None else aspect * p.width_in
+    return (p.width_in, min(h, p.page_height_in))
 
 
 def rc_params(preset=None) -> dict:

@@ -12,25 +12,38 @@ rounded numbers and percentages.
 """
 from __future__ import annotations
 
+import dataclasses
 import json
 from dataclasses import dataclass, field
 
 from ..scores.registry import Column, column, score_columns
 from ..scores.planet_columns import PLANET_COLUMNS, STAR_COLUMNS
-from .numbers import fmt_plain, format_value, is_summary, short_name
 from .latex_escape import escape
-from .wording import prior_lines
+from .numbers import fmt_percent, fmt_plain, format_value, is_summary, short_name
+from .wording import CONSTRAINT_MARK, DATA_PRIOR_MARKS, WITHHELD_NOTE, prior_lines, status_line
 
 __all__ = ["Table", "Tables", "document_tables", "format_cell", "verdict_lines", "sampler_items",
-           "provenance_items", "intro_line", "basis_notes", "column_of", "META_KEYS", "MARK", "MARK_NOTE"]
+           "provenance_items", "intro_line", "basis_notes", "column_of", "META_KEYS", "MARK", "MARK_NOTE",
+           "MARKS", "MARK_NOTES", "limit_cell", "estimate_marks", "column_group", "split_table"]
 
 #: Document keys that are not quantities (rendered in their own sections).
 META_KEYS = {"schema_version", "system", "star", "planets", "pairs", "sampler", "disclaimer",
-             "provenance", "verdicts", "structured_verdicts"}
-_PLANET_SKIP = {"name", "not_constrained_by_data"}
+             "provenance", "verdicts", "structured_verdicts", "posterior_usability", "data_or_prior"}
+_PLANET_SKIP = {"name", "not_constrained_by_data", "ecc_limit", "estimated", "data_or_prior"}
 _PAIR_SKIP = {"inner", "outer"}
 MARK = "†"
-MARK_NOTE = "† not constrained by the data: the value is (nearly) the prior's."
+MARK_NOTE = "† not constrained by the data: the value is (nearly) set by the prior."
+#: One mark per kind of estimate (the document's structured ``estimated`` codes), the same in
+#: every table of every format and in the figures' legends.
+MARKS = {"prior_dominated": "†", "mass_radius_relation": "‡", "prior_inclination": "§"}
+MARK_NOTES = {
+    "prior_dominated": MARK_NOTE + " An unconstrained ω is not shown.",
+    "mass_radius_relation": "‡ estimate from the mass–radius relation (no mass data).",
+    "prior_inclination": "§ rests on an inclination with no orientation data of the planet's own "
+                         "(prior or population model).",
+}
+#: Number of significant figures of an upper limit (common practice).
+LIMIT_SIG = 2
 NAME_COLUMN = Column("name", "planet", "Planet", fmt="text", table="planet")
 PAIR_COLUMN = Column("pair", "pair", "Pair", fmt="text", table="pair")
 
@@ -41,6 +54,15 @@ class Table:
     rows: list = field(default_factory=list)     # each row: list of cells (see format_value)
     raw: list = field(default_factory=list)      # each row: {key: document value}
     marks: dict = field(default_factory=dict)    # (row index, key) -> mark, e.g. "†"
+    title: str = ""                              # the part of a split table ("orbits", "predictions")
+
+    def part(self, columns, title=""):
+        """The same rows with only ``columns`` (the first, naming column is always kept)."""
+        keep = [self.columns[0]] + [c for c in columns if c is not self.columns[0]]
+        idx = [self.columns.index(c) for c in keep]
+        keys = {c.key for c in keep}
+        return Table(keep, [[row[i] for i in idx] for row in self.rows], list(self.raw),
+                     {k: v for k, v in self.marks.items() if k[1] in keys}, title)
 
 
 @dataclass
@@ -52,6 +74,8 @@ class Tables:
     notes: list         # plain-text notes on the basis of values
     verdicts: list = field(default_factory=list)
     priors: list = field(default_factory=list)
+    status: str | None = None      # the line a report opens with when its posterior is not usable/clean
+    usable: bool = True            # False: no intervals, no verdicts (README, "Usable posteriors")
 
 
 def column_of(key, table):
@@ -123,21 +147,51 @@ def basis_notes(doc):
     return notes
 
 
+def limit_cell(limit):
+    """The cell of an upper limit ``{"upper", "probability"}``: ``("limit", "<", "0.060", "95 %")``."""
+    from .numbers import decimals_for, _fmt
+    v = float(limit["upper"])
+    return ("limit", "<", _fmt(v, decimals_for(v, LIMIT_SIG)), fmt_percent(limit.get("probability", 0.95)))
+
+
+def estimate_marks(entry):
+    """{key: mark} of a planet's document entry (from its structured ``estimated`` codes)."""
+    out = {}
+    for key in entry.get("not_constrained_by_data") or []:
+        out[key] = MARKS["prior_dominated"]
+    for key, code in (entry.get("estimated") or {}).items():
+        out[key] = MARKS.get(code, MARK)
+    return out
+
+
 def _planet_table(doc):
     sysname = doc.get("system", "")
     planets = doc.get("planets", [])
     known = list(PLANET_COLUMNS) + score_columns("planet")
     entries = [dict(p) for p in planets]
     for e in entries:                 # a circular orbit assumed, not sampled, is shown as such
-        if e.get("ecc") is None and e.get("ecc_source") == "assumed":
+        if e.get("ecc") is None and e.get("ecc_origin") == "assumed":
             e["ecc"] = "0 (assumed)"
     cols = _columns(entries, known, "planet", _PLANET_SKIP)
     tab = Table([NAME_COLUMN] + cols)
     for i, (p, e) in enumerate(zip(planets, entries)):
-        tab.rows.append([("text", short_name(p.get("name", "?"), sysname))] + [_cell(e.get(c.key), c) for c in cols])
+        row = [("text", short_name(p.get("name", "?"), sysname))]
+        estimated = p.get("estimated") or {}
+        for c in cols:
+            if c.key == "ecc" and p.get("ecc_limit"):
+                row.append(limit_cell(p["ecc_limit"]))
+            elif c.key == "omega_deg" and estimated.get("omega_deg") == "prior_dominated":
+                row.append(("none",))           # an unconstrained omega is the prior's: not shown
+            else:
+                row.append(_cell(e.get(c.key), c))
+        tab.rows.append(row)
         tab.raw.append(e)
-        for key in p.get("not_constrained_by_data") or []:
-            tab.marks[(i, key)] = MARK
+        for key, mark in estimate_marks(p).items():
+            tab.marks[(i, key)] = mark
+        for key, m in (p.get("data_or_prior") or {}).items():
+            mark = DATA_PRIOR_MARKS.get((m or {}).get("source"), ("",))[0]
+            if mark and (i, key) not in tab.marks:
+                tab.marks[(i, key)] = mark
     return tab
 
 
@@ -167,10 +221,55 @@ def document_tables(doc) -> Tables:
     ordered = {k: rest.pop(k) for k in order if k in rest}
     ordered.update(rest)
     system = _flatten(ordered, "system", sysname)
+    pair_tab = _pair_table(doc)
     notes = basis_notes(doc)
-    if ptab.marks:
-        notes.append(MARK_NOTE)
-    return Tables(ptab, _pair_table(doc), star, system, notes, verdict_lines(doc), prior_lines(doc))
+    used = set(ptab.marks.values())
+    dp = doc.get("data_or_prior") or {}
+    imposed = _imposed(doc)
+    for i, (col, cell) in enumerate(system):         # marks on system quantities: data or prior, imposed
+        mark = DATA_PRIOR_MARKS.get((dp.get(col.key) or {}).get("source"), ("",))[0]
+        if imposed and "stable" in col.key and "probability" in col.key:
+            mark += CONSTRAINT_MARK[0]
+        if mark:
+            system[i] = (dataclasses.replace(col, label=col.label + " " + mark), cell)
+            used.update(mark)
+    if imposed and pair_tab is not None:
+        for r in range(len(pair_tab.rows)):
+            for col in pair_tab.columns:
+                if "stable" in col.key and "probability" in col.key:
+                    pair_tab.marks[(r, col.key)] = CONSTRAINT_MARK[0]
+                    used.add(CONSTRAINT_MARK[0])
+    notes += [MARK_NOTES[code] for code, mark in MARKS.items() if mark in used]
+    notes += [note for mark, note in DATA_PRIOR_MARKS.values() if mark in used and mark not in MARKS.values()]
+    if CONSTRAINT_MARK[0] in used:
+        notes.append(CONSTRAINT_MARK[1])
+    if any(p.get("ecc_limit") for p in doc.get("planets", [])):
+        notes.append("e < x (95 %): the 95th percentile of the eccentricity posterior, where the input gave "
+                     "only an upper limit or the data do not constrain e.")
+    tabs = Tables(ptab, pair_tab, star, system, notes, verdict_lines(doc), prior_lines(doc),
+                  status=status_line(doc), usable=(doc.get("posterior_usability") or {}).get("usable", True))
+    if not tabs.usable:
+        _withhold(tabs)
+    return tabs
+
+
+def _imposed(doc):
+    return bool(((doc.get("provenance") or {}).get("options") or {}).get("require_stable"))
+
+
+_NUMERIC = ("pm", "percent", "number", "inf")
+
+
+def _withhold(t):
+    """An unusable posterior: every number drawn from it becomes "—" (no interval it cannot support)."""
+    for tab in (t.planets, t.pairs):
+        if tab is None:
+            continue
+        tab.rows = [[("none",) if c[0] in _NUMERIC else c for c in row] for row in tab.rows]
+        tab.marks = {}
+    t.star = [(col, ("none",) if c[0] in _NUMERIC else c) for col, c in t.star]
+    t.system = [(col, ("none",) if c[0] in _NUMERIC else c) for col, c in t.system]
+    t.notes = [n for n in t.notes if not n.startswith(("†", "‡", "§", "¶", "‖"))] + [WITHHELD_NOTE]
 
 
 def verdict_lines(doc):
@@ -239,8 +338,15 @@ def intro_line(doc):
     """'4000 posterior draws (direct Monte Carlo), seed 0': how the numbers were made."""
     prov = doc.get("provenance") or {}
     smp = doc.get("sampler") or {}
+    imp = smp.get("importance") or {}
     bits = []
-    if "draws" in prov:
+    if "draws" in prov and imp.get("proposals"):
+        ess = float(imp.get("effective_sample_size") or 0)
+        bits.append(f"{prov['draws']} draws resampled from {imp['proposals']} weighted proposals "
+                    f"(effective sample size {ess:.0f})" if ess >= 10 else
+                    f"{prov['draws']} draws resampled from {imp['proposals']} weighted proposals "
+                    f"(effective sample size {ess:.2g})")
+    elif "draws" in prov:
         bits.append(f"{prov['draws']} posterior draws")
     if smp.get("method"):
         bits.append(f"({smp['method']})")
@@ -248,3 +354,62 @@ def intro_line(doc):
     if "seed" in prov:
         text += f", seed {prov['seed']}"
     return text
+
+
+# --- splitting wide tables (LaTeX at \textwidth, HTML at 1280 px) ------------------------------
+_PLANET_GROUPS = {"mass_mearth": "masses and radii", "msini_mearth": "masses and radii",
+                  "radius_rearth": "masses and radii"}
+
+
+def column_group(col):
+    """The part of a split table a column belongs to: planet columns "orbits", "masses and radii" or
+    "predictions"; pair columns "dynamics" or "predictions" (a score's ``table_group``)."""
+    from ..scores.registry import registered_scores
+    for s in registered_scores():
+        if any(c.key == col.key and c.table == col.table for c in s.columns):
+            group = getattr(s, "table_group", "dynamics")
+            if col.table == "planet" and group == "dynamics":
+                return "orbits"
+            return group
+    if col.table == "planet":
+        return _PLANET_GROUPS.get(col.key, "orbits")
+    return "dynamics"
+
+
+def split_table(table, width, budget):
+    """Parts of ``table`` whose estimated width fits ``budget``: the whole table if it fits, else one
+    part per column group (:func:`column_group`), and a group still too wide in consecutive runs of
+    columns.  ``width(col, cells)`` estimates one column's width (header and cells) in the budget's
+    units.  Every part keeps the naming first column."""
+    cols = table.columns
+    w = {id(c): width(c, [row[i] for row in table.rows]) for i, c in enumerate(cols)}
+    first = w[id(cols[0])]
+
+    def fits(cs):
+        return first + sum(w[id(c)] for c in cs) <= budget
+
+    rest = cols[1:]
+    if fits(rest):
+        return [table]
+    groups = {}
+    for c in rest:
+        groups.setdefault(column_group(c), []).append(c)
+    parts = []
+    for name, cs in groups.items():
+        run = []
+        for c in cs:
+            if run and not fits(run + [c]):
+                parts.append((name, run))
+                run = []
+            run.append(c)
+        if run:
+            parts.append((name, run))
+    counts = {}
+    for name, _ in parts:
+        counts[name] = counts.get(name, 0) + 1
+    seen, out = {}, []
+    for name, cs in parts:
+        seen[name] = seen.get(name, 0) + 1
+        title = name if counts[name] == 1 else f"{name}, {seen[name]} of {counts[name]}"
+        out.append(table.part(cs, title))
+    return out

@@ -141,6 +141,7 @@ def transit_probability_curve(post, periods=None, n=N_CURVE, max_draws=CURVE_DRA
 
 
 class CompanionTransitScore(Score):
+    table_group = "predictions"      # tables: the pair/planet predictions table (output.table_model)
     name = "companion_transits"
     order = 87
     columns = (

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..inference.basis import Source, source_of
+from ..inference.basis import Origin, origin_of
 from ..inference.summary import probability, summarize
 from ..physics import hill
 from .common import adjacent, barely_constrained, effective_mass, flat_ecc_prior, masked_apply
@@ -22,19 +22,17 @@ def stability_caveats(ctx, uses_ecc=True):
     """Caveat codes of a stability verdict: what it rests on beyond the data."""
     out = []
     planets = ctx.names
-    sources = [source_of(ctx.note(p, "ecc")) for p in planets]
-    if uses_ecc and Source.ASSUMED in sources:
+    sources = [origin_of(ctx.note(p, "ecc")) for p in planets]
+    if uses_ecc and Origin.ASSUMED in sources:
         out.append("assumed_circular")
-    if uses_ecc and Source.PRIOR in sources:
+    if uses_ecc and Origin.PRIOR in sources:
         out.append("prior_only_eccentricity")
     flat = flat_ecc_prior(ctx.post)
-    if uses_ecc and any(s is Source.DATA and barely_constrained(ctx.post["ecc"][:, j], flat)
+    if uses_ecc and any(s is Origin.DATA and barely_constrained(ctx.post["ecc"][:, j], flat)
                         for j, s in enumerate(sources)):
         out.append("weak_eccentricity")
     if any(str(ctx.note(p, "mass")).startswith("minimum") for p in planets):
         out.append("minimum_masses")
-    if any((q.get("near_resonance_probability") or 0) >= 0.5 for q in ctx.pairs):
-        out.append("near_resonance_analytic")
     return out
 
 

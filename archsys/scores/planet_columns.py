@@ -26,17 +26,25 @@ PLANET_COLUMNS = (
            description="argument of periastron"),
     Column("inclination_deg", "i (sky)", r"$i_\mathrm{sky}$", "deg", "deg", table="planet", unit_astropy="deg",
            description="inclination to the sky plane"),
+    Column("node_deg", "Ω", r"$\Omega$", "deg", "deg", table="planet", unit_astropy="deg",
+           description="longitude of the ascending node on the sky"),
     Column("psi_deg", "ψ (tilt)", r"$\psi$", "deg", "deg", table="planet", unit_astropy="deg",
            description="tilt from the system reference plane"),
     Column("transiting", "transiting", "Transiting", fmt="text", table="planet", show=False),
     Column("mass_basis", "mass basis", "Mass basis", fmt="text", table="planet", show=False),
     Column("ecc_basis", "eccentricity basis", "Eccentricity basis", fmt="text", table="planet", show=False),
-    Column("ecc_source", "eccentricity source", "Eccentricity source", fmt="text", table="planet", show=False,
+    Column("ecc_origin", "eccentricity source", "Eccentricity source", fmt="text", table="planet", show=False,
            description="data, prior, assumed or fixed"),
-    Column("inclination_source", "inclination source", "Inclination source", fmt="text", table="planet",
+    Column("inclination_origin", "inclination source", "Inclination source", fmt="text", table="planet",
            show=False, description="data, prior, assumed or fixed"),
     Column("inclination_basis", "inclination basis", "Inclination basis", fmt="text", table="planet",
            show=False),
+    Column("ecc_limit", "e upper limit", "$e$ upper limit", fmt="text", table="planet", show=False,
+           description="95th percentile of e where the input gave only an upper limit or the data do not "
+                       "constrain e (shown in the e column as a limit)"),
+    Column("estimated", "estimates", "Estimates", fmt="text", table="planet", show=False,
+           description="keys whose values are estimates: mass_radius_relation, prior_inclination, "
+                       "prior_dominated"),
 )
 
 STAR_COLUMNS = (

@@ -53,7 +53,7 @@ class ScoreContext:
         """The posterior's note on how ``what`` (mass, ecc, inc) of ``planet`` was obtained.
 
         Eccentricity and inclination notes are :class:`~archsys.inference.basis.Basis` strings:
-        test where the value comes from with :func:`~archsys.inference.basis.source_of`.
+        test where the value comes from with :func:`~archsys.inference.basis.origin_of`.
         """
         return (self.post.notes or {}).get(planet, {}).get(what, "") or ""
 

@@ -32,7 +32,9 @@ HILL_GREY = "#333333"
 SHADE = "#c9c9c9"
 ARCHITECTURE_CAPTION = (
     "planets at their semi-major axes; bars a(1±e); under-brackets a ± R_H (Hill radius); marker area grows "
-    "with the logarithm of the mass (open: minimum mass m sin i); segments under adjacent pairs: "
+    "with the logarithm of the mass (open: minimum mass m sin i, also where a true mass would rest on an "
+    "inclination with no data of the planet's own; light: mass from the mass-radius relation, an "
+    "estimate); segments under adjacent pairs: "
     "Hill-stability verdict (Gladman 1993).")
 
 
@@ -43,12 +45,21 @@ def _marker_pt(mass_mearth, p):
 
 
 def _planet_mass(pl):
+    """(mass in Earth masses, basis) of a planet entry, from its structured ``estimated`` flags, so the
+    same planet looks the same in every mode: a true mass that rests on an inclination with no data
+    of the planet's own is shown as its m sin i (open marker), a mass from the mass-radius relation
+    as an estimate (light marker)."""
+    est = (pl.get("estimated") or {}).get("mass_mearth")
     m = median(pl.get("mass_mearth"))
-    if m is not None:
+    if m is not None and est == "mass_radius_relation":
+        return m, "estimate"
+    if m is not None and est != "prior_inclination":
         return m, "true"
-    m = median(pl.get("msini_mearth"))
+    m_sini = median(pl.get("msini_mearth"))
+    if m_sini is not None:
+        return m_sini, "minimum"
     if m is not None:
-        return m, "minimum"
+        return m, "estimate"
     return None, "unknown"
 
 
@@ -146,7 +157,8 @@ def architecture_figure(results, preset=None, fig=None, shade_periods=None, shad
                     ax.plot([a * (1 - e), a * (1 + e)], [y, y], color=PALETTE["sky_blue"],
                             lw=2.0 * p.line_width, solid_capstyle="butt", zorder=2, alpha=0.9)
                     used.add("orbit")
-                face = {"true": PALETTE["blue"], "minimum": "white", "unknown": "white"}[basis]
+                face = {"true": PALETTE["blue"], "minimum": "white", "unknown": "white",
+                        "estimate": PALETTE["sky_blue"]}[basis]
                 edge = GREY_EDGE if basis == "unknown" else PALETTE["blue"]
                 ax.plot([a], [y], marker="o", ms=d, mfc=face, mec=edge, mew=0.9 * p.line_width, ls="none", zorder=4)
                 used.add(basis)
@@ -227,6 +239,9 @@ def _legend_handles(p, used, masses, shade_label):
     if "minimum" in used and "true" in used:
         h.append(Line2D([], [], marker="o", ls="none", mfc="white", mec=PALETTE["blue"], ms=_marker_pt(3, p),
                         label=r"open: $m\sin i$"))
+    if "estimate" in used:
+        h.append(Line2D([], [], marker="o", ls="none", mfc=PALETTE["sky_blue"], mec=PALETTE["blue"],
+                        ms=_marker_pt(3, p), label="light: mass from radius"))
     if "unknown" in used:
         h.append(Line2D([], [], marker="o", ls="none", mfc="white", mec=GREY_EDGE, ms=_marker_pt(1, p),
                         label="no mass"))

@@ -20,7 +20,7 @@ from matplotlib.figure import Figure
 
 from ..style import get_preset, rc_params
 
-__all__ = ["FigureItem", "new_figure", "figure_bytes", "text_boxes", "text_overlaps",
+__all__ = ["FigureItem", "new_figure", "figure_bytes", "text_boxes", "text_overlaps", "leaves_canvas", "layout_problems",
            "overlaps_axes", "plain_tick", "minor_tick", "documents_of"]
 
 
@@ -214,6 +214,41 @@ def text_overlaps(fig, tol_px=0.5):
             if w > tol_px and h > tol_px:
                 out.append((a, b))
     return out
+
+
+def leaves_canvas(fig, tol_px=0.5):
+    """Descriptions of texts and artists drawn (partly) outside the figure: every text (as in
+    :func:`text_overlaps`), each axes with its tick labels, axis labels and title
+    (``Axes.get_tightbbox``), and each legend — so a clipped axis label or a legend pushed off
+    the canvas is found."""
+    boxes = text_boxes(fig)
+    renderer = fig.canvas.get_renderer()
+    W, H = fig.bbox.width, fig.bbox.height
+
+    def out(bb):
+        return bb is not None and (bb.x0 < -tol_px or bb.y0 < -tol_px or bb.x1 > W + tol_px or bb.y1 > H + tol_px)
+
+    found = [f"text {desc!s:.40}" for desc, bb in boxes if out(bb)]
+    for k, ax in enumerate(fig.axes):
+        if ax.get_visible() and out(ax.get_tightbbox(renderer)):
+            found.append(f"axes {k} ({ax.get_xlabel()[:20]!r} / {ax.get_ylabel()[:20]!r})")
+        leg = ax.get_legend()
+        if leg is not None and leg.get_visible() and out(leg.get_window_extent(renderer)):
+            found.append(f"legend of axes {k}")
+    for leg in fig.legends:
+        if leg.get_visible() and out(leg.get_window_extent(renderer)):
+            found.append("figure legend")
+    return found
+
+
+def layout_problems(fig, max_height_in=None):
+    """Everything the layout test refuses: overlapping texts, anything outside the canvas, and a
+    figure taller than ``max_height_in`` (a preset's page or slide height)."""
+    problems = [f"{a!s:.40} overlaps {b!s:.40}" for a, b in text_overlaps(fig) if b != "outside the figure"]
+    problems += [f"{x} leaves the canvas" for x in leaves_canvas(fig)]
+    if max_height_in is not None and fig.get_size_inches()[1] > max_height_in + 1e-9:
+        problems.append(f"{fig.get_size_inches()[1]:.2f} in tall, more than {max_height_in:g} in")
+    return problems
 
 
 def overlaps_axes(fig, artists, tol_px=0.5):

@@ -81,6 +81,10 @@ def split_parameters(params, max_params):
 
 
 def _value_line(q, x):
+    if q.limit:                          # an upper limit, worded and rounded as in the tables
+        from ..table_model import limit_cell
+        _, _, v, cl = limit_cell(q.limit)
+        return f"${q.symbol} < {v}$ ({cl})"
     lo, med, hi = np.quantile(x, QUANTILES)
     v, m, s = round_uncertain(med, med - lo, hi - med)
     unit = "{}^\\circ" if q.unit == "^\\circ" else (f"\\,{q.unit}" if q.unit else "")
@@ -137,7 +141,16 @@ def corner_figure(params, truths=None, priors=None, preset=None, fig=None, title
     linear = np.column_stack([np.asarray(q.values, dtype=float) for q in kept])[ok]
     if data.shape[0] < 10:
         raise InputError(f"corner plot: only {data.shape[0]} draws have every parameter defined")
-    ranges, bounded = zip(*[_axis_range(q, data[:, k]) for k, q in enumerate(kept)])
+    ranges, bounded = (list(x) for x in zip(*[_axis_range(q, data[:, k]) for k, q in enumerate(kept)]))
+    drawn_priors = {q.name: priors[q.name] for q in kept if priors and priors.get(q.name) is not None}
+    for k, q in enumerate(kept):          # nothing drawn outside the prior's support (e.g. sigma >= 0.1 deg)
+        support = getattr(drawn_priors.get(q.name), "_bounds", None)
+        if support is None or support[0] is None or not np.isfinite(support[0]):
+            continue
+        low = support[0] if not q.log else (math.log10(support[0]) if support[0] > 0 else None)
+        if low is not None and ranges[k][0] < low < ranges[k][1]:
+            ranges[k] = (low, ranges[k][1])
+            bounded[k] = (True, bounded[k][1])
     bins = int(np.clip(np.sqrt(data.shape[0]) / 2.5, 10, 25))
     with matplotlib.rc_context(rc_params(p)):
         with matplotlib.rc_context({"xtick.minor.visible": False, "ytick.minor.visible": False}):
@@ -167,7 +180,7 @@ def corner_figure(params, truths=None, priors=None, preset=None, fig=None, title
         _fit_layout(fig, axes, kept, ranges, p)
         for a in heavy:
             a.set_visible(True)
-        _values_block(fig, axes, kept, linear, skipped, p, title, bool(truths), bool(priors))
+        _values_block(fig, axes, kept, linear, skipped, p, title, bool(truths), bool(drawn_priors))
     return fig
 
 

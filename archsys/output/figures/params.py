@@ -15,6 +15,7 @@ import numpy as np
 
 from ...errors import InputError
 from ...physics.constants import MEARTH_MSUN
+from ...inference.summary import angle_branch, wrap_angle
 from ..files import safe_name
 from .common import letter, mathrm
 
@@ -36,6 +37,7 @@ class CornerParam:
     upper: float = None
     circular: bool = False  # an angle defined modulo 360 deg
     group: str = "other"    # orbit / orientation / mass: how large sets are split
+    limit: dict = None      # {"upper", "probability"}: shown as a limit, as in the tables (ecc_limit)
 
     def __post_init__(self):
         if not self.key:
@@ -71,6 +73,11 @@ class CornerParam:
         return CornerParam(**d)
 
 
+#: The tables' marks of estimates (output.table_model.MARKS) as mathtext superscripts of corner labels.
+ESTIMATE_MARKS = {"prior_dominated": "^{\\dagger}", "mass_radius_relation": "^{\\ddagger}",
+                  "prior_inclination": "^{\\S}"}
+
+
 def _col(draws, key, j=None):
     a = draws.get(key) if draws is not None else None
     if a is None:
@@ -94,17 +101,9 @@ def _spread(x):
 
 
 def _compact_angle(deg):
-    """Angles in [0, 360) or [-180, 180), whichever gives the narrower central 99 % (then 68 %) interval."""
-    a = np.asarray(deg, dtype=float) % 360.0
-    b = (a + 180.0) % 360.0 - 180.0
-    fa, fb = a[np.isfinite(a)], b[np.isfinite(b)]
-    if fa.size < 10:
-        return a
-
-    def width(x):
-        return (round(float(np.diff(np.quantile(x, (0.005, 0.995)))[0]), 6),
-                float(np.diff(np.quantile(x, (0.158655, 0.841345)))[0]))
-    return b if width(fb) < width(fa) else a
+    """Angles on the branch of the one angle convention (:func:`archsys.inference.summary.angle_branch`),
+    the same branch as the tables and the JSON document."""
+    return wrap_angle(deg, angle_branch(deg))
 
 
 def planet_parameters(draws, document, j):
@@ -117,19 +116,25 @@ def planet_parameters(draws, document, j):
     lt = letter(pl["name"], document.get("system"))
     x, k = mathrm(lt), safe_name(lt)
     out = []
+    est = {key: ESTIMATE_MARKS.get(code, "") for key, code in (pl.get("estimated") or {}).items()}
+    for key in pl.get("not_constrained_by_data") or []:
+        est.setdefault(key, ESTIMATE_MARKS["prior_dominated"])
     e = _col(draws, "ecc", j)
     if "ecc" in pl and e is not None:
-        out.append(CornerParam(f"e_{j}", f"e_{{{x}}}", "", e, key=f"e_{k}", lower=0.0, upper=1.0, group="orbit"))
+        out.append(CornerParam(f"e_{j}", f"e_{{{x}}}{est.get('ecc', '')}", "", e, key=f"e_{k}", lower=0.0,
+                               upper=1.0, group="orbit", limit=pl.get("ecc_limit")))
     w = _col(draws, "omega", j)
     if "omega_deg" in pl and w is not None:
         v = _compact_angle(np.degrees(w))
         lo = -180.0 if np.nanmin(v) < 0 else 0.0
-        out.append(CornerParam(f"omega_{j}", f"\\omega_{{{x}}}", "^\\circ", v, key=f"omega_{k}", lower=lo,
+        out.append(CornerParam(f"omega_{j}", f"\\omega_{{{x}}}{est.get('omega_deg', '')}", "^\\circ", v,
+                               key=f"omega_{k}", lower=lo,
                                upper=lo + 360.0, circular=True, group="orbit"))
     inc = _col(draws, "inc", j)
     if "inclination_deg" in pl and inc is not None:
         v = np.degrees(inc)
-        out.append(CornerParam(f"inc_{j}", f"i_{{{x}}}", "^\\circ", v, log=_spread(v) > LOG_SPREAD, key=f"i_{k}",
+        out.append(CornerParam(f"inc_{j}", f"i_{{{x}}}{est.get('inclination_deg', '')}", "^\\circ", v,
+                               log=_spread(v) > LOG_SPREAD, key=f"i_{k}",
                                lower=0.0, upper=180.0, group="orientation"))
     psi = _col(draws, "psi", j)
     if psi is not None and np.isfinite(psi).any():
@@ -139,7 +144,8 @@ def planet_parameters(draws, document, j):
     m, ms = _col(draws, "mass", j), _col(draws, "msini", j)
     if "mass_mearth" in pl and m is not None:
         v = m / MEARTH_MSUN
-        out.append(CornerParam(f"mass_{j}", f"m_{{{x}}}", "M_\\oplus", v, log=_spread(v) > LOG_SPREAD,
+        out.append(CornerParam(f"mass_{j}", f"m_{{{x}}}{est.get('mass_mearth', '')}", "M_\\oplus", v,
+                               log=_spread(v) > LOG_SPREAD,
                                key=f"m_{k}", lower=0.0, group="mass"))
     elif "msini_mearth" in pl and ms is not None:
         v = ms / MEARTH_MSUN

@@ -26,7 +26,7 @@ def _document_priors(document):
         if ecc:
             pr = load_prior(ecc)
             for j, pl in enumerate(document.get("planets", [])):
-                if pl.get("ecc_source") != "fixed":
+                if pl.get("ecc_origin") != "fixed":
                     out[f"e_{j}"] = pr
         sig = rec.get("mutual_inclination_sigma", {}).get("name")
         if sig:
@@ -37,6 +37,7 @@ def _document_priors(document):
 
 
 def _plain_label(label):
+    label = label.replace("^{\\dagger}", "†").replace("^{\\ddagger}", "‡").replace("^{\\S}", "§")
     label = label.replace("M_\\oplus", "M⊕").replace("\\log_{10}\\,", "log10 ").replace("\\Phi", "Φ")
     label = label.replace("\\oplus", "⊕").replace("^\\circ", "°").replace("\\sigma", "σ").replace(
         "\\omega", "ω").replace("\\psi", "ψ").replace("\\sin", "sin")

@@ -65,7 +65,12 @@ def _legend_above(fig, ax, p, handles=None):
 
 
 def _finish(fig, ax, p):
-    """Margins from the measured text: tick labels, axis labels and the legend above the axes."""
+    """Margins from the measured text: tick labels, axis labels and the legend above the axes.  Tick
+    labels of every axis are plain text in the figure font (no mathtext exponents from the default
+    formatter), so all survey figures share one tick font."""
+    for axis in (ax.xaxis, ax.yaxis):
+        if isinstance(axis.get_major_formatter(), matplotlib.ticker.ScalarFormatter):
+            axis.set_major_formatter(matplotlib.ticker.FuncFormatter(lambda v, _: f"{v:g}"))
     fig.canvas.draw()
     r = fig.canvas.get_renderer()
     W, H = fig.get_size_inches()
@@ -87,21 +92,29 @@ def _finish(fig, ax, p):
     fig.subplots_adjust(left=left_in / W, right=1 - right_in / W, bottom=bottom_in / H, top=1 - top_in / H)
 
 
+#: Resonance lines in colours other than the bars' blue: first order vermillion, second order reddish purple.
+_RES_STYLES = {1: {"color": PALETTE["vermillion"], "linestyle": "-", "linewidth": 0.9, "label": "first order"},
+               2: {"color": PALETTE["reddish_purple"], "linestyle": (0, (4, 2)), "linewidth": 0.9,
+                   "label": "second order"}}
+
+
 def plot_period_ratios(pairs, fig=None, max_ratio=5.0, preset=None):
-    """Histogram of adjacent-pair period ratios with first- and second-order resonances."""
+    """Histogram of adjacent-pair period ratios with first- and second-order resonances (each line named
+    by its ratio); pairs wider than ``max_ratio`` are counted in a note, never silently dropped."""
     from ...physics.spacing import MMR_TABLE
     with _Panel(preset, fig) as (fig, ax, p):
         r = _finite(q.get("period_ratio_median") for q in pairs)
         edges = np.geomspace(1.0, max_ratio, 61)
         ax.hist(r[r <= max_ratio], bins=edges, **_BAR)
-        done = set()
+        done, lines = set(), []
         for j, k, ratio in MMR_TABLE:
             # first order to 5:4, second order to 7:5: finer resonances crowd near 1
             if k > 2 or ratio > max_ratio or j > (5 if k == 1 else 7):
                 continue
-            st = dict(ORDER_STYLES[int(k)])
+            st = dict(_RES_STYLES[int(k)])
             label = st.pop("label") + " resonance"
-            ax.axvline(ratio, label=None if int(k) in done else label, zorder=3, alpha=0.85, **st)
+            ax.axvline(ratio, label=None if int(k) in done else label, zorder=3, alpha=0.9, **st)
+            lines.append((ratio, f"{j}:{j - k}" if j > k else f"{j}:1", st["color"]))
             done.add(int(k))
         ax.set_xscale("log")
         ax.set_xlim(1.0, max_ratio)
@@ -112,10 +125,32 @@ def plot_period_ratios(pairs, fig=None, max_ratio=5.0, preset=None):
         ax.xaxis.set_major_formatter(matplotlib.ticker.FuncFormatter(lambda v, _: f"{v:g}"))
         ax.xaxis.set_minor_formatter(matplotlib.ticker.NullFormatter())
         ax.yaxis.set_major_locator(matplotlib.ticker.MaxNLocator(5, integer=True))
+        ax.set_ylim(0, ax.get_ylim()[1] * 1.18)        # headroom for the resonance names
+        _name_lines(fig, ax, lines, p)
+        wide = int((r > max_ratio).sum())
+        if wide:
+            ax.text(0.98, 0.84, f"{wide} of {r.size} pairs with ratio > {max_ratio:g}\nnot shown",
+                    transform=ax.transAxes, ha="right", va="top", fontsize=p.small_pt - 1, zorder=5,
+                    bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.85, "pad": 1.0})
         ax.set_xlabel(r"period ratio $P_{i+1}/P_i$ (adjacent pairs)")
         ax.set_ylabel("pairs")
         _legend_above(fig, ax, p)
     return fig
+
+
+def _name_lines(fig, ax, lines, p):
+    """Each resonance line named at the top of the axes ("3:2"), names that would touch dropped."""
+    fig.canvas.draw()
+    r = fig.canvas.get_renderer()
+    kept = []
+    for ratio, name, colour in sorted(lines, key=lambda x: (len(x[1]), x[0])):
+        t = ax.text(ratio, 0.985, name, transform=ax.get_xaxis_transform(), ha="center", va="top",
+                    fontsize=p.small_pt - 2, color=colour, clip_on=False)
+        bb = t.get_window_extent(r).expanded(1.15, 1.0)
+        if any(bb.overlaps(k) for k in kept):
+            t.remove()
+        else:
+            kept.append(bb)
 
 
 def plot_hill_separations(pairs, fig=None, preset=None):
@@ -183,8 +218,24 @@ def plot_gap_complexity(systems, fig=None, preset=None):
     return fig
 
 
+def _beta_band(x, beta_fit):
+    """(lo, hi) envelope of the Beta density over the 68 % intervals of alpha and beta (a grid over the
+    two intervals; an approximate band, as the fit reports marginal intervals only)."""
+    from scipy import stats
+    a, b = beta_fit["alpha"], beta_fit["beta"]
+    if not all(k in a and k in b for k in ("lo", "hi")):
+        return None
+    ys = [stats.beta.pdf(x, ai, bi) for ai in np.linspace(a["lo"], a["hi"], 5)
+          for bi in np.linspace(b["lo"], b["hi"], 5) if ai > 0 and bi > 0]
+    if not ys:
+        return None
+    ys = np.array(ys)
+    return ys.min(axis=0), ys.max(axis=0)
+
+
 def plot_eccentricity_population(planets, ecc_pop, fig=None, preset=None):
-    """Measured eccentricities (posterior medians) and the fitted population models."""
+    """Measured eccentricities (posterior medians) and the fitted population models, with the Beta
+    fit's uncertainty band and, where the fit's effective sample size is small, a warning on the figure."""
     from scipy import stats
     with _Panel(preset, fig) as (fig, ax, p):
         e = _finite(q.get("ecc_median") for q in planets if q.get("ecc_measured"))
@@ -194,6 +245,10 @@ def plot_eccentricity_population(planets, ecc_pop, fig=None, preset=None):
         b = (ecc_pop or {}).get("beta")
         if b:
             a_, b_ = b["alpha"]["median"], b["beta"]["median"]
+            band = _beta_band(x, b)
+            if band is not None:
+                ax.fill_between(x, band[0], band[1], color=PALETTE["vermillion"], alpha=0.18, lw=0,
+                                label="Beta: 68 % of α, β")
             ax.plot(x, stats.beta.pdf(x, a_, b_), color=PALETTE["vermillion"],
                     label=fr"Beta($\alpha$={a_:.2f}, $\beta$={b_:.2f})")
         ry = (ecc_pop or {}).get("rayleigh")
@@ -205,7 +260,20 @@ def plot_eccentricity_population(planets, ecc_pop, fig=None, preset=None):
         ax.plot(x, stats.beta.pdf(x, *KIPPING2013), color=PALETTE["black"], linestyle=(0, (1, 1)),
                 label="Kipping 2013 (RV)")
         ax.set_xlim(0, 1)
-        ax.set_ylim(0, None)
+        away = x >= 0.03                      # the Beta density may diverge at e = 0: scale to the rest
+        peaks = [float(np.nanmax(stats.beta.pdf(x[away], *KIPPING2013)))]
+        if e.size:
+            peaks.append(float(np.histogram(e, bins=np.linspace(0, 1, 26), density=True)[0].max()))
+        if b:
+            peaks.append(float(np.nanmax(stats.beta.pdf(x[away], a_, b_))))
+        ax.set_ylim(0, 1.3 * max(peaks))
+        warn = (ecc_pop or {}).get("ess_warning") or (
+            f"effective sample size {ecc_pop['ess_min']:.0f}: treat the fit as rough"
+            if (ecc_pop or {}).get("ess_min") is not None and ecc_pop["ess_min"] < 20 else None)
+        if warn:
+            short = warn.split(":")[0]
+            ax.text(0.98, 0.96, short + ":\nthe fit is rough", transform=ax.transAxes, ha="right", va="top",
+                    fontsize=p.small_pt - 1, color=PALETTE["vermillion"])
         ax.yaxis.set_major_locator(matplotlib.ticker.MaxNLocator(5, steps=[1, 2, 5, 10], prune="lower"))
         ax.set_xlabel("eccentricity $e$")
         ax.set_ylabel("probability density")

@@ -14,13 +14,15 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
 
 from ..style import GREY, PALETTE, get_preset, rc_params
+from .common import letter
 
 __all__ = ["transit_odds_figure", "CAPTION"]
 
 CAPTION = ("Probability that a planet at each period transits, given the orientation posterior of {name} "
-           "(line: posterior mean; band: 68.3 % spread over the draws; circular orbit, planet centre crossing "
-           "the disc). Dashed: isotropic probability R*/a (Winn 2010 eq. 9) without the other planets. "
-           "Markers: planets not known to transit, with their posterior probability.")
+           "(line: posterior mean; band: 68.3 % spread over the draws, drawn down to the lower axis where its "
+           "lower edge is below it; circular orbit, planet centre crossing the disc). Dashed: isotropic "
+           "probability R*/a (Winn 2010 eq. 9) without the other planets. Circles: planets not known to "
+           "transit, with their posterior probability; triangles at the top: the known transiting planets.")
 
 
 def transit_odds_figure(document, preset=None, fig=None):
@@ -32,25 +34,44 @@ def transit_odds_figure(document, preset=None, fig=None):
     P = curve["period_day"]
     with matplotlib.rc_context(rc_params(p)):
         if fig is None:
-            fig = Figure(figsize=(p.width_in, 0.72 * p.width_in))
+            fig = Figure(figsize=(p.width_in, min(0.72 * p.width_in, p.page_height_in)))
         if fig.canvas is None or not isinstance(fig.canvas, FigureCanvasAgg):
             FigureCanvasAgg(fig)
         ax = fig.add_subplot(111)
         ax.set_xscale("log")
         ax.set_yscale("log")
-        ax.fill_between(P, curve["lo"], curve["hi"], color=PALETTE["sky_blue"], alpha=0.35, lw=0,
+        positive = [v for v in list(curve["probability"]) + list(curve["isotropic"]) if v and v > 0]
+        floor = max(0.3 * min(positive), 1e-4) if positive else 1e-4
+        lo = [max(v or 0.0, floor) for v in curve["lo"]]          # the band stays on the axis
+        ax.fill_between(P, lo, curve["hi"], color=PALETTE["sky_blue"], alpha=0.35, lw=0,
                         label="68.3 % over draws")
         ax.plot(P, curve["probability"], color=PALETTE["blue"], label="given the architecture")
         ax.plot(P, curve["isotropic"], color=GREY, ls=(0, (4, 2)), label="isotropic")
+        sysname = document.get("system", "")
+        known, other = [], False
         for pl in document.get("planets", []) or []:
-            x, y = (pl.get("period_days") or {}).get("median"), pl.get("transit_probability")
-            if x is None or not y:
+            x = (pl.get("period_days") or {}).get("median")
+            if x is None:
                 continue
-            ax.plot([x], [y], "o", color=PALETTE["vermillion"], ms=4, zorder=3)
-            ax.annotate(pl["name"], (x, y), xytext=(3, 3), textcoords="offset points", fontsize=p.small_pt)
-        floor = max(min(min(curve["isotropic"]), min(v for v in curve["lo"] if v > 0) if any(
-            v > 0 for v in curve["lo"]) else 1.0) / 2.0, 1e-4)
-        ax.set_ylim(floor, 1.3)
+            name = letter(pl.get("name", "?"), sysname)
+            if pl.get("transiting"):
+                known.append((x, name))
+                continue
+            y = pl.get("transit_probability")
+            if not y:
+                continue
+            ax.plot([x], [y], "o", color=PALETTE["vermillion"], ms=4, zorder=3,
+                    label=None if other else "not known to transit")
+            other = True
+            ax.annotate(name, (x, y), xytext=(3, 3), textcoords="offset points", fontsize=p.small_pt)
+        top = 1.6
+        for k, (x, name) in enumerate(known):
+            ax.plot([x], [1.0], "v", color=PALETTE["blue"], ms=4.5, zorder=3, clip_on=False,
+                    label="known to transit" if k == 0 else None)
+            ax.annotate(name, (x, 1.0), xytext=(0, 4), textcoords="offset points", ha="center",
+                        fontsize=p.small_pt - 1)
+        ax.set_ylim(floor, top if known else 1.3)
+        ax.set_xlim(min(P), max(P))
         ax.xaxis.set_major_locator(LogLocator(base=10.0, subs=(1.0, 2.0, 5.0)))
         for axis in (ax.xaxis, ax.yaxis):
             axis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{v:g}"))

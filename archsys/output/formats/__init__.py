@@ -67,7 +67,8 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, co
     """Write every report format, chains, provenance and figures of ``result``.
 
     Into ``out_dir``: one file per registered format (``<name>.json``, ``.md``, ``.html``,
-    ``.tex``, ``.aas.tex``, ``.txt``),
+    ``.tex``, ``.aas.tex``, ``.verdicts.tex`` (the verdicts as a paragraph), ``.bib`` (what to
+    cite), ``.txt``),
     ``<name>.chains.npz`` and ``<name>.provenance.json``; figures (PDF and PNG)
     into ``fig_dir`` (``out_dir/figures`` when only ``out_dir`` is given).
     Everything is rendered in memory first; each file is then written

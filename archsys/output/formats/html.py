@@ -6,10 +6,11 @@ style sheets or images, so the file can be archived, mailed or opened offline.
 from __future__ import annotations
 
 import base64
+import re
 from html import escape
 
-from ..table_model import document_tables, intro_line, provenance_items, sampler_items
 from ..style import PALETTE
+from ..table_model import document_tables, intro_line, provenance_items, sampler_items, split_table
 from .registry import ReportFormat, register_format
 
 __all__ = ["FORMAT", "render_html", "html_cell"]
@@ -29,8 +30,11 @@ h2 { font-size: 1.15rem; margin: 2rem 0 .6rem; text-transform: uppercase; letter
 .lede { font-size: .92rem; color: var(--muted); }
 .scroll { overflow-x: auto; }
 table { border-collapse: collapse; font-variant-numeric: tabular-nums; font-size: .92rem; }
-th, td { padding: .35rem .7rem; border-bottom: 1px solid var(--rule); white-space: nowrap; }
+th, td { padding: .35rem .6rem; border-bottom: 1px solid var(--rule); white-space: nowrap; }
 th { text-align: right; font-weight: 600; vertical-align: bottom; }
+thead th { white-space: normal; min-width: 3.5em; }
+h3 { font-size: .95rem; margin: 1.1rem 0 .4rem; color: var(--muted); font-weight: 600; }
+.cl { color: var(--muted); font-size: .85em; }
 th .u { display: block; font-weight: 400; color: var(--muted); font-size: .8rem; }
 td { text-align: right; }
 th:first-child, td:first-child { text-align: left; }
@@ -73,6 +77,8 @@ def html_cell(cell, key="", raw=None) -> str:
         if m == p:
             return f"{v} ± {p}"
         return f'<span class="pm">{v}<span class="err"><span>+{p}</span><span>−{m}</span></span></span>'
+    if kind == "limit":
+        return f"&lt; {escape(cell[2])} <span class=\"cl\">({escape(cell[3])})</span>"
     text = escape(cell[1])
     if kind == "percent" and key in _VERDICT_KEYS and isinstance(raw, (int, float)):
         cls = "good" if raw >= 0.95 else "bad" if raw <= 0.05 else "mid"
@@ -80,9 +86,53 @@ def html_cell(cell, key="", raw=None) -> str:
     return text
 
 
+_SUB = re.compile(r"(?<![\w/.\-])([A-Za-z\u0391-\u03c9])_\{?([A-Za-z0-9,]+)\}?")
+
+
+def symbol_html(text) -> str:
+    """Escaped HTML of a label, unit or sentence with plain-text subscripts rendered:
+    ``R_H,m`` -> R<sub>H,m</sub>, ``σ_mut`` -> σ<sub>mut</sub> (file names such as
+    ``demo_systems`` are left alone: the letter before ``_`` must start a word)."""
+    return _SUB.sub(r"\1<sub>\2</sub>", escape(str(text)))
+
+
+#: Width budget of one HTML table in digit widths at a 1280 px window (main column about 1110 px,
+#: table font 13.8 px: about 150 digits; 120 leaves room for the estimate's error).
+HTML_BUDGET = 120.0
+
+
+def _html_width(col, cells):
+    """Estimated width of a column in digit widths (headers wrap at word boundaries)."""
+    def w(cell):
+        kind = cell[0]
+        if kind == "pm":
+            v, m, p = cell[1:]
+            return len(v) + (len(p) + 2 if m == p else 0.75 * max(len(m), len(p)) + 1)
+        if kind == "limit":
+            return len(cell[2]) + len(cell[3]) + 5
+        if kind == "none":
+            return 1
+        return len(str(cell[1]))
+    head = max((len(x) for x in (col.label or "").split()), default=0)
+    unit = len(col.unit) + 2 if col.unit else 0
+    return max([head, unit, 3.5] + [w(c) + 1 for c in cells]) + 2.0      # + cell padding
+
+
 def _head(col):
-    unit = f'<span class="u">[{escape(col.unit)}]</span>' if col.unit else '<span class="u">&nbsp;</span>'
-    return f"<th scope=\"col\">{escape(col.label)}{unit}</th>"
+    unit = (f'<span class="u">[{symbol_html(col.unit)}]</span>' if col.unit
+            else '<span class="u">&nbsp;</span>')
+    return f"<th scope=\"col\">{symbol_html(col.label)}{unit}</th>"
+
+
+def _tables(table, caption):
+    """The table, split like the LaTeX tables into parts that fit a 1280 px window without scrolling."""
+    parts = split_table(table, _html_width, HTML_BUDGET)
+    out = []
+    for part in parts:
+        if len(parts) > 1:
+            out.append(f"<h3>{escape(part.title.capitalize())}</h3>")
+        out += _table(part, f"{caption} ({part.title})" if part.title else caption)
+    return out
 
 
 def _table(table, caption):
@@ -110,8 +160,11 @@ def _kv_table(rows, raw):
            "value</th><th scope=\"col\">unit</th></tr></thead>", "<tbody>"]
     for col, cell in rows:
         cls = ' class="text"' if cell[0] == "text" else ""
-        out.append(f"<tr><th scope=\"row\">{escape(col.label)}</th><td{cls}>{html_cell(cell, col.key, _lookup(raw, col.key))}"
-                   f"</td><td style=\"text-align:left\">{escape(col.unit)}</td></tr>")
+        value = html_cell(cell, col.key, _lookup(raw, col.key))
+        if cell[0] == "text":
+            value = symbol_html(cell[1])
+        out.append(f"<tr><th scope=\"row\">{symbol_html(col.label)}</th><td{cls}>{value}"
+                   f"</td><td style=\"text-align:left\">{symbol_html(col.unit)}</td></tr>")
     out.append("</tbody></table></div>")
     return out
 
@@ -139,27 +192,31 @@ def render_html(doc, figures=()) -> str:
                                   f"input {prov['input_file']}" if prov.get("input_file") else "") if x)
     L = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
          '<meta name="viewport" content="width=device-width, initial-scale=1">',
-         f"<title>{escape(name)} — system architecture</title>", f"<style>{_CSS}</style>", "</head>",
-         "<body><main>", "<header>", f"<h1>{escape(name)}</h1>",
+         f"<title>{'UNUSABLE POSTERIOR — ' if not t.usable else ''}{escape(name)} — system architecture</title>", f"<style>{_CSS}</style>", "</head>",
+         "<body><main>"]
+    if t.status:
+        L.append(f'<p class="warn" id="posterior-status">{escape(t.status)}</p>')
+    L += ["<header>", f"<h1>{escape(name)}</h1>",
          f'<p class="meta">System architecture · {escape(meta)}</p>', "</header>",
          '<p class="lede">Values are medians with the central 68.3 % interval of the posterior draws, '
          "rounded to two significant figures of the larger error; probabilities are fractions of the draws.</p>"]
-    if (doc.get("sampler") or {}).get("converged") is False:
-        L.append('<p class="warn">The chain did not reach the convergence criterion; treat intervals as rough.</p>')
+    if (doc.get("dynamics") or {}).get("verdict"):
+        head, _, rest = doc["dynamics"]["verdict"].partition(" — ")
+        L.append(f'<p class="headline"><strong>{escape(head)}</strong> — {escape(rest)}</p>')
     L += ['<section id="verdicts"><h2>Verdicts</h2><ul class="verdicts">']
-    L += [f"<li>{escape(v)}</li>" for v in t.verdicts] + ["</ul></section>"]
+    L += [f"<li>{symbol_html(v)}</li>" for v in t.verdicts] + ["</ul></section>"]
     L += ['<section id="priors"><h2>Priors</h2><ul class="notes">']
     L += [f"<li>{escape(v)}</li>" for v in t.priors] + ["</ul></section>"]
     if t.star:
         L += ['<section id="star"><h2>Star</h2>'] + _kv_table(t.star, doc.get("star", {})) + ["</section>"]
     L += ['<section id="planets"><h2>Planets</h2>']
-    L += _table(t.planets, f"Planets of {name}")
+    L += _tables(t.planets, f"Planets of {name}")
     if t.notes:
-        L += ['<ul class="notes">'] + [f"<li>{escape(n)}</li>" for n in t.notes] + ["</ul>"]
+        L += ['<ul class="notes">'] + [f"<li>{symbol_html(n)}</li>" for n in t.notes] + ["</ul>"]
     L.append("</section>")
     if t.pairs is not None:
         L += ['<section id="pairs"><h2>Adjacent pairs</h2>']
-        L += _table(t.pairs, f"Adjacent pairs of {name}")
+        L += _tables(t.pairs, f"Adjacent pairs of {name}")
         L += ['<ul class="notes"><li>Δ: separation in mutual Hill radii (Gladman 1993 criterion 2√3 for '
               "circular orbits); offset: fractional distance from the nearest mean-motion resonance.</li></ul>",
               "</section>"]
