@@ -61,7 +61,7 @@ def _condition_on_survival(post, opts: AnalysisOptions) -> Posterior:
     from .errors import InputError
     from .options import AUTO_NBODY_DRAWS
     from .physics import nbody
-    from .scores.dynamics import run_nbody
+    from .scores.dynamics_assess import run_nbody
     if post.system.n_planets < 2:
         return post
     if not nbody.nbody_available():

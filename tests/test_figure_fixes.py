@@ -110,7 +110,7 @@ def test_mass_radius_masses_drawn_as_estimates():
 
 
 def test_sigma_density_not_drawn_below_the_prior_support():
-    from archsys.inference.priors import load_prior
+    from archsys.inference.prior_files import load_prior
     from archsys.output.figures import CornerParam, corner_figure
     prior = load_prior("incl-loguniform")                       # support 0.1-60 deg
     rng = np.random.default_rng(4)

@@ -79,7 +79,7 @@ def measure(draws, prior, scale=1.0):
 
 
 def _load(rec):
-    from .priors import load_prior
+    from .prior_files import load_prior
     name = rec.get("name") if isinstance(rec, dict) else rec
     if not name or name == "ecc-uniform":
         return None

@@ -133,7 +133,7 @@ def registered(score):
 
 
 #: Modules of the scores package that are infrastructure, not scores.
-NOT_SCORES = {"registry", "column_model", "planet_columns", "common", "compute"}
+NOT_SCORES = {"registry", "column_model", "planet_columns", "common", "compute", "dynamics_assess"}
 _loaded = False
 
 

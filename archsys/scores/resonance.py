@@ -17,6 +17,7 @@ import numpy as np
 from ..inference.basis import Origin, origin_of
 from ..inference.summary import probability, summarize
 from ..physics import spacing
+from ..physics import resonance_overlap
 from .common import adjacent, barely_constrained, effective_mass, flat_ecc_prior, masked_apply
 from .registry import Column, Score, ScoreResult, register, verdict
 
@@ -44,7 +45,7 @@ def near_window(j, k, mu, e):
     super-period columns report a pair).  Whether the pair is *in* resonance is decided by the libration of its
     resonant angles in the N-body integration, not by this window.
     """
-    return np.minimum(spacing.NEAR_WINDOW_MULTIPLE * spacing.resonance_width(j, 1, mu, e) / k, NEAR_MAX_OFFSET)
+    return np.minimum(resonance_overlap.NEAR_WINDOW_MULTIPLE * resonance_overlap.resonance_width(j, 1, mu, e) / k, NEAR_MAX_OFFSET)
 
 
 def near_mmr(ratio, mu, e, max_order=spacing.MMR_MAX_ORDER):
@@ -72,7 +73,7 @@ def near_first_order(ratio, mu, e):
     which = np.zeros(np.shape(ratio), dtype=int)
     best = np.full(np.shape(ratio), np.inf)
     for j, k, ratio_res in spacing.MMR_TABLE[spacing.MMR_TABLE["k"] == 1]:
-        window = spacing.NEAR_WINDOW_MULTIPLE * spacing.resonance_width(j, k, mu, e)
+        window = resonance_overlap.NEAR_WINDOW_MULTIPLE * resonance_overlap.resonance_width(j, k, mu, e)
         dist = np.abs(ratio / ratio_res - 1.0) / window
         hit = (dist < 1.0) & (dist < best)
         which = np.where(hit, j, which)

@@ -10,7 +10,8 @@ import re
 from html import escape
 
 from ..style import PALETTE
-from ..table_model import document_tables, intro_line, provenance_items, sampler_items, split_table
+from ..table_model import document_tables, split_table
+from ..report_meta import intro_line, provenance_items, sampler_items
 from .registry import ReportFormat, register_format
 
 __all__ = ["FORMAT", "render_html", "html_cell"]

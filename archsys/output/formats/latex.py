@@ -27,7 +27,8 @@ import re
 from ..files import safe_name
 from ..latex_escape import escape
 from ..references import LATEX_FALLBACK, cite_latex
-from ..table_model import document_tables, intro_line, split_table
+from ..table_model import document_tables, split_table
+from ..report_meta import intro_line
 from .registry import ReportFormat, register_format
 
 __all__ = ["FORMAT", "render_latex", "render_aastex", "render_verdicts_tex", "latex_cell", "escape", "standalone",

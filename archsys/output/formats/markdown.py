@@ -1,7 +1,8 @@
 """Markdown report (GitHub-flavoured pipe tables), rendered from the report document."""
 from __future__ import annotations
 
-from ..table_model import document_tables, intro_line, provenance_items, sampler_items
+from ..table_model import document_tables
+from ..report_meta import intro_line, provenance_items, sampler_items
 from .registry import ReportFormat, register_format
 
 __all__ = ["FORMAT", "render_markdown", "md_cell"]

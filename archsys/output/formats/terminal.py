@@ -7,7 +7,8 @@ only when writing to a terminal.
 from __future__ import annotations
 
 from ..numbers import plain_cell
-from ..table_model import document_tables, intro_line
+from ..table_model import document_tables
+from ..report_meta import intro_line
 from .registry import ReportFormat, register_format
 
 __all__ = ["FORMAT", "render_text"]
