@@ -46,6 +46,7 @@ from .where import parse_where, select
 from .columns import bind, canonical_map, load_column_map, where_names
 from .lock import SurveyLock
 from .store import STORE_NAME, SurveyStore, header_of, write_csv
+from .popfits import FitRunner, subsample_objects, transit_block, with_per_system_fit
 from .workers import SAMPLES_PER_PLANET, dask_client, process_system, progress_bar, run_tasks
 
 __all__ = ["run_survey", "survey_benchmark", "system_seed", "process_system",
@@ -119,9 +120,11 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
         selected = selected[:sv.limit]
     ids = {g.system for g in selected}
     client = dask_client(sv.scheduler) if sv.scheduler else None    # before any file is made
+    # population fits beside the per-system work when other processes do that work (popfits.py)
+    fits = FitRunner(min(2, jobs) if (jobs > 1 or client is not None) else 0)
 
     try:
-        with SurveyLock(out) as lock:
+        with SurveyLock(out) as lock, fits:
             store = SurveyStore(out)
             try:
                 store.check_manifest(_manifest(cat, cmap, base), sv.resume)
@@ -129,6 +132,7 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
                 todo = [g for g in selected if g.system not in done]
                 tasks = [(g, cmap, cat.units, replace(base, seed=system_seed(opts.seed, g.system)), cat.name,
                           debug) for g in todo]
+                tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(opts.seed))
                 bar = progress_bar(len(tasks), quiet=opts.quiet, stream=stream,
                                    skipped=len(selected) - len(todo))
                 failed = [0]
@@ -145,7 +149,8 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
                     client = None                     # closed by run_tasks
                 finally:
                     bar.close()
-                return _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv, transit)
+                return _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv, transit,
+                               fits=fits, tm=tm)
             except BaseException:
                 if store.count() == 0:                # nothing stored: leave no empty store behind
                     store.close()
@@ -158,9 +163,9 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
             client.close()
 
 
-def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, transit=None):
+def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, transit=None, fits=None, tm=None):
     from ..output.files import atomic_write, staged
-    from .hierarchical import eccentricity_population, tilt_population
+    from .hierarchical import start_eccentricity_population, tilt_population
     from .population import population_statistics
     from .predictions import prediction_population
     status = store.systems(ids)
@@ -198,26 +203,35 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
            "selection": {"where": where, "limit": limit}, "seed": int(seed),
            "options": {k: v for k, v in opts.as_dict().items() if k != "seed"},
            "seeds": "per system: SeedSequence([seed, crc32(system id)])", "counts": counts}
-    pop.update(population_statistics(ok_rows, pairs, seed=seed))
-    pop["predictions"] = prediction_population(ok_rows, pairs)
     ecc_samples, ecc_lp0, psi_samples, psi_lp0, ecc_info = _hier_inputs(store, ids, ok_rows)
     psi_interims = ecc_info.pop("psi_interims")
-    ecc_pop = eccentricity_population(ecc_samples, ecc_lp0, seed=int(seed) + 11,
-                                      interim_prior=ecc_info["interim"])
+    fits = fits or FitRunner(0)
+    ecc_samples, ecc_lp0, ecc_sub = subsample_objects(ecc_samples, ecc_lp0, int(seed) + 11)
+    ecc_done = start_eccentricity_population(ecc_samples, ecc_lp0, seed=int(seed) + 11,    # in the background
+                                             interim_prior=ecc_info["interim"],
+                                             submit=fits.submit if fits.processes else None)
+    pop.update(population_statistics(ok_rows, pairs, seed=seed))
+    pop["predictions"] = prediction_population(ok_rows, pairs)
+    ecc_pop = ecc_done()
     ecc_pop.update({k: v for k, v in ecc_info.items() if k != "interim"})
+    if ecc_sub:
+        ecc_pop["subsample"] = ecc_sub
     pop["eccentricity_population"] = ecc_pop
     if psi_samples:
+        psi_samples, psi_lp0, psi_sub = subsample_objects(psi_samples, psi_lp0, int(seed) + 13)
         pop["mutual_inclination_population"] = tilt_population(
             psi_samples, psi_lp0, seed=int(seed) + 13,
             interim_prior="; ".join(sorted(set(psi_interims))))
+        if psi_sub:
+            pop["mutual_inclination_population"]["subsample"] = psi_sub
     else:
         pop["mutual_inclination_population"] = {
             "rayleigh": None, "n_planets": 0,
             "reason": "no analysed posterior provides planet tilts 'psi' (direct Monte Carlo draws do not "
                       "sample mutual inclinations); the MCMC mode of transiting multis would"}
-    from .multiplicity_block import transit_multiplicity    # population answer beside the per-system fit
-    pop["transit_multiplicity"] = transit_multiplicity(selected, cmap, cat.columns, cat.units, transit, int(seed),
-                                                       pop["mutual_inclination_population"])
+    if tm is None:
+        tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(seed))
+    pop["transit_multiplicity"] = with_per_system_fit(tm.result(), pop["mutual_inclination_population"])
 
     with staged(out):           # every file of the run, or none
         write_csv(out / "systems.csv", header_of(ok_rows, _FIRST_SYSTEM_COLS), ok_rows)
