@@ -102,8 +102,7 @@ def _finite_json(x):
 
 
 def _summarise(sid, res):
-    doc = _finite_json(res.document)
-    res.document = doc
+    doc = res.document          # build_document already replaced NaN/inf by None
     post = res.posterior
     extra, pair_extra = _survey_extras(res)
     planets = []
