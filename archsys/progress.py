@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import sys
 
-__all__ = ["progress_bar"]
+__all__ = ["progress_bar", "peak_memory_mib"]
 
 
 def progress_bar(total, quiet=False, stream=None, skipped=0, desc="survey", unit="system"):
@@ -22,3 +22,18 @@ def progress_bar(total, quiet=False, stream=None, skipped=0, desc="survey", unit
     if skipped and not bar.disable:
         bar.set_postfix_str(f"{skipped} resumed", refresh=False)
     return bar
+
+
+def peak_memory_mib():
+    """(this process, largest finished child process) peak resident memory [MiB], or None where unknown.
+
+    ``getrusage`` maxima (kilobytes on Linux); children are counted once they have exited.
+    """
+    try:
+        import resource
+    except ImportError:  # pragma: no cover - not on POSIX
+        return None, None
+    scale = 1.0 / 1024.0 if sys.platform != "darwin" else 1.0 / (1024.0 * 1024.0)
+    own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * scale
+    kids = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss * scale
+    return own, (kids or None)

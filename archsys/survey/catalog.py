@@ -99,7 +99,11 @@ def _clean(x):
 _NOT_UTF8 = re.compile("[\udc80-\udcff]")
 
 
-def _read_csv(path: pathlib.Path, blob: bytes):
+#: Rows between two progress reports while a table is read.
+PROGRESS_ROWS = 20_000
+
+
+def _read_csv(path: pathlib.Path, blob: bytes, progress=None):
     """Header, columns, units and malformed rows of a CSV/TSV file.
 
     A line with a byte that is not UTF-8, or with fewer or more cells than the
@@ -158,6 +162,8 @@ def _read_csv(path: pathlib.Path, blob: bytes):
             raw[row] = rec
             rec = [""] * len(header)
         rows.append(rec)
+        if progress is not None and row % PROGRESS_ROWS == 0:
+            progress(PROGRESS_ROWS)
     cols = {h: [_clean(r[j]) for r in rows] for j, h in enumerate(header)}
     return header, cols, {}, (malformed, raw)
 
@@ -196,8 +202,12 @@ def _read_parquet(path: pathlib.Path):
     return header, cols, {}, []
 
 
-def read_catalog(path) -> Catalog:
+def read_catalog(path, progress=None) -> Catalog:
     """Read a catalogue file (CSV, ECSV, Parquet or VOTable; see module docstring).
+
+    ``progress(n)``, when given, is called with the number of rows read since
+    its last call (every few thousand rows of a CSV file; once for the other
+    formats).
 
     Raises
     ------
@@ -213,11 +223,14 @@ def read_catalog(path) -> Catalog:
     blob = read_input_bytes(path, "catalogue table", max_bytes=MAX_TABLE_BYTES)
     raw = {}
     if fmt == "csv":
-        header, cols, units, (malformed, raw) = _read_csv(p, blob)
+        header, cols, units, (malformed, raw) = _read_csv(p, blob, progress)
     elif fmt == "parquet":
         header, cols, units, malformed = _read_parquet(p)
     else:
         header, cols, units, malformed = _read_astropy(p, fmt)
+    if progress is not None:
+        n = len(cols[header[0]]) if header else 0
+        progress(n % PROGRESS_ROWS if fmt == "csv" else n)
     seen = set()
     for j, h in enumerate(header, start=1):
         if not h:

@@ -32,6 +32,7 @@ import json
 import math
 import os
 import pathlib
+import sys
 import time
 import zlib
 from dataclasses import replace
@@ -39,6 +40,7 @@ from dataclasses import replace
 import numpy as np
 
 from .. import __version__
+from ..progress import peak_memory_mib
 from ..errors import InputError
 from ..options import FAST_DRAWS, AnalysisOptions, SurveyOptions, split_keywords
 from .catalog import group_systems, read_catalog
@@ -59,6 +61,10 @@ _FIRST_PAIR_COLS = ("system", "inner", "outer", "period_ratio_median", "period_r
                     "hill_stable_probability", "near_resonance_probability", "amd_stable_probability",
                     "mutual_inclination_deg_median", "mutual_inclination_deg_lo", "mutual_inclination_deg_hi")
 REJECT_COLS = ("system", "planet", "row", "field", "column", "reason")
+
+
+#: Finished systems stored per transaction (at most half a second's worth are held back).
+STORE_GROUP = 64
 
 
 def system_seed(seed: int, system_id: str) -> int:
@@ -107,15 +113,20 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: exists and is not a directory")
     jobs = (os.cpu_count() or 1) if not opts.jobs else int(opts.jobs)
-    cat = read_catalog(catalog)
+    # progress from the first second: rows read, then systems grouped, analysed, the population steps
+    with progress_bar(None, quiet=opts.quiet, stream=stream, desc="reading", unit="row") as rbar:
+        cat = read_catalog(catalog, progress=rbar.update)
     cmap = bind(load_column_map(sv.columns) if sv.columns else canonical_map(cat.columns), cat)
     names = where_names(cmap, cat.columns)
     nodes = [parse_where(w, names) for w in sv.where]
     from .multiplicity_block import check_settings          # transit multiplicity (issue 14)
     transit = check_settings(transit, cmap, cat.columns)
     base = replace(opts, quiet=True, jobs=1)          # what every system is analysed with
-    groups, orphans = group_systems(cat, cmap.system)
-    selected = [g for g in groups if select(g, nodes)]
+    with progress_bar(None, quiet=opts.quiet, stream=stream, desc="grouping", unit="system") as gbar:
+        groups, orphans = group_systems(cat, cmap.system)
+        gbar.update(len(groups))
+        selected = [g for g in groups if select(g, nodes)]
+        gbar.set_postfix_str(f"{len(selected)} selected", refresh=False)
     if sv.limit is not None:
         selected = selected[:sv.limit]
     ids = {g.system for g in selected}
@@ -136,21 +147,42 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
                 bar = progress_bar(len(tasks), quiet=opts.quiet, stream=stream,
                                    skipped=len(selected) - len(todo))
                 failed = [0]
+                pending, last = [], [time.monotonic()]
+
+                def flush():
+                    if pending:
+                        store.put_many(pending)       # one transaction per group of finished systems
+                        bar.update(len(pending))
+                        pending.clear()
+                    last[0] = time.monotonic()
 
                 def sink(res):
-                    store.put(res)
+                    pending.append(res)
                     if res["status"] != "ok":
                         failed[0] += 1
                         bar.set_postfix_str(f"{failed[0]} rejected", refresh=False)
-                    bar.update(1)
+                    if len(pending) >= STORE_GROUP or time.monotonic() - last[0] > 0.5:
+                        flush()
 
                 try:
                     run_tasks(tasks, sink, jobs, client=client)
                     client = None                     # closed by run_tasks
                 finally:
-                    bar.close()
-                return _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv, transit,
-                               fits=fits, tm=tm)
+                    try:
+                        flush()                       # whatever finished is kept, also on an interrupt
+                    finally:
+                        bar.close()
+                with progress_bar(len(_FINISH_STEPS), quiet=opts.quiet, stream=stream, desc="population",
+                                  unit="step") as fbar:
+                    pop = _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv, transit,
+                                  fits=fits, tm=tm, step=lambda what: (fbar.set_postfix_str(what, refresh=False), fbar.update(1)))
+                if not opts.quiet:
+                    own, kids = peak_memory_mib()
+                    if own is not None:
+                        (stream or sys.stderr).write(
+                            f"archsys: survey: peak memory {own:.0f} MiB in this process"
+                            + (f", {kids:.0f} MiB in the largest worker" if kids else "") + "\n")
+                return pop
             except BaseException:
                 if store.count() == 0:                # nothing stored: leave no empty store behind
                     store.close()
@@ -163,7 +195,14 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
             client.close()
 
 
-def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, transit=None, fits=None, tm=None):
+#: The steps of _finish shown on the progress line.
+_FINISH_STEPS = ("tables read back", "statistics", "eccentricity fits", "tilt fit", "transit multiplicity",
+                 "files written")
+
+
+def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, transit=None, fits=None, tm=None,
+            step=None):
+    step = step or (lambda what: None)
     from ..output.files import atomic_write, staged
     from .hierarchical import start_eccentricity_population, tilt_population
     from .population import population_statistics
@@ -204,6 +243,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
            "options": {k: v for k, v in opts.as_dict().items() if k != "seed"},
            "seeds": "per system: SeedSequence([seed, crc32(system id)])", "counts": counts}
     ecc_samples, ecc_lp0, psi_samples, psi_lp0, ecc_info = _hier_inputs(store, ids, ok_rows)
+    step(_FINISH_STEPS[0])
     psi_interims = ecc_info.pop("psi_interims")
     fits = fits or FitRunner(0)
     ecc_samples, ecc_lp0, ecc_sub = subsample_objects(ecc_samples, ecc_lp0, int(seed) + 11)
@@ -212,7 +252,9 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
                                              submit=fits.submit if fits.processes else None)
     pop.update(population_statistics(ok_rows, pairs, seed=seed))
     pop["predictions"] = prediction_population(ok_rows, pairs)
+    step(_FINISH_STEPS[1])
     ecc_pop = ecc_done()
+    step(_FINISH_STEPS[2])
     ecc_pop.update({k: v for k, v in ecc_info.items() if k != "interim"})
     if ecc_sub:
         ecc_pop["subsample"] = ecc_sub
@@ -229,9 +271,11 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
             "rayleigh": None, "n_planets": 0,
             "reason": "no analysed posterior provides planet tilts 'psi' (direct Monte Carlo draws do not "
                       "sample mutual inclinations); the MCMC mode of transiting multis would"}
+    step(_FINISH_STEPS[3])
     if tm is None:
         tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(seed))
     pop["transit_multiplicity"] = with_per_system_fit(tm.result(), pop["mutual_inclination_population"])
+    step(_FINISH_STEPS[4])
 
     with staged(out):           # every file of the run, or none
         write_csv(out / "systems.csv", header_of(ok_rows, _FIRST_SYSTEM_COLS), ok_rows)
@@ -242,6 +286,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
             from .figures import survey_figures
             survey_figures(pop, ok_rows, pairs, planets, out / "figures")
         atomic_write(out / "population.json", json.dumps(pop, indent=2, allow_nan=False) + "\n")
+    step(_FINISH_STEPS[5])
     return pop
 
 

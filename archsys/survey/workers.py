@@ -25,7 +25,7 @@ from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
 __all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "dask_client",
-           "run_tasks", "SAMPLES_PER_PLANET", "MAX_BATCH"]
+           "run_tasks", "SAMPLES_PER_PLANET", "MAX_BATCH", "DASK_BATCH"]
 
 #: Posterior samples per planet kept for the hierarchical inference.
 SAMPLES_PER_PLANET = 100
@@ -270,12 +270,24 @@ def dask_client(address):
                          f"({' '.join(str(exc).split())})") from None
 
 
+#: Systems per Dask task: enough to amortise the scheduler's per-task cost (about a millisecond) over
+#: fast-mode systems, few enough that every worker stays busy to the end.
+DASK_BATCH = 64
+
+
+def _dask_batches(tasks, n_workers):
+    size = max(1, min(DASK_BATCH, len(tasks) // (8 * max(1, n_workers))))
+    return [tasks[i:i + size] for i in range(0, len(tasks), size)]
+
+
 def _run_dask(tasks, sink, client):
     from distributed import as_completed
     try:
-        futures = client.map(process_system, tasks, pure=False)
+        n_workers = len(client.scheduler_info().get("workers", {})) or 1
+        futures = client.map(process_batch, _dask_batches(tasks, n_workers), pure=False)
         for fut in as_completed(futures):
-            sink(fut.result())
+            for r in fut.result():
+                sink(r)
             fut.release()
     finally:
         client.close()
