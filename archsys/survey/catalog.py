@@ -164,7 +164,10 @@ def _read_csv(path: pathlib.Path, blob: bytes, progress=None):
         rows.append(rec)
         if progress is not None and row % PROGRESS_ROWS == 0:
             progress(PROGRESS_ROWS)
-    cols = {h: [_clean(r[j]) for r in rows] for j, h in enumerate(header)}
+    # CSV cells are always text: _clean's string branch, column by column (the hot loop of a large table)
+    missing = MISSING_TOKENS
+    cols = {h: [None if (c := v.strip()) in missing else c for v in col]
+            for h, col in zip(header, zip(*rows) if rows else [() for _ in header])}
     return header, cols, {}, (malformed, raw)
 
 
@@ -254,7 +257,9 @@ def group_systems(cat: Catalog, system_col: str):
     ids = cat.cells[system_col]
     bad = dict(cat.malformed)
     col = cat.columns.index(system_col) if system_col in cat.columns else None
-    for i, sid in enumerate(ids):
+    names = cat.columns
+    cells_of_row = zip(*(cat.cells[c] for c in names))       # row dicts built once, column by column
+    for i, (sid, vals) in enumerate(zip(ids, cells_of_row)):
         if i + 1 in bad:
             # a row that could not be read still names its system when that cell is clean:
             # the system is then rejected as a whole instead of being analysed without the row
@@ -268,7 +273,7 @@ def group_systems(cat: Catalog, system_col: str):
             orphans.append(i + 1)
             continue
         sid = str(sid) if not isinstance(sid, float) or not sid.is_integer() else str(int(sid))
-        groups.setdefault(sid, []).append((i + 1, cat.row(i)))
+        groups.setdefault(sid, []).append((i + 1, dict(zip(names, vals))))
     return [SystemRows(s, groups[s], broken.get(s, [])) for s in sorted(groups)], orphans
 
 

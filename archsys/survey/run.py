@@ -114,7 +114,7 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
         raise InputError(f"--out {out}: exists and is not a directory")
     jobs = (os.cpu_count() or 1) if not opts.jobs else int(opts.jobs)
     # progress from the first second: rows read, then systems grouped, analysed, the population steps
-    with progress_bar(None, quiet=opts.quiet, stream=stream, desc="reading", unit="row") as rbar:
+    with progress_bar(None, quiet=opts.quiet, stream=stream, desc="reading", unit="row", delay=0.5) as rbar:
         cat = read_catalog(catalog, progress=rbar.update)
     cmap = bind(load_column_map(sv.columns) if sv.columns else canonical_map(cat.columns), cat)
     names = where_names(cmap, cat.columns)
@@ -122,7 +122,8 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
     from .multiplicity_block import check_settings          # transit multiplicity (issue 14)
     transit = check_settings(transit, cmap, cat.columns)
     base = replace(opts, quiet=True, jobs=1)          # what every system is analysed with
-    with progress_bar(None, quiet=opts.quiet, stream=stream, desc="grouping", unit="system") as gbar:
+    with progress_bar(None, quiet=opts.quiet, stream=stream, desc="grouping", unit="system",
+                      delay=0.5) as gbar:
         groups, orphans = group_systems(cat, cmap.system)
         gbar.update(len(groups))
         selected = [g for g in groups if select(g, nodes)]
@@ -141,6 +142,11 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
                 store.check_manifest(_manifest(cat, cmap, base), sv.resume)
                 done = store.done()
                 todo = [g for g in selected if g.system not in done]
+                fast = not base.uses_mcmc           # direct draws only: short, even tasks
+                if not fast:
+                    # largest systems first (longest-processing-time-first scheduling, Graham 1969): the slow
+                    # joint-engine systems do not end the run alone; results do not depend on the order
+                    todo = sorted(todo, key=lambda g: -g.n_planets)
                 tasks = [(g, cmap, cat.units, replace(base, seed=system_seed(opts.seed, g.system)), cat.name,
                           debug) for g in todo]
                 tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(opts.seed))
@@ -165,7 +171,7 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
                         flush()
 
                 try:
-                    run_tasks(tasks, sink, jobs, client=client)
+                    run_tasks(tasks, sink, jobs, client=client, batch=None if fast else 1)
                     client = None                     # closed by run_tasks
                 finally:
                     try:
@@ -253,12 +259,6 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
     pop.update(population_statistics(ok_rows, pairs, seed=seed))
     pop["predictions"] = prediction_population(ok_rows, pairs)
     step(_FINISH_STEPS[1])
-    ecc_pop = ecc_done()
-    step(_FINISH_STEPS[2])
-    ecc_pop.update({k: v for k, v in ecc_info.items() if k != "interim"})
-    if ecc_sub:
-        ecc_pop["subsample"] = ecc_sub
-    pop["eccentricity_population"] = ecc_pop
     if psi_samples:
         psi_samples, psi_lp0, psi_sub = subsample_objects(psi_samples, psi_lp0, int(seed) + 13)
         pop["mutual_inclination_population"] = tilt_population(
@@ -271,7 +271,15 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
             "rayleigh": None, "n_planets": 0,
             "reason": "no analysed posterior provides planet tilts 'psi' (direct Monte Carlo draws do not "
                       "sample mutual inclinations); the MCMC mode of transiting multis would"}
-    step(_FINISH_STEPS[3])
+    step(_FINISH_STEPS[3])                  # the tilt fit ran here while the eccentricity fits ran beside
+    ecc_pop = ecc_done()
+    step(_FINISH_STEPS[2])
+    ecc_pop.update({k: v for k, v in ecc_info.items() if k != "interim"})
+    if ecc_sub:
+        ecc_pop["subsample"] = ecc_sub
+    pop["eccentricity_population"] = ecc_pop
+    # population.json keeps its key order whichever fit finished first
+    pop["mutual_inclination_population"] = pop.pop("mutual_inclination_population")
     if tm is None:
         tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(seed))
     pop["transit_multiplicity"] = with_per_system_fit(tm.result(), pop["mutual_inclination_population"])
