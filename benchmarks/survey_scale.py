@@ -57,11 +57,12 @@ print("@@" + json.dumps({"rc": rc, "wall_s": wall,
 """
 
 
-def export_tree(ref, into):
-    """A clean copy of ``ref`` (tag or commit) of this repository in ``into``; returns its root."""
+def export_tree(ref, into, repo=None):
+    """A clean copy of ``ref`` (tag or commit) of the repository ``repo`` (default: this checkout) in ``into``."""
     into = pathlib.Path(into)
     into.mkdir(parents=True, exist_ok=True)
-    arc = subprocess.run(["git", "-C", str(ROOT), "archive", "--format=tar", ref], capture_output=True, check=True)
+    arc = subprocess.run(["git", "-C", str(repo or ROOT), "archive", "--format=tar", ref], capture_output=True,
+                         check=True)
     subprocess.run(["tar", "-x", "-C", str(into)], input=arc.stdout, check=True)
     return into
 
@@ -161,7 +162,7 @@ def dask_vs_local(tree, n, work):
             "dask_localcluster_vs_local": remote["wall_s"] / local["wall_s"]}
 
 
-def run(quick=False, only=None, v010="v0.1.0", before=BEFORE, log=None):
+def run(quick=False, only=None, v010="v0.1.0", before=BEFORE, log=None, repo=None):
     oec = next((p for p in OEC_CANDIDATES if p.exists()), None)
     sizes = (100, 400) if quick else (500, 2000)
     work = pathlib.Path(tempfile.mkdtemp(prefix="archsys-scale-data-"))
@@ -172,7 +173,7 @@ def run(quick=False, only=None, v010="v0.1.0", before=BEFORE, log=None):
         for label, ref in (("v010", v010), ("before", before)):
             if ref:
                 try:
-                    refs[label] = export_tree(ref, work / label)
+                    refs[label] = export_tree(ref, work / label, repo)
                 except (subprocess.CalledProcessError, OSError) as exc:
                     out[f"{label}_note"] = f"cannot export {ref}: {exc}"
         steps = {
@@ -211,13 +212,14 @@ def main(argv=None):
                     choices=["fast_synthetic", "oec_fast", "full_transit_multis", "full_rv", "dask"])
     ap.add_argument("--v010", default="v0.1.0", help="git ref of the v0.1.0 baseline ('' to skip)")
     ap.add_argument("--before", default=BEFORE, help="git ref of the 'before' reference ('' to skip)")
+    ap.add_argument("--repo", default=None, help="git checkout holding those refs (default: this one)")
     args = ap.parse_args(argv)
 
     def log(k, v):
         if not args.json:
             print(f"{k:<48} {v:.4g}" if isinstance(v, float) else f"{k:<48} {v}", flush=True)
 
-    res = run(args.quick, args.only, args.v010, args.before, log=log)
+    res = run(args.quick, args.only, args.v010, args.before, log=log, repo=args.repo)
     if args.json:
         print(json.dumps(res, indent=2))
     return 0
