@@ -162,8 +162,8 @@ def dask_vs_local(tree, n, work):
             "dask_localcluster_vs_local": remote["wall_s"] / local["wall_s"]}
 
 
-def run(quick=False, only=None, v010="v0.1.0", before=BEFORE, log=None, repo=None):
-    oec = next((p for p in OEC_CANDIDATES if p.exists()), None)
+def run(quick=False, only=None, v010="v0.1.0", before=BEFORE, log=None, repo=None, oec=None):
+    oec = pathlib.Path(oec) if oec else next((p for p in OEC_CANDIDATES if p.exists()), None)
     sizes = (100, 400) if quick else (500, 2000)
     work = pathlib.Path(tempfile.mkdtemp(prefix="archsys-scale-data-"))
     out = {}
@@ -213,13 +213,14 @@ def main(argv=None):
     ap.add_argument("--v010", default="v0.1.0", help="git ref of the v0.1.0 baseline ('' to skip)")
     ap.add_argument("--before", default=BEFORE, help="git ref of the 'before' reference ('' to skip)")
     ap.add_argument("--repo", default=None, help="git checkout holding those refs (default: this one)")
+    ap.add_argument("--oec", default=None, help="the open catalogue extract (default: tests/data, else ../shared/data)")
     args = ap.parse_args(argv)
 
     def log(k, v):
         if not args.json:
             print(f"{k:<48} {v:.4g}" if isinstance(v, float) else f"{k:<48} {v}", flush=True)
 
-    res = run(args.quick, args.only, args.v010, args.before, log=log, repo=args.repo)
+    res = run(args.quick, args.only, args.v010, args.before, log=log, repo=args.repo, oec=args.oec)
     if args.json:
         print(json.dumps(res, indent=2))
     return 0
