@@ -34,13 +34,14 @@ __all__ = ["MAX_FIT_OBJECTS", "subsample_objects", "FitRunner"]
 MAX_FIT_OBJECTS = 2000
 
 
-def subsample_objects(samples, log_p0, seed, max_objects=MAX_FIT_OBJECTS, tag=0x5AB5):
+def subsample_objects(samples, log_p0, seed, max_objects=None, tag=0x5AB5):
     """(samples, log_p0, info): at most ``max_objects`` objects, a seeded random subset in input order.
 
     ``info`` is None when nothing is dropped, else ``{"objects_available", "objects_used", "seed",
     "effect"}`` (see module docstring).
     """
     n = len(samples)
+    max_objects = MAX_FIT_OBJECTS if max_objects is None else int(max_objects)
     if n <= max_objects:
         return samples, log_p0, None
     rng = np.random.default_rng(np.random.SeedSequence([int(seed) % 2 ** 63, tag]))
