@@ -276,12 +276,10 @@ def simulate_population(n_systems, laws=None, seed=0, truth=False):
 
 
 def _fmt(col):
-    if col.dtype.kind in "US":
-        return col.astype(str)
-    if col.dtype.kind in "iub":
-        return col.astype(str)
-    s = np.char.mod("%.10g", col)
-    return np.where(np.isfinite(col), s, "")
+    """Cells of one column as text: integers and names as they are, numbers as %.10g, NaN empty."""
+    if col.dtype.kind in "USiub":
+        return col.astype(str).tolist()
+    return ["" if v != v else "%.10g" % v for v in col.tolist()]
 
 
 def write_population(path, n_systems, laws=None, seed=0, truth=False):
@@ -308,12 +306,10 @@ def write_population(path, n_systems, laws=None, seed=0, truth=False):
                 fh.write(",".join(names) + "\n")
                 for cols in simulate_population(n_systems, laws, seed, truth):
                     text = [_fmt(cols[c]) for c in names]
-                    lines = text[0]
-                    for t in text[1:]:
-                        lines = np.char.add(np.char.add(lines, ","), t)
-                    if lines.size:
-                        fh.write("\n".join(lines.tolist()) + "\n")
-                    rows += lines.size
+                    n = len(text[0])
+                    if n:
+                        fh.write("\n".join(map(",".join, zip(*text))) + "\n")
+                    rows += n
                     planets_transiting += int(cols["transiting"].sum())
                     systems.update(np.unique(cols["system"]).tolist())
         else:
