@@ -37,10 +37,13 @@ import sys
 import tempfile
 import time
 
-ROOT = pathlib.Path(__file__).resolve().parents[1]
-OEC_CANDIDATES = (ROOT / "tests" / "data" / "open_exoplanet_catalogue_planets.csv",
-                  ROOT.parent / "shared" / "data" / "open_exoplanet_catalogue_planets.csv")
-COLUMNS = ROOT / "tests" / "data" / "oec_columns.toml"
+if __package__ in (None, ""):             # python benchmarks/survey_scale.py: make the repository importable
+    sys.path.insert(0, str(pathlib.Path(__file__).resolve().parents[1]))
+    __package__ = "benchmarks"
+
+from .paths import CATALOG, COLUMNS, REPO  # noqa: E402
+
+ROOT = REPO
 #: The main branch when issue 23 was taken up (the "today" of its full-mode target).
 BEFORE = "f212a12"
 
@@ -163,7 +166,7 @@ def dask_vs_local(tree, n, work):
 
 
 def run(quick=False, only=None, v010="v0.1.0", before=BEFORE, log=None, repo=None, oec=None):
-    oec = pathlib.Path(oec) if oec else next((p for p in OEC_CANDIDATES if p.exists()), None)
+    oec = pathlib.Path(oec) if oec else (CATALOG if CATALOG.exists() else None)
     sizes = (100, 400) if quick else (500, 2000)
     work = pathlib.Path(tempfile.mkdtemp(prefix="archsys-scale-data-"))
     out = {}
@@ -204,6 +207,11 @@ def run(quick=False, only=None, v010="v0.1.0", before=BEFORE, log=None, repo=Non
     return out
 
 
+def bench_survey_scale():
+    """Entry of ``python -m benchmarks`` (quick sizes; the full run is ``python -m benchmarks.survey_scale``)."""
+    return run(quick=True)
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(prog="python -m benchmarks.survey_scale", description=__doc__.split("\n")[0])
     ap.add_argument("--json", action="store_true")
@@ -213,7 +221,7 @@ def main(argv=None):
     ap.add_argument("--v010", default="v0.1.0", help="git ref of the v0.1.0 baseline ('' to skip)")
     ap.add_argument("--before", default=BEFORE, help="git ref of the 'before' reference ('' to skip)")
     ap.add_argument("--repo", default=None, help="git checkout holding those refs (default: this one)")
-    ap.add_argument("--oec", default=None, help="the open catalogue extract (default: tests/data, else ../shared/data)")
+    ap.add_argument("--oec", default=None, help="the open catalogue extract (default: tests/data/oec)")
     args = ap.parse_args(argv)
 
     def log(k, v):

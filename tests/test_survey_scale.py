@@ -7,6 +7,7 @@ common practice for reproducible pipelines.
 """
 import io
 import math
+import pathlib
 
 import numpy as np
 import pytest
@@ -129,3 +130,18 @@ def test_grouped_store_writes_whole_systems_only(tmp_path):
     store.put_many([ok])
     assert store.done() == {"A"}
     store.close()
+
+
+OEC = pathlib.Path(__file__).parent / "data" / "oec" / "open_exoplanet_catalogue_planets.csv"
+OEC_COLUMNS = pathlib.Path(__file__).parent / "data" / "oec_columns.toml"
+
+
+@pytest.mark.slow
+def test_open_catalogue_batched_workers_equal_one_at_a_time(tmp_path):
+    # the open catalogue extract (Rein 2012, arXiv:1211.7121; tests/data/oec): one system at a time in
+    # this process against batches of systems on two worker processes with the population fits beside
+    kw = dict(columns=str(OEC_COLUMNS), where=["n_planets>=2"], limit=24, mode="fast", figures=False,
+              quiet=True, seed=9)
+    run_survey(OEC, tmp_path / "one", jobs=1, **kw)
+    run_survey(OEC, tmp_path / "batched", jobs=2, **kw)
+    assert _outputs(tmp_path / "batched") == _outputs(tmp_path / "one")
