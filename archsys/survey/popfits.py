@@ -127,7 +127,7 @@ def transit_block(groups, cmap, columns, units, transit, seed):
 
 def with_per_system_fit(block, per_system_fit):
     """``block`` (from :func:`transit_block`) with its side-by-side naming the survey's per-system tilt fit."""
-    from ..output.document import _finite
+    from ..output.json_document import _finite
     from .multiplicity_block import _side_by_side
     sbs = block.get("side_by_side") or {}
     sigma = (sbs.get("transit_multiplicity") or {}).get("sigma_deg")
