@@ -289,6 +289,18 @@ def _cmd_cite(args):
         docs += d if isinstance(d, list) else [d]
     out = [render_bib(d) if args.bib else render_citations(d) for d in docs]
     _write_stdout("\n".join(out))
+
+
+def _cmd_simulate(args):
+    from .survey.synthetic import PopulationLaws, write_population
+    laws = PopulationLaws(planets=args.planets, mean_planets=args.mean_planets, max_planets=args.max_planets,
+                          ecc_sigma=args.ecc_sigma, incl_sigma_deg=args.incl_sigma_deg,
+                          ecc_measured=args.ecc_measured, mass_measured=args.mass_measured,
+                          only_transiting=args.only_transiting)
+    res = write_population(args.out, args.systems, laws, seed=args.seed, truth=args.truth)
+    if not args.quiet:
+        _note(f"simulate: wrote {res['rows']} planets of {res['systems']} invented systems "
+              f"({res['planets_transiting']} transiting) to {res['path']}")
     return 0
 
 
@@ -382,6 +394,29 @@ def build_parser():
     c.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(c)
     c.set_defaults(func=_cmd_cite)
+
+    m = sub.add_parser("simulate", help="write a catalogue of invented systems drawn from population laws")
+    m.add_argument("out", metavar="OUT", help="catalogue to write (.csv or .parquet; canonical survey columns)")
+    m.add_argument("--systems", type=int, required=True, metavar="N", help="number of systems")
+    m.add_argument("--seed", type=int, default=0)
+    m.add_argument("--planets", type=int, default=None, metavar="K",
+                   help="exactly K planets per system (default: truncated Poisson, see --mean-planets)")
+    m.add_argument("--mean-planets", type=float, default=2.5, metavar="X",
+                   help="Poisson mean of the number of planets (before truncation to 1..--max-planets)")
+    m.add_argument("--max-planets", type=int, default=8, metavar="K")
+    m.add_argument("--ecc-sigma", type=float, default=0.04, metavar="S",
+                   help="Rayleigh sigma of eccentricities (default 0.04)")
+    m.add_argument("--incl-sigma-deg", type=float, default=2.0, metavar="DEG",
+                   help="Rayleigh sigma of planet tilts about each system's plane (default 2 deg)")
+    m.add_argument("--ecc-measured", type=float, default=0.2, metavar="F",
+                   help="fraction of planets whose eccentricity is listed (default 0.2)")
+    m.add_argument("--mass-measured", type=float, default=0.5, metavar="F",
+                   help="fraction of planets whose mass is listed (default 0.5)")
+    m.add_argument("--only-transiting", action="store_true",
+                   help="list only the planets that transit an observer on the z axis")
+    m.add_argument("--truth", action="store_true", help="add the true values as true_* columns")
+    m.add_argument("--quiet", action="store_true")
+    m.set_defaults(func=_cmd_simulate)
 
     q = sub.add_parser("plot", help="redraw figures from a saved result (no resampling)")
     q.add_argument("result", help="chains file (.npz) written by `archsys report --out`")

@@ -99,7 +99,11 @@ def _clean(x):
 _NOT_UTF8 = re.compile("[\udc80-\udcff]")
 
 
-def _read_csv(path: pathlib.Path, blob: bytes):
+#: Rows between two progress reports while a table is read.
+PROGRESS_ROWS = 20_000
+
+
+def _read_csv(path: pathlib.Path, blob: bytes, progress=None):
     """Header, columns, units and malformed rows of a CSV/TSV file.
 
     A line with a byte that is not UTF-8, or with fewer or more cells than the
@@ -158,7 +162,12 @@ def _read_csv(path: pathlib.Path, blob: bytes):
             raw[row] = rec
             rec = [""] * len(header)
         rows.append(rec)
-    cols = {h: [_clean(r[j]) for r in rows] for j, h in enumerate(header)}
+        if progress is not None and row % PROGRESS_ROWS == 0:
+            progress(PROGRESS_ROWS)
+    # CSV cells are always text: _clean's string branch, column by column (the hot loop of a large table)
+    missing = MISSING_TOKENS
+    cols = {h: [None if (c := v.strip()) in missing else c for v in col]
+            for h, col in zip(header, zip(*rows) if rows else [() for _ in header])}
     return header, cols, {}, (malformed, raw)
 
 
@@ -196,8 +205,12 @@ def _read_parquet(path: pathlib.Path):
     return header, cols, {}, []
 
 
-def read_catalog(path) -> Catalog:
+def read_catalog(path, progress=None) -> Catalog:
     """Read a catalogue file (CSV, ECSV, Parquet or VOTable; see module docstring).
+
+    ``progress(n)``, when given, is called with the number of rows read since
+    its last call (every few thousand rows of a CSV file; once for the other
+    formats).
 
     Raises
     ------
@@ -213,11 +226,14 @@ def read_catalog(path) -> Catalog:
     blob = read_input_bytes(path, "catalogue table", max_bytes=MAX_TABLE_BYTES)
     raw = {}
     if fmt == "csv":
-        header, cols, units, (malformed, raw) = _read_csv(p, blob)
+        header, cols, units, (malformed, raw) = _read_csv(p, blob, progress)
     elif fmt == "parquet":
         header, cols, units, malformed = _read_parquet(p)
     else:
         header, cols, units, malformed = _read_astropy(p, fmt)
+    if progress is not None:
+        n = len(cols[header[0]]) if header else 0
+        progress(n % PROGRESS_ROWS if fmt == "csv" else n)
     seen = set()
     for j, h in enumerate(header, start=1):
         if not h:
@@ -241,7 +257,9 @@ def group_systems(cat: Catalog, system_col: str):
     ids = cat.cells[system_col]
     bad = dict(cat.malformed)
     col = cat.columns.index(system_col) if system_col in cat.columns else None
-    for i, sid in enumerate(ids):
+    names = cat.columns
+    cells_of_row = zip(*(cat.cells[c] for c in names))       # row dicts built once, column by column
+    for i, (sid, vals) in enumerate(zip(ids, cells_of_row)):
         if i + 1 in bad:
             # a row that could not be read still names its system when that cell is clean:
             # the system is then rejected as a whole instead of being analysed without the row
@@ -255,7 +273,7 @@ def group_systems(cat: Catalog, system_col: str):
             orphans.append(i + 1)
             continue
         sid = str(sid) if not isinstance(sid, float) or not sid.is_integer() else str(int(sid))
-        groups.setdefault(sid, []).append((i + 1, cat.row(i)))
+        groups.setdefault(sid, []).append((i + 1, dict(zip(names, vals))))
     return [SystemRows(s, groups[s], broken.get(s, [])) for s in sorted(groups)], orphans
 
 

@@ -129,25 +129,33 @@ class SurveyStore:
 
     def put(self, res: dict):
         """Store one system's result (one transaction; replaces an older entry)."""
-        sid = res["system"]
+        self.put_many([res])
+
+    def put_many(self, results):
+        """Store several systems' results in one transaction (whole systems only, as :meth:`put`)."""
         with self._tx():
-            for t in ("systems", "planets", "pairs", "rejects"):
-                self.db.execute(f"DELETE FROM {t} WHERE system = ?", (sid,))
-            self.db.execute("INSERT INTO systems VALUES (?, ?, ?, ?, ?, ?)",
-                            (sid, res["status"], int(res["n_planets"]), res.get("error_kind"),
-                             _dumps(res["system_row"]) if res.get("system_row") is not None else None,
-                             _dumps(res["document"]) if res.get("document") is not None else None))
-            for i, p in enumerate(res.get("planets", [])):
-                self.db.execute("INSERT INTO planets VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
-                                (sid, i, p["row"]["planet"], _dumps(p["row"]), p.get("ecc_basis"),
-                                 p.get("ecc_interim"), pack_samples(p.get("ecc_samples")),
-                                 p.get("psi_interim"), pack_samples(p.get("psi_samples"))))
-            for i, row in enumerate(res.get("pairs", [])):
-                self.db.execute("INSERT INTO pairs VALUES (?, ?, ?)", (sid, i, _dumps(row)))
-            for i, r in enumerate(res.get("rejects", [])):
-                self.db.execute("INSERT INTO rejects VALUES (?, ?, ?, ?, ?, ?, ?)",
-                                (sid, i, r.get("planet", ""), str(r.get("row", "")), r.get("field", ""),
-                                 r.get("column", ""), r["reason"]))
+            for res in results:
+                self._put(res)
+
+    def _put(self, res):
+        sid = res["system"]
+        for t in ("systems", "planets", "pairs", "rejects"):
+            self.db.execute(f"DELETE FROM {t} WHERE system = ?", (sid,))
+        self.db.execute("INSERT INTO systems VALUES (?, ?, ?, ?, ?, ?)",
+                        (sid, res["status"], int(res["n_planets"]), res.get("error_kind"),
+                         _dumps(res["system_row"]) if res.get("system_row") is not None else None,
+                         _dumps(res["document"]) if res.get("document") is not None else None))
+        for i, p in enumerate(res.get("planets", [])):
+            self.db.execute("INSERT INTO planets VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                            (sid, i, p["row"]["planet"], _dumps(p["row"]), p.get("ecc_basis"),
+                             p.get("ecc_interim"), pack_samples(p.get("ecc_samples")),
+                             p.get("psi_interim"), pack_samples(p.get("psi_samples"))))
+        for i, row in enumerate(res.get("pairs", [])):
+            self.db.execute("INSERT INTO pairs VALUES (?, ?, ?)", (sid, i, _dumps(row)))
+        for i, r in enumerate(res.get("rejects", [])):
+            self.db.execute("INSERT INTO rejects VALUES (?, ?, ?, ?, ?, ?, ?)",
+                            (sid, i, r.get("planet", ""), str(r.get("row", "")), r.get("field", ""),
+                             r.get("column", ""), r["reason"]))
 
     def systems(self, ids=None):
         """(system, status, n_planets, error_kind, row) sorted by system id."""
