@@ -379,8 +379,6 @@ def read_system(path) -> System:
         raise InputError(f"{src}: not UTF-8 text (byte {exc.start}); save the file as UTF-8") from None
     if "\x00" in text:
         raise InputError(f"{src}: contains NUL bytes; not a text system file")
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{src}: not valid TOML: {exc}") from None
+    from ..limits import parse_toml
+    data = parse_toml(text, src, "system file")
     return build_system(data, source=src, sha256=hashlib.sha256(blob).hexdigest())

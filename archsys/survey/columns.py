@@ -273,12 +273,12 @@ def load_column_map(path) -> ColumnMap:
     """Read and validate a column-map TOML file (format in the module docstring)."""
     src = str(path)
     blob = read_input_bytes(path, "column map (.toml)", allow_empty=True)
+    from ..limits import parse_toml
     try:
-        data = tomllib.loads(blob.decode("utf-8"))
+        text = blob.decode("utf-8")
     except UnicodeDecodeError:
         raise InputError(f"{src}: not UTF-8 text") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{src}: not valid TOML: {exc}") from None
+    data = parse_toml(text, src, "column map")
     for k in data:
         if k not in ("keys", "aliases", "star", "planet", "notes"):
             raise _err(src, "", f"unknown table [{k}]{_suggest(k, ('keys', 'aliases', 'star', 'planet'))}")
