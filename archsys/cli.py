@@ -364,7 +364,8 @@ def build_parser():
 
 def _one_line_warnings(message, category, filename, lineno, file=None, line=None):
     from .output.files import printable
-    sys.stderr.write(f"archsys: warning: {printable(' '.join(str(message).split()))}\n")
+    from .limits import clip
+    sys.stderr.write(f"archsys: warning: {printable(clip(' '.join(str(message).split()), 300))}\n")
 
 
 class Terminated(KeyboardInterrupt):

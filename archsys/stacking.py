@@ -119,14 +119,15 @@ def collect_documents(sources, options=None, where=()):
             docs.append(doc)
         elif path.suffix.lower() == ".json":
             from .model.inputfile import read_input_bytes
+            from .limits import parse_json
+            from .output.doc_check import check_document
             try:
-                data = json.loads(read_input_bytes(path, "report document").decode("utf-8"))
-            except (ValueError, UnicodeDecodeError) as exc:
+                text = read_input_bytes(path, "report document").decode("utf-8")
+            except UnicodeDecodeError as exc:
                 raise InputError(f"{path}: not a JSON report document ({exc})") from None
+            data = parse_json(text, str(path), "report document")
             for d in (data if isinstance(data, list) else [data]):
-                if not isinstance(d, dict) or "planets" not in d:
-                    raise InputError(f"{path}: not an archsys report document (no 'planets')")
-                docs.append(d)
+                docs.append(check_document(d, str(path)))
         else:
             files.append(path)
     if files:

@@ -14,6 +14,7 @@ import astropy.units as u
 import numpy as np
 
 from ..compat import tomllib
+from ..limits import clip
 from ..errors import InputError
 from .inputfile import read_input_bytes
 from .quantity import Measurement
@@ -108,7 +109,7 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
             _convert(1.0, unit_str, fld)
         except (ValueError, u.UnitsError, TypeError, ArithmeticError):
             want = fld.unit or "a dimensionless unit"
-            problems.add(loc, f"unit '{unit_str}' does not convert to {want}")
+            problems.add(loc, f"unit '{clip(unit_str)}' does not convert to {want}")
             return None
     for k, v in spec.items():
         if not _is_number(v):
@@ -175,7 +176,7 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
         if kind != "exact" and minus == 0 and plus == 0:
             kind = "exact"
         if not all(math.isfinite(x) for x in (value, minus, plus)):
-            problems.add(loc, f"value or error overflows when converted from '{unit_str}' to {fld.unit}")
+            problems.add(loc, f"value or error overflows when converted from '{clip(unit_str)}' to {fld.unit}")
             return None
         if not _in_support(value, fld, problems, loc, "value"):
             return None
@@ -188,7 +189,7 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
     kind = lims[0]
     limit = conv(spec[kind])
     if not math.isfinite(limit):
-        problems.add(loc, f"limit overflows when converted from '{unit_str}' to {fld.unit}")
+        problems.add(loc, f"limit overflows when converted from '{clip(unit_str)}' to {fld.unit}")
         return None
     if not _in_support(limit, fld, problems, loc, kind):
         return None

@@ -84,6 +84,7 @@ from dataclasses import dataclass, field
 import astropy.units as u
 
 from ..compat import tomllib
+from ..limits import clip
 from ..errors import InputError
 from ..model.inputfile import read_input_bytes
 from ..model.schema import PLANET_FIELDS, STAR_FIELDS
@@ -263,10 +264,10 @@ def _check_unit(src, where, unit, fld):
     try:
         q = u.Unit(unit)
     except (ValueError, TypeError):
-        raise _err(src, f"{where} unit", f"'{unit}' is not a unit astropy understands") from None
+        raise _err(src, f"{where} unit", f"'{clip(unit)}' is not a unit astropy understands") from None
     want = u.Unit(fld.unit) if fld is not None and fld.unit else u.dimensionless_unscaled
     if fld is None or not q.is_equivalent(want):
-        raise _err(src, f"{where} unit", f"'{unit}' does not convert to {fld.unit if fld and fld.unit else 'a dimensionless unit'}")
+        raise _err(src, f"{where} unit", f"'{clip(unit)}' does not convert to {fld.unit if fld and fld.unit else 'a dimensionless unit'}")
 
 
 def load_column_map(path) -> ColumnMap:

@@ -263,20 +263,17 @@ def dask_client(address):
     except ImportError:
         raise InputError("--scheduler needs Dask distributed, the optional extra 'dask' "
                          "(pip install 'archsys[dask]')") from None
-    import dask
-    try:
-        return Client(address, timeout=dask.config.get("distributed.comm.timeouts.connect", "30s"))
-    except (OSError, TimeoutError, ValueError) as exc:
-        raise InputError(f"--scheduler {address}: cannot connect to the Dask scheduler "
-                         f"({' '.join(str(exc).split())})") from None
+    del Client
+    from .remote import connect                 # deadlines on set-up and on every wait (issue 22)
+    return connect(address)
 
 
 def _run_dask(tasks, sink, client):
-    from distributed import as_completed
+    from .remote import results
     try:
         futures = client.map(process_system, tasks, pure=False)
-        for fut in as_completed(futures):
-            sink(fut.result())
+        for fut, res in results(client, futures):
+            sink(res)
             fut.release()
     finally:
         client.close()
