@@ -376,21 +376,50 @@ def _on_sigterm(signum, frame):
     raise Terminated()
 
 
+class _WriteRecorder:
+    """Standard output for argparse: it swallows write errors of --help/--version, this remembers them."""
+
+    def __init__(self, real):
+        self.real = real
+        self.error = None
+
+    def write(self, text):
+        try:
+            n = self.real.write(text)
+            self.real.flush()
+            return n
+        except OSError as exc:
+            self.error = exc
+            raise
+
+    def __getattr__(self, name):
+        return getattr(self.real, name)
+
+
 def _parse(parser, argv):
     """Parsed arguments; ``--help``/``--version`` output that cannot be written is one line, exit 2."""
+    real = sys.stdout
+    rec = _WriteRecorder(real) if real is not None else None
+    if rec is not None:
+        sys.stdout = rec
     try:
         return parser.parse_args(argv)
     except SystemExit as exc:
         if exc.code in (0, None):
             try:
-                if sys.stdout is None:
+                if real is None:
                     raise OSError(errno.EBADF, "standard output is closed")
-                sys.stdout.flush()
+                if rec.error is not None:
+                    raise rec.error
+                real.flush()
             except OSError as err:
                 _silence_stdout()
                 sys.stderr.write(f"archsys: error: cannot write to standard output: {err.strerror or err}\n")
                 raise SystemExit(2) from None
         raise
+    finally:
+        if sys.stdout is rec and rec is not None:
+            sys.stdout = real
 
 
 def _outside_error(exc):

@@ -328,6 +328,7 @@ def test_full_disk_during_survey_then_resume(tmp_path, capsys, tmpfs):
     rc, _, err = _run(args + ["--resume"], capsys)       # still full: one line again
     _one_line_exit_2(rc, err)
     filler.unlink()
+    subprocess.run(["mount", "-o", "remount,size=64m", str(disk)], check=True)    # room again
     rc, _, err = _run(args + ["--resume"], capsys)
     assert rc == 0, err
     assert (out / "population.json").exists()
@@ -675,3 +676,56 @@ def test_saved_chains_still_read_back(tmp_path, capsys):
     npz = next(out.glob("*.npz"))
     rc, _, err = _run(["plot", str(npz), "--figures", str(tmp_path / "f")], capsys)
     assert rc == 0, err
+
+
+@pytest.mark.slow
+def test_scheduler_killed_mid_survey_then_resume_is_identical(tmp_path):
+    # README: a scheduler that dies mid-survey: one line, the store is kept, --resume gives the same bytes
+    pytest.importorskip("distributed")
+    cat = _cat(tmp_path, "system,planet,period,period_err,star_mass\n" + "".join(
+        f"S{i:03d},S{i:03d} b,{3 + i % 7}.1,0.01,1.0\nS{i:03d},S{i:03d} c,{9 + i % 5}.3,0.01,1.0\n"
+        for i in range(120)))
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    addr = f"tcp://127.0.0.1:{port}"
+    sched = subprocess.Popen([sys.executable, "-m", "distributed.cli.dask_scheduler", "--host", "127.0.0.1",
+                              "--port", str(port), "--dashboard-address", ":0"], env=ENV,
+                             stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    worker = subprocess.Popen([sys.executable, "-m", "distributed.cli.dask_worker", addr, "--nthreads", "1",
+                               "--nworkers", "1", "--no-dashboard"], env=ENV, stdout=subprocess.DEVNULL,
+                              stderr=subprocess.DEVNULL)
+    out = tmp_path / "out"
+    args = ["survey", str(cat), "--out", str(out), "--mode", "direct", "--draws", "3000", "--no-figures",
+            "--quiet"]
+    try:
+        proc = subprocess.Popen([sys.executable, "-m", "archsys", *args, "--scheduler", addr], env=ENV,
+                                stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+        t0 = time.monotonic()
+        import sqlite3
+        while time.monotonic() - t0 < 240:
+            assert proc.poll() is None, proc.stderr.read()
+            try:
+                db = sqlite3.connect(str(out / "survey.sqlite"))
+                n = db.execute("SELECT COUNT(*) FROM systems").fetchone()[0]
+                db.close()
+            except sqlite3.Error:
+                n = 0
+            if n >= 5:
+                break
+            time.sleep(0.2)
+        sched.kill()
+        _, err = proc.communicate(timeout=180)
+    finally:
+        for p in (sched, worker):
+            p.kill()
+            p.wait()
+    _one_line_exit_2(proc.returncode, err, "--resume")
+    assert (out / "survey.sqlite").exists() and not (out / "population.json").exists()
+    proc = _cli([*args, "--jobs", "1", "--resume"], timeout=600)
+    assert proc.returncode == 0, proc.stderr
+    ref = tmp_path / "ref"
+    proc = _cli(["survey", str(cat), "--out", str(ref), *args[4:], "--jobs", "1"], timeout=600)
+    assert proc.returncode == 0, proc.stderr
+    for f in ("systems.csv", "planets.csv", "pairs.csv", "rejects.csv", "population.json"):
+        assert (out / f).read_bytes() == (ref / f).read_bytes(), f

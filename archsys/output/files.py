@@ -306,8 +306,10 @@ class StagedOutput:
         """Undo the moves of a commit that failed part-way: new files out, old files back."""
         for final, old, moved in reversed(journal):
             try:
-                if old is not None:
+                if old is not None and moved:
                     os.replace(old, final)
+                elif old is not None:
+                    os.unlink(old)          # the target was never replaced (a hard link of it: rename would not undo)
                 elif moved:
                     os.unlink(final)
             except OSError:
