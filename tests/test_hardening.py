@@ -192,8 +192,31 @@ def _wait_for_staging(d, proc, limit=240):
     return False
 
 
-@pytest.mark.parametrize("sig, code", [(signal.SIGTERM, 143), (signal.SIGINT, 130)])
-def test_signal_during_report_removes_staging(tmp_path, sig, code):
+@pytest.mark.parametrize("sig, code", [(signal.SIGTERM, 143), (signal.SIGINT, 130)], ids=["SIGTERM", "SIGINT"])
+def test_signal_while_staging_removes_staging(sig, code, tmp_path, capsys, monkeypatch):
+    # the signal arrives while the report's files are being staged (the third file): exit 143/130,
+    # no staging folder, no partial output, the folder the run made is gone
+    from archsys.output import files
+    real, calls = files._write_file, []
+
+    def signalled(path, data, mode):
+        calls.append(path)
+        if len(calls) == 3:
+            os.kill(os.getpid(), sig)
+            time.sleep(1.0)                     # the handler runs here, in the main thread
+        return real(path, data, mode)
+    monkeypatch.setattr(files, "_write_file", signalled)
+    out = tmp_path / "out"
+    rc, _, err = _run(["report", str(KORRIN), *FAST, "--out", str(out)], capsys)
+    assert rc == code, err
+    assert "Traceback" not in err and len(err.splitlines()) == 1
+    assert not out.exists()
+    assert signal.getsignal(signal.SIGTERM) is not None             # the CLI put the old handler back
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("sig, code", [(signal.SIGTERM, 143), (signal.SIGINT, 130)], ids=["SIGTERM", "SIGINT"])
+def test_signal_to_a_report_process_removes_staging(tmp_path, sig, code):
     out = tmp_path / "out"
     files = [str(p) for p in sorted((ROOT / "demo_systems").glob("*.toml"))]
     proc = subprocess.Popen([sys.executable, "-m", "archsys", "report", *files, *FAST, "--quiet",
@@ -214,22 +237,24 @@ def test_signal_during_report_removes_staging(tmp_path, sig, code):
     assert not out.exists() or list(out.iterdir()) == []
 
 
+_STAGER = ("import sys, time; from archsys.output.files import StagedOutput, atomic_write; "
+           "st = StagedOutput(sys.argv[1]).__enter__(); atomic_write(sys.argv[1] + '/a.txt', 'half'); "
+           "print('staged', flush=True); time.sleep(120)")
+
+
 def test_staging_of_a_killed_run_is_removed_by_the_next_run(tmp_path, capsys):
     out = tmp_path / "out"
-    proc = subprocess.Popen([sys.executable, "-m", "archsys", "report", str(KORRIN), *FAST, "--out", str(out)],
-                            env=ENV, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-    seen = _wait_for_staging(out, proc)
-    proc.kill()                                           # kill -9: no cleanup can run
-    proc.wait()
-    if not seen:          # the run ended first: make the leftover of a dead run by hand
-        dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True,
-                              text=True).stdout.strip()
-        (out / f".archsys-staging-{dead}-x1y2").mkdir(parents=True)
-        (out / f".archsys-staging-{dead}-x1y2" / "00000").write_text("half")
-    assert any(p.name.startswith(".archsys-staging-") for p in out.iterdir())
-    rc, _, err = _run(["report", str(KORRIN), *FAST, "--out", str(out)], capsys)
+    proc = subprocess.Popen([sys.executable, "-c", _STAGER, str(out)], env=ENV, stdout=subprocess.PIPE, text=True)
+    try:
+        assert proc.stdout.readline().strip() == "staged"
+    finally:
+        proc.kill()                                           # kill -9 while staging: no cleanup can run
+        proc.wait()
+    assert [p.name for p in out.iterdir() if p.name.startswith(".archsys-staging-")]
+    rc, _, err = _run(["report", str(KORRIN), "--json", *FAST, "--out", str(out)], capsys)
     assert rc == 0, err
-    assert not any(p.name.startswith(".archsys-staging-") for p in out.iterdir())
+    assert not [p.name for p in out.iterdir() if p.name.startswith(".archsys-staging-")]
+    assert not (out / "a.txt").exists()
 
 
 def test_staging_of_a_live_run_is_kept(tmp_path):
