@@ -276,7 +276,10 @@ def _run_dask(tasks, sink, client):
             sink(res)
             fut.release()
     finally:
-        client.close()
+        try:
+            client.close(timeout=5)             # a scheduler that is gone must not hold the exit
+        except Exception:                       # noqa: BLE001 - the run's own error is the one to report
+            pass
 
 
 def run_tasks(tasks, sink, jobs, client=None):
