@@ -257,10 +257,17 @@ def test_staging_of_a_killed_run_is_removed_by_the_next_run(tmp_path, capsys):
     assert not (out / "a.txt").exists()
 
 
+def _dead_pid():
+    p = subprocess.Popen([sys.executable, "-c", "pass"])
+    p.wait()
+    return p.pid
+
+
 def test_staging_of_a_live_run_is_kept(tmp_path):
+    # the lock decides: a folder named after a dead process id but locked by a live run stays
     from archsys.output.files import remove_stale_staging
     d = tmp_path / "out"
-    live = d / ".archsys-staging-1-live"
+    live = d / f".archsys-staging-{_dead_pid()}-live"
     live.mkdir(parents=True)
     holder = subprocess.Popen([sys.executable, "-c", "import fcntl, os, sys, time; fd = os.open(sys.argv[1], "
                                "os.O_RDONLY); fcntl.flock(fd, fcntl.LOCK_EX); print('ok', flush=True); "
@@ -271,6 +278,18 @@ def test_staging_of_a_live_run_is_kept(tmp_path):
     finally:
         holder.kill()
         holder.wait()
+
+
+def test_old_unlocked_staging_with_a_reused_process_id_is_removed(tmp_path):
+    from archsys.output.files import remove_stale_staging
+    old = tmp_path / ".archsys-staging-1-old"        # process 1 is alive (a reused id), nobody holds the lock
+    old.mkdir()
+    young = tmp_path / ".archsys-staging-1-young"    # may be a run that has not locked it yet: kept
+    young.mkdir()
+    two_hours_ago = time.time() - 7200
+    os.utime(old, (two_hours_ago, two_hours_ago))
+    assert remove_stale_staging(tmp_path) == 1
+    assert not old.exists() and young.exists()
 
 
 def test_final_move_failing_part_way_restores_everything(tmp_path, capsys, monkeypatch):

@@ -68,7 +68,10 @@ def _pid_alive(pid):
 
 
 def remove_stale_staging(root):
-    """Remove staging folders in ``root`` left by runs that died (no lock held, owner process gone).
+    """Remove staging folders in ``root`` left by runs that died.
+
+    A folder is removed when nobody holds its lock and either the process named in it is gone or it
+    is over an hour old (a process id reused by another program does not keep it for ever).
 
     Returns the number removed.  A folder whose run is alive holds its lock and is left alone.
     """
@@ -81,10 +84,9 @@ def remove_stale_staging(root):
     for e in entries:
         m = re.match(re.escape(STAGING_PREFIX) + r"(\d+)-", e.name)
         try:
-            if m and _pid_alive(int(m.group(1))) and int(m.group(1)) != os.getpid():
-                continue                        # its run may still be starting: never race it
-            if not m and time.time() - e.stat(follow_symlinks=False).st_mtime < 3600:
-                continue                        # an older archsys's folder: only when clearly old
+            young = time.time() - e.stat(follow_symlinks=False).st_mtime < 3600
+            if young and (not m or (_pid_alive(int(m.group(1))) and int(m.group(1)) != os.getpid())):
+                continue                        # its run may be starting (not locked yet): never race it
             fd = _lock_dir(e.path)
         except OSError:
             continue
