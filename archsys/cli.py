@@ -228,6 +228,10 @@ def _cmd_survey(args):
     sopts = SurveyOptions(columns=args.columns, where=tuple(args.where or ()), resume=args.resume,
                           scheduler=args.scheduler, limit=args.limit, figures=not args.no_figures)
     _warn_unused(opts)
+    if args.scheduler and not getattr(args, "debug", False):
+        import logging                      # Dask logs tracebacks of a lost scheduler: the one line is ours
+        logging.disable(logging.CRITICAL)   # (back on when main() returns to a Python caller, see main)
+        _STATE["logging_off"] = True
     from .survey.multiplicity_block import MultiplicitySettings, summary_lines
     transit = MultiplicitySettings.from_cli(args.transit_planets, args.transit_period, args.transit_radius,
                                             args.transit_second)
@@ -368,6 +372,9 @@ def _one_line_warnings(message, category, filename, lineno, file=None, line=None
     sys.stderr.write(f"archsys: warning: {printable(clip(' '.join(str(message).split()), 300))}\n")
 
 
+_STATE = {"logging_off": False}
+
+
 class Terminated(KeyboardInterrupt):
     """SIGTERM, raised in the main thread so that every cleanup of an interruption runs."""
 
@@ -494,6 +501,10 @@ def main(argv=None):
         sys.stderr.write(f"archsys: error: {printable(line)}\n")
         return 2
     finally:
+        if argv is not None and _STATE["logging_off"]:     # called from Python: give logging back
+            import logging
+            logging.disable(logging.NOTSET)
+            _STATE["logging_off"] = False
         if old_term is not None:
             try:
                 signal.signal(signal.SIGTERM, old_term)

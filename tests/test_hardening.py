@@ -773,3 +773,27 @@ def test_scheduler_killed_mid_survey_then_resume_is_identical(tmp_path):
     assert proc.returncode == 0, proc.stderr
     for f in ("systems.csv", "planets.csv", "pairs.csv", "rejects.csv", "population.json"):
         assert (out / f).read_bytes() == (ref / f).read_bytes(), f
+
+
+@pytest.mark.parametrize("planet, token", [({"name": "b", "period_days": {"median": -3.0}}, "must be positive"),
+                                           ({"name": "b", "a_au": {"median": 0.0}}, "must be positive"),
+                                           ({"name": "b", "ecc": {"median": 1.2}}, "[0, 1)")],
+                         ids=["negative-period", "zero-a", "ecc-above-1"])
+def test_stack_refuses_documents_with_values_out_of_range(planet, token, tmp_path, capsys):
+    f = tmp_path / "doc.json"
+    f.write_text(json.dumps({"system": "X", "planets": [planet]}))
+    rc, _, err = _run(["stack", str(f), "--figures", str(tmp_path / "f")], capsys)
+    _one_line_exit_2(rc, err, token)
+
+
+def test_stack_refuses_a_document_with_an_overflowing_number(tmp_path, capsys):
+    f = tmp_path / "doc.json"
+    f.write_text('{"system": "X", "planets": [{"name": "b", "mass_mearth": {"median": 1e999}}]}')
+    rc, _, err = _run(["stack", str(f), "--figures", str(tmp_path / "f")], capsys)
+    _one_line_exit_2(rc, err, "finite numbers only")
+
+
+def test_chains_with_mismatched_document_refused(tmp_path, capsys):
+    f = _npz(tmp_path / "c.npz", _meta(document={"system": "Npzia", "planets": [{"name": "b"}]}), _periods())
+    rc, _, err = _run(["plot", str(f), "--figures", str(tmp_path / "f")], capsys)
+    _one_line_exit_2(rc, err, "1 planets for 2 planet names")

@@ -150,8 +150,13 @@ def load_posterior(path):
         check_name(nm, str(path), f"'meta.planet_names[{i}]'")
     if meta.get("system") is not None:
         check_name(meta["system"], str(path), "'meta.system'")
+    if not names:
+        raise _bad(path, "'meta.planet_names' is empty")
     if meta.get("document"):
-        check_document(meta["document"], f"{path}: 'meta.document'")
+        check_document(meta["document"], f"{path}: 'meta.document'", strict=False)
+        if len(meta["document"]["planets"]) != len(names):
+            raise _bad(path, f"'meta.document' has {len(meta['document']['planets'])} planets for "
+                             f"{len(names)} planet names")
     draws = {}
     n = None
     for key, arr in content.items():

@@ -9,12 +9,16 @@ the key:
   objects, each with a ``name``; names are text of at most 200 characters
   without control characters (ESC, BEL, NUL, ... as for system files);
   ``pairs`` and ``star``, when present, a list of objects and an object;
+  numbers finite, period and semi-major-axis medians positive, eccentricity
+  medians in [0, 1);
 * chains: the draws are finite where known (NaN means unknown, as in a
   posterior; infinite values are refused), periods are finite and positive
   in every draw, semi-major axes and masses non-negative, eccentricities in
   [0, 1), and the metadata names follow the document rules.
 """
 from __future__ import annotations
+
+import math
 
 import numpy as np
 
@@ -38,8 +42,30 @@ def check_name(name, source, what):
     return name
 
 
-def check_document(doc, source):
-    """Refuse a report document whose structure or names archsys would not have written."""
+def _finite_everywhere(doc, source):
+    """Refuse a number that is not finite anywhere in ``doc`` (archsys writes JSON without NaN/inf)."""
+    stack = [(doc, "")]
+    while stack:
+        x, where = stack.pop()
+        if isinstance(x, float) and not math.isfinite(x):
+            raise InputError(f"{source}: '{where.lstrip('.')[:80]}' is {x}; a report document holds finite "
+                             f"numbers only")
+        if isinstance(x, dict):
+            stack.extend((v, f"{where}.{k}") for k, v in x.items())
+        elif isinstance(x, list):
+            stack.extend((v, f"{where}[{i}]") for i, v in enumerate(x))
+
+
+def _median(x):
+    v = x.get("median") if isinstance(x, dict) else x
+    return v if isinstance(v, (int, float)) and not isinstance(v, bool) else None
+
+
+def check_document(doc, source, strict=True):
+    """Refuse a report document whose structure or names archsys would not have written.
+
+    ``strict``: also refuse non-finite numbers anywhere (a document file; the copy inside saved
+    chains may carry NaN in its sampler notes)."""
     if not isinstance(doc, dict):
         raise InputError(f"{source}: not an archsys report document (a JSON object was expected, "
                          f"got {type(doc).__name__})")
@@ -54,10 +80,19 @@ def check_document(doc, source):
         if not isinstance(p, dict):
             raise InputError(f"{source}: 'planets[{i}]' must be an object; got {type(p).__name__}")
         check_name(p.get("name"), source, f"'planets[{i}].name'")
+        for key, lo in (("period_days", 0.0), ("a_au", 0.0)):
+            v = _median(p.get(key))
+            if v is not None and not (math.isfinite(v) and v > lo):
+                raise InputError(f"{source}: 'planets[{i}].{key}' median is {v}; it must be positive")
+        e = _median(p.get("ecc"))
+        if e is not None and not (0.0 <= e < 1.0):
+            raise InputError(f"{source}: 'planets[{i}].ecc' median is {e}; it must be in [0, 1)")
     if "pairs" in doc and (not isinstance(doc["pairs"], list) or not all(isinstance(q, dict) for q in doc["pairs"])):
         raise InputError(f"{source}: 'pairs' must be a list of objects")
     if "star" in doc and doc["star"] is not None and not isinstance(doc["star"], dict):
         raise InputError(f"{source}: 'star' must be an object")
+    if strict:
+        _finite_everywhere(doc, source)
     return doc
 
 
