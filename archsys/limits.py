@@ -18,6 +18,8 @@ below what exhausts the interpreter's stack):
   the character limit);
 * ``MAX_CELL_CHARS`` = 10 000 characters in one catalogue cell (a longer cell
   rejects its row, never the survey);
+* ``MAX_NAME_CHARS`` = 200 characters in a system or planet name (system
+  files, catalogue rows, documents and chains read back);
 * ``MAX_UNIT_CHARS`` = 60 characters of a unit string quoted in a message;
 * output paths: no empty ``--out``/``--figures``, at most ``NAME_MAX`` bytes
   (255 on Linux) per path component and ``PATH_MAX`` (4096) in all.
@@ -30,13 +32,14 @@ import os
 from .compat import tomllib
 from .errors import InputError
 
-__all__ = ["MAX_NESTING", "MAX_EXPRESSION_CHARS", "MAX_EXPRESSION_NESTING", "MAX_CELL_CHARS",
+__all__ = ["MAX_NESTING", "MAX_EXPRESSION_CHARS", "MAX_EXPRESSION_NESTING", "MAX_CELL_CHARS", "MAX_NAME_CHARS",
            "MAX_UNIT_CHARS", "parse_toml", "parse_json", "check_depth", "check_output_path", "clip"]
 
 MAX_NESTING = 32
 MAX_EXPRESSION_CHARS = 100_000
 MAX_EXPRESSION_NESTING = 100
 MAX_CELL_CHARS = 10_000
+MAX_NAME_CHARS = 200
 MAX_UNIT_CHARS = 60
 _NAME_MAX = 255
 _PATH_MAX = 4096

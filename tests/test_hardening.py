@@ -797,3 +797,17 @@ def test_chains_with_mismatched_document_refused(tmp_path, capsys):
     f = _npz(tmp_path / "c.npz", _meta(document={"system": "Npzia", "planets": [{"name": "b"}]}), _periods())
     rc, _, err = _run(["plot", str(f), "--figures", str(tmp_path / "f")], capsys)
     _one_line_exit_2(rc, err, "1 planets for 2 planet names")
+
+
+def test_over_long_names_refused_like_in_documents(tmp_path, capsys):
+    # system files and documents read back share the name limit (200 characters)
+    f = _system(tmp_path, "N" * 201, "n.toml")
+    rc, _, err = _run(["report", str(f), "--json", *FAST], capsys)
+    _one_line_exit_2(rc, err, "201 characters", "at most 200")
+    g = _system(tmp_path, "N" * 200, "m.toml")
+    rc, out, err = _run(["report", str(g), "--json", *FAST], capsys)
+    assert rc == 0, err
+    doc = tmp_path / "doc.json"
+    doc.write_text(out)
+    rc, _, err = _run(["stack", str(doc), "--figures", str(tmp_path / "f")], capsys)
+    assert rc == 0, err

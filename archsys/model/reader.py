@@ -14,7 +14,7 @@ import astropy.units as u
 import numpy as np
 
 from ..compat import tomllib
-from ..limits import clip
+from ..limits import MAX_NAME_CHARS, clip
 from ..errors import InputError
 from .inputfile import read_input_bytes
 from .quantity import Measurement
@@ -243,6 +243,8 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
     elif _has_control(name):
         P.add("field 'name'", "contains control characters (NUL, escape sequences, line breaks); "
                               "names must be printable text")
+    elif len(name) > MAX_NAME_CHARS:
+        P.add("field 'name'", f"has {len(name)} characters; a name may have at most {MAX_NAME_CHARS}")
     rp = data.get("reference_plane")
     if rp is not None and rp not in REFERENCE_PLANES:
         P.add("field 'reference_plane'", f"must be one of {', '.join(repr(x) for x in REFERENCE_PLANES)} "
@@ -316,6 +318,10 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
         elif _has_control(pname):
             P.add(f"planet #{idx}", "field 'name' contains control characters (NUL, escape sequences, "
                                     "line breaks); names must be printable text")
+            pname = f"#{idx}"
+        elif len(pname) > MAX_NAME_CHARS:
+            P.add(f"planet #{idx}", f"field 'name' has {len(pname)} characters; a name may have at most "
+                                    f"{MAX_NAME_CHARS}")
             pname = f"#{idx}"
         elif pname in seen:
             P.add(f"planet '{pname}'", f"duplicate planet name (also planet #{seen[pname]})")

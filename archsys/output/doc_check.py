@@ -27,7 +27,7 @@ from ..model.checks import has_control
 
 __all__ = ["check_document", "check_name", "check_draws", "MAX_NAME_CHARS"]
 
-MAX_NAME_CHARS = 200
+from ..limits import MAX_NAME_CHARS  # noqa: E402  (the same limit as system files)
 
 
 def check_name(name, source, what):
