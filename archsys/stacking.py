@@ -57,6 +57,11 @@ def _survey_documents(folder, where=()):
     systems = read_catalog(folder / "systems.csv")
     planets = read_catalog(folder / "planets.csv")
     pairs = read_catalog(folder / "pairs.csv")
+    for tab, need in ((systems, ("system",)), (planets, ("system", "planet")), (pairs, ("system", "inner", "outer"))):
+        missing = [c for c in need if c not in tab.columns]
+        if missing:
+            raise InputError(f"{folder / tab.name}: not a survey table (no column '{missing[0]}'); "
+                             f"rerun `archsys survey --out {folder}`")
     sysrow = {str(systems.cells["system"][i]): systems.row(i) for i in range(systems.n_rows)}
     extra = [c for c in systems.columns if c not in planets.columns]
     for c in extra:                        # each planet row carries its system's columns for --where

@@ -811,3 +811,39 @@ def test_over_long_names_refused_like_in_documents(tmp_path, capsys):
     doc.write_text(out)
     rc, _, err = _run(["stack", str(doc), "--figures", str(tmp_path / "f")], capsys)
     assert rc == 0, err
+
+
+def test_stack_of_a_survey_folder_with_foreign_tables(tmp_path, capsys):
+    d = tmp_path / "notasurvey"
+    d.mkdir()
+    (d / "systems.csv").write_text("foo\n1\n")
+    (d / "planets.csv").write_text("system,planet\nA,A b\n")
+    (d / "pairs.csv").write_text("system\nA\n")
+    rc, _, err = _run(["stack", str(d), "--figures", str(tmp_path / "f")], capsys)
+    _one_line_exit_2(rc, err, "systems.csv", "no column 'system'")
+
+
+def test_sigterm_during_survey_keeps_the_store_and_resume_is_identical(tmp_path, capsys, monkeypatch):
+    from archsys.survey.store import SurveyStore
+    cat = _cat(tmp_path, CAT + "Cyra,Cyra b,2.2,0.001,0.8\nCyra,Cyra c,4.9,0.001,0.8\n")
+    ref = tmp_path / "ref"
+    rc, _, err = _run(["survey", str(cat), "--out", str(ref), *SURVEY], capsys)
+    assert rc == 0, err
+    real, calls = SurveyStore.put, []
+
+    def put_then_term(self, res):
+        real(self, res)
+        calls.append(res["system"])
+        if len(calls) == 2:
+            os.kill(os.getpid(), signal.SIGTERM)
+            time.sleep(1.0)
+    monkeypatch.setattr(SurveyStore, "put", put_then_term)
+    out = tmp_path / "out"
+    rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY], capsys)
+    assert rc == 143 and err.strip() == "archsys: terminated", err
+    assert sorted(p.name for p in out.iterdir() if not p.name.startswith("survey.sqlite")) == []
+    monkeypatch.setattr(SurveyStore, "put", real)
+    rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY, "--resume"], capsys)
+    assert rc == 0, err
+    for f in ("systems.csv", "planets.csv", "pairs.csv", "rejects.csv", "population.json"):
+        assert (out / f).read_bytes() == (ref / f).read_bytes(), f
