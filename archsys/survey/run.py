@@ -104,6 +104,8 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
         become rejects.
     """
     opts, sv = split_keywords(options, survey, **keywords)
+    from ..limits import check_output_path
+    check_output_path(out, "--out")                   # not empty, no over-long names (issue 22)
     out = pathlib.Path(out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: exists and is not a directory")
