@@ -883,3 +883,16 @@ def test_sigterm_during_survey_keeps_the_store_and_resume_is_identical(tmp_path,
     assert rc == 0, err
     for f in ("systems.csv", "planets.csv", "pairs.csv", "rejects.csv", "population.json"):
         assert (out / f).read_bytes() == (ref / f).read_bytes(), f
+
+
+def test_full_disk_at_the_start_of_a_survey(tmp_path, capsys, tmpfs):
+    disk = tmpfs("64k")
+    with pytest.raises(OSError):
+        with open(disk / "filler", "wb") as fh:        # fill the disk to the last byte
+            while True:
+                fh.write(b"\0" * 4096)
+                fh.flush()
+    rc, _, err = _run(["survey", str(_cat(tmp_path)), "--out", str(disk / "out"), *SURVEY], capsys)
+    _one_line_exit_2(rc, err)
+    assert "No space left" in err or "disk is full" in err or "no room" in err, err
+    assert not (disk / "out").exists()

@@ -86,6 +86,7 @@ class SurveyStore:
         self.path.parent.mkdir(parents=True, exist_ok=True)
         store_check.check_file(self.path)              # random bytes, a foreign file: refused, untouched
         self.db = None
+        existed = self.path.exists()
         try:
             self.db = sqlite3.connect(str(self.path), isolation_level=None)
             self.missing_tables = store_check.check_schema(self.db, self.path, _SCHEMA)
@@ -97,6 +98,15 @@ class SurveyStore:
             raise
         except sqlite3.DatabaseError as exc:
             self.close()
+            if not existed:                            # a store this run began: leave nothing behind
+                for suffix in ("", "-wal", "-shm", "-journal"):
+                    try:
+                        pathlib.Path(f"{self.path}{suffix}").unlink()
+                    except OSError:
+                        pass
+            if "full" in str(exc):
+                raise InputError(f"{self.path}: no room for the survey store ({exc}); free some space or "
+                                 f"choose another --out") from None
             raise InputError(f"{self.path}: not a usable survey store ({exc}); choose another --out") from None
 
     # -- manifest -----------------------------------------------------------
