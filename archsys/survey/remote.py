@@ -8,7 +8,7 @@ keeps trying to reconnect.  Here:
   ``distributed.comm.timeouts.connect`` (at most 10 s; ``ARCHSYS_DASK_CONNECT_S``
   overrides both) + 1 s: one line, "no Dask scheduler answered";
 * :func:`results` yields finished results and raises one line when no task
-  has finished for ``ARCHSYS_DASK_IDLE_S`` seconds (default 600, longer than
+  has finished for ``ARCHSYS_DASK_IDLE_S`` seconds (default 3600, longer than
   any single system of a survey) or the scheduler connection is gone (the
   client's status is no longer "running"); the systems stored so far are
   kept for ``--resume``.
@@ -42,7 +42,7 @@ def connect_timeout():
 
 
 def idle_timeout():
-    return _seconds(os.environ.get("ARCHSYS_DASK_IDLE_S", "600"), 600)
+    return _seconds(os.environ.get("ARCHSYS_DASK_IDLE_S", "3600"), 3600)
 
 
 def connect(address):
