@@ -106,15 +106,25 @@ def seal(db, sid):
 
 
 def _all_rows(db):
-    """sid -> [systems rows, planets rows, pairs rows, rejects rows], as :func:`_rows` gives them."""
-    by = {}
-    for rec in db.execute("SELECT * FROM systems"):
-        by.setdefault(rec[0], [[], [], [], []])[0].append(rec)
-    for k, t in enumerate(("planets", "pairs", "rejects"), start=1):
-        for rec in db.execute(f"SELECT * FROM {t} ORDER BY system, idx"):
-            if rec[0] in by:
-                by[rec[0]][k].append(rec)
-    return by
+    """(sid, [systems rows, planets rows, pairs rows, rejects rows]) for every stored system, as
+    :func:`_rows` gives them, one system at a time (ordered scans merged by system id: the memory
+    holds one system, whatever the size of the store)."""
+    import itertools
+    streams = []
+    for t in ("planets", "pairs", "rejects"):
+        cur = db.cursor().execute(f"SELECT * FROM {t} ORDER BY system, idx")
+        streams.append(itertools.groupby(cur, key=lambda r: r[0]))
+    heads = [next(g, None) for g in streams]
+    for rec in db.cursor().execute("SELECT * FROM systems ORDER BY system"):
+        sid = rec[0]
+        out = [[rec], [], [], []]
+        for k, g in enumerate(streams):
+            while heads[k] is not None and heads[k][0] < sid:       # rows of no stored system: skipped
+                heads[k] = next(g, None)
+            if heads[k] is not None and heads[k][0] == sid:
+                out[k + 1] = list(heads[k][1])
+                heads[k] = next(g, None)
+        yield sid, out
 
 
 def _json_ok(text, want=dict):
@@ -172,13 +182,10 @@ def check_and_repair(store, missing_tables=()):
     if [r[0] for r in res] != ["ok"]:
         raise InputError(f"{path}: the survey store is damaged beyond repair (SQLite: "
                          f"{' '.join(str(res[0][0]).split())[:100]}); {_recover(path)}")
-    rows = _all_rows(db)
     seals = dict(db.execute("SELECT system, digest FROM checks"))
-    bad = {}
-    for sid, r in rows.items():
-        if len(r[0]) != 1:                      # pragma: no cover - PRIMARY KEY
-            bad[sid] = "duplicate system rows"
-            continue
+    bad, stored = {}, set()
+    for sid, r in _all_rows(db):
+        stored.add(sid)
         why = _problem(r)
         if why is None and seals.get(sid) != _digest(r):
             why = ("no checksum" if sid not in seals else
@@ -186,7 +193,7 @@ def check_and_repair(store, missing_tables=()):
         if why:
             bad[sid] = why
     stray = {s for t in _TABLES + ("checks",) for s, in db.execute(f"SELECT DISTINCT system FROM {t}")
-             if s not in rows}
+             if s not in stored}
     if bad or stray:
         with store._tx():
             for sid in sorted(set(bad) | stray):
