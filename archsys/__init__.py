@@ -14,9 +14,10 @@ Python API (see the README's "Python API" section)::
 Internal units everywhere inside the physics kernels: day, M_sun, au, rad, m/s.
 Public functions in :mod:`archsys.physics.kepler` take astropy Quantities.
 """
-__version__ = "0.1.0"
+__version__ = "0.2.0"
 
 from .errors import InputError  # noqa: E402
+from .demos import demo_path  # noqa: E402
 from .model.reader import read_system  # noqa: E402
 
 __all__ = ["InputError", "read_system", "analyze", "AnalysisOptions", "planet_table", "pair_table",
@@ -34,26 +35,12 @@ def __getattr__(name):          # the heavier parts load on first use
         from .pipeline import AnalysisOptions
         return AnalysisOptions
     if name in ("planet_table", "pair_table", "posterior_draws"):
-        from .output import frames
-        return getattr(frames, name)
+        from .output import dataframes
+        return getattr(dataframes, name)
     if name in ("render", "write_outputs"):
         from .output import formats
         return getattr(formats, name)
     raise AttributeError(f"module 'archsys' has no attribute {name!r}")
-
-
-def demo_path(name):
-    """Path of a bundled demo system ("velmora", "korrin", "ondrel"; invented systems)."""
-    import pathlib
-    from importlib import resources
-    try:
-        root = pathlib.Path(str(resources.files("archsys.data.demo_systems")))
-    except ModuleNotFoundError:                       # running from a source checkout
-        root = pathlib.Path(__file__).resolve().parents[1] / "demo_systems"
-    path = root / f"{name.lower()}.toml"
-    if not path.is_file():
-        raise FileNotFoundError(f"no demo system {name!r} in {root}")
-    return str(path)
 
 
 def corner_plot(result, planet=None, preset=None):

@@ -39,17 +39,8 @@ class _Parser(argparse.ArgumentParser):
 
 
 def _demo_files():
-    from importlib import resources
-    import pathlib
-    try:
-        root = resources.files("archsys.data.demo_systems")
-        files = sorted(p for p in root.iterdir() if p.name.endswith(".toml"))
-        if files:
-            return [str(p) for p in files]
-    except ModuleNotFoundError:
-        pass
-    src = pathlib.Path(__file__).resolve().parents[1] / "demo_systems"
-    return [str(p) for p in sorted(src.glob("*.toml"))]
+    from .demos import demo_files
+    return demo_files()
 
 
 def _add_analysis_options(p):
@@ -150,7 +141,7 @@ def _cmd_report(args):
         docs = [r.document for r in results]
         text = json.dumps(docs[0] if len(docs) == 1 else docs, indent=2, allow_nan=False) + "\n"
     elif fmt == "text":
-        from .output.text import render_text
+        from .output.formats.terminal import render_text
         colour = sys.stdout.isatty() and not args.no_colour
         text = "\n".join(render_text(r.document, colour=colour) for r in results)
     else:
@@ -267,7 +258,7 @@ def _cmd_plot(args):
 
 def _cmd_stack(args):
     from .output.files import StagedOutput
-    from .stacking import collect_documents, sort_documents, write_stacked_figure
+    from .output.figures.stack import collect_documents, sort_documents, write_stacked_figure
     _check_out_args(args, "figures")
     if args.limit is not None and args.limit < 1:
         raise InputError(f"--limit: must be at least 1; got {args.limit}", field="limit")

@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 from .inference.draws import direct_draws
 from .inference.posterior import Posterior
 from .options import AnalysisOptions, Mode
-from .output.document import build_document
+from .output.json_document import build_document
 
 __all__ = ["AnalysisOptions", "Analysis", "analyze"]
 
@@ -24,19 +24,12 @@ class Analysis:
     document: dict = field(default_factory=dict)
 
 
-#: Which joint engine runs: "joint" (exact draws + orientation block + importance weights), or
-#: "v0.1.0" (one emcee run over every parameter) -- the latter only as the baseline of the benchmark.
-JOINT_ENGINE = "joint"
-
-
 def _posterior(system, opts: AnalysisOptions) -> Posterior:
-    from .inference import sampler
+    from .inference import route
     # "fast" trades depth for speed in large surveys: direct draws only, never the joint engine
     if opts.uses_mcmc:
-        if opts.mode is Mode.MCMC or sampler.needs_mcmc(system, opts):
-            if JOINT_ENGINE == "v0.1.0":
-                return sampler.sample_full_model(system, opts)
-            return sampler.sample_system(system, opts)
+        if opts.mode is Mode.MCMC or route.needs_mcmc(system, opts):
+            return route.sample_system(system, opts)
     return direct_draws(system, n=opts.n_draws, seed=opts.seed)
 
 

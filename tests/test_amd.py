@@ -12,7 +12,7 @@ from archsys.physics.amd import (
 from archsys.physics.constants import GM_SUN
 
 # Solar system, Mercury..Neptune.  a, e: Standish, JPL approximate elements
-# Table 1 (REFERENCES.md section 2a, verified).  Inclinations to the invariable
+# Table 1 ([Standish1992], verified).  Inclinations to the invariable
 # plane: Souami & Souchay 2012, A&A 543, A133 (section 2d, verified).  Masses:
 # Sun/planet ratios IAU 2009 / INPOP10a, Earth+Moon barycentre (section 2c).
 SS_A = np.array([0.38709927, 0.72333566, 1.00000261, 1.52371034,
@@ -35,7 +35,7 @@ def _pair_amd_on_collision_line(e, alpha, gamma):
 
 
 def test_critical_amd_check_values():
-    # REFERENCES.md section 5 (derived by root-finding and brute force, 6 digits).
+    # [LaskarPetit2017] (derived by root-finding and brute force, 6 digits).
     alpha = [0.5, 0.8, 0.9, 0.95, 0.5, 0.5]
     gamma = [1.0, 1.0, 1.0, 1.0, 0.1, 10.0]
     expected = [0.095252, 0.011695, 0.002699, 0.000649, 0.031480, 0.128385]
@@ -55,8 +55,8 @@ def test_critical_amd_hand_computed():
 
 def test_critical_amd_is_minimum_on_collision_line():
     # Reference: brute-force minimisation with scipy of the pair AMD along the
-    # collision line alpha e + e' = 1 - alpha (Laskar & Petit 2017; REFERENCES
-    # section 5 reports agreement to 1e-8).
+    # collision line alpha e + e' = 1 - alpha (Laskar & Petit 2017; the derived
+    # values of [LaskarPetit2017] in docs/references.md agree to 1e-8).
     rng = np.random.default_rng(17)
     alpha = rng.uniform(0.05, 0.98, 40)
     gamma = 10 ** rng.uniform(-2, 2, 40)
@@ -95,7 +95,7 @@ def test_amd_formula_and_small_limit():
 
 
 def test_solar_system_whole_is_amd_unstable():
-    # REFERENCES.md section 2e (derived): beta = 112, 64, 187 for Me-V, V-E,
+    # [Standish1992] (derived): beta = 112, 64, 187 for Me-V, V-E,
     # E-Ma, because the giants' AMD dominates.  LP17's qualitative statement
     # (Solar System as a whole AMD-unstable) is from memory.
     beta, beta_star = amd_beta(*_ss(slice(0, 8)), 1.0)
@@ -105,7 +105,7 @@ def test_solar_system_whole_is_amd_unstable():
 
 
 def test_solar_system_outer_four_amd_stable():
-    # REFERENCES.md section 2e (derived): beta(J-S) = 0.050, beta(S-U) = 0.175,
+    # [Standish1992] (derived): beta(J-S) = 0.050, beta(S-U) = 0.175,
     # beta(U-N) = 0.364 -> AMD-stable.  Qualitative LP17 statement from memory.
     beta, beta_star = amd_beta(*_ss(slice(4, 8)), 1.0)
     np.testing.assert_allclose(beta, [0.050, 0.175, 0.364], rtol=0.02)
@@ -114,7 +114,7 @@ def test_solar_system_outer_four_amd_stable():
 
 
 def test_solar_system_inner_four_amd_stable():
-    # REFERENCES.md section 2e (derived): beta = 0.207, 0.119, 0.344 and
+    # [Standish1992] (derived): beta = 0.207, 0.119, 0.344 and
     # star-collision C/Lambda_Mercury = 0.076 -> AMD-stable.
     beta, beta_star = amd_beta(*_ss(slice(0, 4)), 1.0)
     np.testing.assert_allclose(beta, [0.207, 0.119, 0.344], rtol=0.02)
@@ -148,7 +148,7 @@ def test_amd_beta_vectorised_over_draws():
 
 
 def test_mmr_overlap_g_zero_at_deck_width():
-    # REFERENCES.md section 5 (derived): g = 0 at
+    # [LaskarPetit2017] (derived): g = 0 at
     # 1 - alpha = (16384 r^2 / 729)^(1/7) eps^(2/7) = 1.465 eps^(2/7), the
     # Deck, Payne & Holman 2013 overlap width (coefficient 1.46 from memory).
     coeff = (16384 * PLB17_R**2 / 729) ** (1 / 7)

@@ -45,7 +45,7 @@ def test_report_without_files_runs_every_demo(capsys):
 
 
 def _check_numbers(node, path=""):
-    """JSON contract (archsys.output.document): every uncertain number is a
+    """JSON contract (archsys.output.json_document): every uncertain number is a
     {median, lo, hi} summary; bare floats are only probabilities in [0, 1]; bare
     integers are counts or orders; no NaN or infinity anywhere."""
     if isinstance(node, dict):

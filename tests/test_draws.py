@@ -126,12 +126,12 @@ def test_secosw_sesinw_give_e_and_omega():
 
 # ------------------------------------------------------------------ masses
 def test_msini_from_k_with_eccentricity():
-    # 70 Vir b (Marcy & Butler 1996; REFERENCES §3): P = 116.6 d, K = 318 m/s, e = 0.40,
+    # 70 Vir b (Marcy & Butler 1996; [MarcyButler1996]): P = 116.6 d, K = 318 m/s, e = 0.40,
     # M* = 1.0 -> 7.04 M_J (exact cubic, derived).
     d = draws({"period": 116.6, "k": 318.0, "ecc": 0.40}, n=100)
     np.testing.assert_allclose(d["msini"][:, 0] / MJUP_MSUN, 7.04, atol=5e-3)
     assert d.notes["T b"]["mass"] == "minimum (from K)"
-    # a uses M* + m sin i (Kepler III, REFERENCES §3).
+    # a uses M* + m sin i (Kepler III, [LovisFischer2010]).
     np.testing.assert_allclose(d["a"][:, 0], kepler.a_au(116.6, 1.0 + d["msini"][:, 0]), rtol=1e-14)
     # Uncertain K, e and M*: draw by draw the exact cubic.
     d2 = draws({"period": 116.6, "k": {"value": 318.0, "err": 10.0}, "ecc": {"value": 0.4, "err": 0.05}},

@@ -9,11 +9,11 @@ from hypothesis import strategies as st
 from archsys.physics import flatness as fl
 
 # Giant planets, J2000 ecliptic.  I: JPL approximate elements Table 1
-# (Standish; REFERENCES §2a, verified).  Omega: same table, from memory.
+# (Standish; [Standish1992], verified).  Omega: same table, from memory.
 GIANTS = ("Jupiter", "Saturn", "Uranus", "Neptune")
 GIANT_I = np.radians([1.30439695, 2.48599187, 0.77263783, 1.77004347])
 GIANT_NODE = np.radians([100.474, 113.662, 74.017, 131.784])  # from memory
-# Inclinations to the invariable plane, Souami & Souchay 2012 (REFERENCES §2d, verified).
+# Inclinations to the invariable plane, Souami & Souchay 2012 ([SouamiSouchay2012], verified).
 GIANT_I_INV_DEG = np.array([0.32, 0.93, 1.02, 0.72])
 
 
@@ -33,7 +33,7 @@ def test_solar_giants_mutual_inclinations_below_3_deg():
 def test_solar_giants_consistent_with_invariable_plane_inclinations():
     # psi does not depend on the reference plane, so it must obey the triangle
     # bounds |i_a - i_b| <= psi <= i_a + i_b with inclinations to the invariable
-    # plane (Souami & Souchay 2012, REFERENCES §2d, 2 decimals).  Tolerance
+    # plane (Souami & Souchay 2012, [SouamiSouchay2012], 2 decimals).  Tolerance
     # 0.02 deg: two rounded inputs (0.01) plus mean-element and from-memory-node
     # slack.  Jupiter-Saturn sits at the upper bound: their nodes on the
     # invariable plane are opposite (angular-momentum balance; common practice).

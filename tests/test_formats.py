@@ -12,12 +12,12 @@ import pytest
 from archsys import read_system
 from archsys.errors import InputError
 from archsys.output import figures as figures_mod
-from archsys.output import latex as latex_mod
+from archsys.output.formats import latex as latex_mod
 from archsys.output.formats import document_tables, format_cell, render, write_outputs
-from archsys.output.html import render_html
-from archsys.output.latex import escape, latex_cell, render_latex, standalone
-from archsys.output.markdown import render_markdown
-from archsys.output.text import render_text
+from archsys.output.formats.html import render_html
+from archsys.output.formats.latex import escape, latex_cell, render_latex, standalone
+from archsys.output.formats.markdown import render_markdown
+from archsys.output.formats.terminal import render_text
 from archsys.pipeline import AnalysisOptions, analyze
 
 # Invented two-planet transiting system (values made up for the test).

@@ -412,14 +412,12 @@ def test_full_disk_during_survey_then_resume(tmp_path, capsys, tmpfs):
     assert (out / "population.json").exists()
 
 
-def test_stack_into_dev_full():
+def test_stack_into_dev_full(tmp_path):
     if not os.path.exists("/dev/full"):
         pytest.skip("/dev/full not present")
-    d = pathlib.Path(os.environ.get("TMPDIR", "/tmp"))
-    import tempfile
-    with tempfile.TemporaryDirectory() as tmp, open("/dev/full", "w") as full:
-        proc = subprocess.run([sys.executable, "-m", "archsys", "stack", str(KORRIN), *FAST, "--figures",
-                               str(pathlib.Path(tmp) / "f")], stdout=full, stderr=subprocess.PIPE, text=True,
+    with open("/dev/full", "w") as full:
+        proc = subprocess.run([sys.executable, "-m", "archsys", "stack", str(_doc(tmp_path)), "--figures",
+                               str(tmp_path / "f")], stdout=full, stderr=subprocess.PIPE, text=True,
                               env=ENV, timeout=300)
     _one_line_exit_2(proc.returncode, proc.stderr, "cannot write to standard output")
 

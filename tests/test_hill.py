@@ -15,8 +15,8 @@ from archsys.physics.hill import (
 )
 
 # Solar system: semi-major axes from Standish, JPL approximate elements Table 1
-# (REFERENCES.md section 2a, verified); masses as Sun/planet ratios, IAU 2009 /
-# INPOP10a, Earth+Moon barycentre for Earth (REFERENCES.md section 2c, verified).
+# ([Standish1992], verified); masses as Sun/planet ratios, IAU 2009 /
+# INPOP10a, Earth+Moon barycentre for Earth ([Luzum2011], verified).
 SS_A = np.array([0.38709927, 0.72333566, 1.00000261, 1.52371034,
                  5.20288700, 9.53667594, 19.18916464, 30.06992276])
 SS_M = 1.0 / np.array([6023600.0, 408523.719, 328900.5614, 3098703.59,
@@ -35,7 +35,7 @@ def test_hill_crit_constant():
 
 
 def test_solar_system_spacings():
-    # REFERENCES.md section 2e (derived, Table 1 a, IAU 2009 masses, Chambers
+    # [Standish1992] (derived, Table 1 a, IAU 2009 masses, Chambers
     # et al. 1996 mean-a convention): Me-V 63.4, V-E 26.2, E-Ma 40.0, Ma-J 16.0,
     # J-S 7.89, S-U 14.0, U-N 14.0.  Quoted to 3 significant figures.
     delta = hill_separation(SS_A[:-1], SS_A[1:], SS_M[:-1], SS_M[1:], 1.0)
@@ -78,7 +78,7 @@ def test_broadcast_shapes():
 
 
 def test_gladman_circular_limit_is_two_sqrt3():
-    # Gladman 1993 circular limit 2 sqrt(3); REFERENCES.md section 4 derives
+    # Gladman 1993 circular limit 2 sqrt(3); [Gladman1993] derives
     # 3.4640 for mu1 = mu2 = 1e-7.  Independent root with scipy's brentq.
     mu = 1e-7
     ratio = brentq(lambda r: gladman_margin(1.0, r, mu, mu, 1.0), 1.0 + 1e-9, 1.5, xtol=1e-15)
@@ -89,7 +89,7 @@ def test_gladman_circular_limit_is_two_sqrt3():
 
 
 def test_gladman_worked_example():
-    # REFERENCES.md section 4 derived test case: 5 and 8 M_E around 1 M_sun at
+    # [Gladman1993] derived test case: 5 and 8 M_E around 1 M_sun at
     # P = 10 d and 15 d: a = 0.090838 and 0.119031 au, Delta = 11.42,
     # LHS/RHS = 1.01317/1.00118 at e = 0; LHS = 1.01063 (e = 0.05), 1.00303
     # (e = 0.10), so Hill stable in every case.

@@ -22,9 +22,9 @@ from archsys.physics.constants import MEARTH_MSUN, RSUN_AU, REARTH_AU
 from test_scores import ECC, I_ECL_DEG, NAMES, NODE_ECL_DEG, P_DAY
 
 DEMO = Path(__file__).resolve().parents[1] / "demo_systems"
-#: Planet masses in Earth masses, NASA planetary fact sheet (REFERENCES.md 2c, "M / M_E" column, verified).
+#: Planet masses in Earth masses, NASA planetary fact sheet ([NSSDC], "M / M_E" column, verified).
 M_EARTHS = [0.0553, 0.815, 1.0, 0.107, 317.83, 95.159, 14.536, 17.147]
-#: Adjacent spacings in mutual Hill radii from Table 1 a and IAU 2009 masses (REFERENCES.md 2e, derived).
+#: Adjacent spacings in mutual Hill radii from Table 1 a and IAU 2009 masses ([Standish1992], derived).
 DELTA_HANDBOOK = [63.4, 26.2, 40.0, 16.0, 7.89, 14.0, 14.0]
 
 
@@ -37,7 +37,7 @@ def _opts(**kw):
 def _handbook_system():
     """The eight planets as mean elements referred to the ecliptic (Earth's own orbital plane, so Earth
     has inclination exactly 0): exact masses, eccentricities, inclinations and nodes.
-    Elements: JPL approximate elements Table 1 (Standish 1992; REFERENCES.md 2a), periods: NSSDC fact
+    Elements: JPL approximate elements Table 1 (Standish 1992; [Standish1992]), periods: NSSDC fact
     sheet (2b), masses: fact sheet (2c); the nodes are from memory (see test_scores.py)."""
     planets = []
     for nm, p, m, e, i, node in zip(NAMES, P_DAY, M_EARTHS, ECC, I_ECL_DEG, NODE_ECL_DEG):
@@ -56,7 +56,7 @@ def test_handbook_elements_run_in_default_mode_and_reproduce_hill_spacings():
         assert p["mass_mearth"]["median"] == pytest.approx(m, rel=1e-9)
         assert p["mass_mearth"]["lo"] == pytest.approx(m, rel=1e-9)      # exact: one value in every draw
     for q, ref in zip(doc["pairs"], DELTA_HANDBOOK):
-        # REFERENCES.md 2e (derived from Table 1 a); a here comes from P by Kepler III, which agrees with
+        # [Standish1992] (derived from Table 1 a); a here comes from P by Kepler III, which agrees with
         # the mean elements to 5e-4 (2e), and the masses are the fact sheet's (3 significant figures).
         assert q["hill_separation"]["median"] == pytest.approx(ref, rel=0.01)
     # Earth at i = 0 has m sin i = 0 exactly and a finite true mass
@@ -84,7 +84,7 @@ def test_exact_true_masses_with_astrometric_inclinations_give_m_sin_i():
 
 def test_exact_jupiter_saturn_pair_keeps_its_masses_and_spacing():
     # Issue item 2: a Jupiter-Saturn-like pair with exact masses.  Handbook: 7.89 mutual Hill radii
-    # (REFERENCES.md 2e, derived), Hill stable and far from resonance overlap (Deck et al. 2013).
+    # ([Standish1992], derived), Hill stable and far from resonance overlap (Deck et al. 2013).
     s = build_system({"name": "JS", "star": {"mass": 1.0}, "planet": [
         {"name": "JS b", "period": P_DAY[4], "mass": M_EARTHS[4], "ecc": ECC[4],
          "inclination": I_ECL_DEG[4], "ascending_node": NODE_ECL_DEG[4]},

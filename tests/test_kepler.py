@@ -1,6 +1,7 @@
 """Kepler's third law and RV masses (archsys.physics.kepler) against published values.
 
-Sources are named beside each check; REFERENCES §n means /work/shared/REFERENCES.md.
+Sources are named beside each check; [Key] is an entry of docs/references.md (BibTeX:
+archsys/data/references.bib), whose derived values section gives the method of every derived number.
 """
 import json
 import math
@@ -19,19 +20,19 @@ from archsys.physics import kepler as kp
 
 # ------------------------------------------------------------------ solar system data
 PLANETS = ["Mercury", "Venus", "Earth", "Mars", "Jupiter", "Saturn", "Uranus", "Neptune"]
-# Sidereal periods [d], NASA/NSSDC Planetary Fact Sheet (REFERENCES §2b): Mercury-Mars
+# Sidereal periods [d], NASA/NSSDC Planetary Fact Sheet ([NSSDC]): Mercury-Mars
 # verified; Jupiter-Neptune day values from memory, consistent with the verified years.
 P_DAY = np.array([87.969, 224.701, 365.256, 686.980, 4332.589, 10759.22, 30685.4, 60189.0])
-# Same periods in Julian years as verified for the giants (REFERENCES §2b).
+# Same periods in Julian years as verified for the giants ([NSSDC]).
 P_YR_GIANTS = np.array([11.862, 29.457, 84.011, 164.79])
-# M_sun / M_planet, IAU 2009 / INPOP10a (REFERENCES §2c, verified); Earth row is the
+# M_sun / M_planet, IAU 2009 / INPOP10a ([Luzum2011], verified); Earth row is the
 # Sun/(Earth+Moon) ratio because Table 1 lists the Earth-Moon barycentre.
 SUN_OVER_M = np.array([6023600.0, 408523.719, 328900.5614, 3098703.59,
                        1047.348644, 3497.9018, 22902.98, 19412.26])
-# Semi-major axes [au], JPL approximate elements Table 1 (Standish; REFERENCES §2a, verified).
+# Semi-major axes [au], JPL approximate elements Table 1 (Standish; [Standish1992], verified).
 A_TABLE1 = np.array([0.38709927, 0.72333566, 1.00000261, 1.52371034,
                      5.20288700, 9.53667594, 19.18916464, 30.06992276])
-# Eccentricities, same Table 1 (REFERENCES §2a, verified).
+# Eccentricities, same Table 1 ([Standish1992], verified).
 E_TABLE1 = np.array([0.20563593, 0.00677672, 0.01671123, 0.09339410,
                      0.04838624, 0.05386179, 0.04725744, 0.00859048])
 INNER, OUTER = slice(0, 5), slice(5, 8)
@@ -39,7 +40,7 @@ INNER, OUTER = slice(0, 5), slice(5, 8)
 
 # ------------------------------------------------------------------ constants
 def test_iau_2015_b3_nominal_constants_exact():
-    # IAU 2015 Resolution B3 (Prsa et al. 2016, AJ 152, 41), REFERENCES §1 (verified):
+    # IAU 2015 Resolution B3 (Prsa et al. 2016, AJ 152, 41), [Prsa2016] (verified):
     # nominal values are exact by definition, so compare to the last digit.
     assert C.GM_SUN_SI == 1.3271244e20
     assert C.GM_EARTH_SI == 3.986004e14
@@ -47,9 +48,9 @@ def test_iau_2015_b3_nominal_constants_exact():
     assert C.R_SUN_M == 6.957e8
     assert C.R_EARTH_M == 6.3781e6
     assert C.R_JUP_M == 7.1492e7
-    # IAU 2012 Resolution B2 astronomical unit (REFERENCES §1, verified).
+    # IAU 2012 Resolution B2 astronomical unit ([IAU2012], verified).
     assert C.AU_M == 149_597_870_700.0
-    # Julian year 365.25 d (IAU convention, REFERENCES §1, verified).
+    # Julian year 365.25 d (IAU convention, [Luzum2011], verified).
     assert C.JULIAN_YEAR_DAY == 365.25
     # Reference library: astropy carries the same IAU 2015 B3 values.
     assert C.GM_SUN_SI == ac.GM_sun.si.value
@@ -60,13 +61,13 @@ def test_iau_2015_b3_nominal_constants_exact():
 
 
 def test_derived_mass_ratios_and_internal_gm():
-    # Ratios of nominal GMs (REFERENCES §1, derived): 1047.5655; 332 946.08; 215.032 16.
+    # Ratios of nominal GMs ([Prsa2016], derived): 1047.5655; 332 946.08; 215.032 16.
     assert 1.0 / C.MJUP_MSUN == pytest.approx(1047.5655, abs=5e-5)
     assert 1.0 / C.MEARTH_MSUN == pytest.approx(332946.08, abs=5e-3)
     assert 1.0 / C.RSUN_AU == pytest.approx(215.03216, abs=5e-6)
     assert C.MJUP_MSUN / C.MEARTH_MSUN == pytest.approx(317.8284, abs=5e-5)
     # GM_sun in au^3/d^2 vs the Gaussian gravitational constant squared,
-    # k = 0.01720209895 (IAU 1976/2009, REFERENCES §1 verified).  The nominal GM
+    # k = 0.01720209895 (IAU 1976/2009, [Luzum2011] verified).  The nominal GM
     # is rounded to 8 digits, so agreement is to ~1e-8, not better.
     assert C.GM_SUN == pytest.approx(0.01720209895**2, rel=1e-8)
 
@@ -78,13 +79,13 @@ def _a_kepler(period_day, with_planet_mass=True):
 
 
 def test_solar_system_a_inner_planets_to_1e4():
-    # Newton's Kepler III with G(M_sun + m) (REFERENCES §2e, derived: agree to 0.001-0.002 %).
+    # Newton's Kepler III with G(M_sun + m) ([Standish1992], derived: agree to 0.001-0.002 %).
     a = _a_kepler(P_DAY)
     np.testing.assert_allclose(a[INNER], A_TABLE1[INNER], rtol=1e-4)
 
 
 def test_solar_system_a_outer_planets_to_5e4():
-    # REFERENCES §2e: mean elements are not osculating, Saturn-Neptune off by up to 0.041 %.
+    # [Standish1992]: mean elements are not osculating, Saturn-Neptune off by up to 0.041 %.
     a = _a_kepler(P_DAY)
     np.testing.assert_allclose(a[OUTER], A_TABLE1[OUTER], rtol=5e-4)
 
@@ -93,14 +94,14 @@ def test_solar_system_a_better_than_0p1_percent_all_eight():
     # The issue's acceptance criterion: better than 0.1 % for all eight planets.
     a = _a_kepler(P_DAY)
     assert np.all(np.abs(a / A_TABLE1 - 1.0) < 1e-3), dict(zip(PLANETS, a / A_TABLE1 - 1))
-    # Giants from the verified Julian-year periods (REFERENCES §2b) give the same verdict.
+    # Giants from the verified Julian-year periods ([NSSDC]) give the same verdict.
     a_yr = kp.a_au(P_YR_GIANTS * C.JULIAN_YEAR_DAY, 1.0 + 1.0 / SUN_OVER_M[4:])
     assert np.all(np.abs(a_yr / A_TABLE1[4:] - 1.0) < 1e-3)
 
 
 def test_planet_mass_term_matters_for_jupiter():
     # Dropping m_J in M_sun + m moves a by (1 + m/M)^(1/3) - 1 = 3.2e-4 > 1e-4 and
-    # spoils the 1e-4 agreement with Table 1 (Standish; REFERENCES §2a, §2e).
+    # spoils the 1e-4 agreement with Table 1 (Standish; [Standish1992], derived).
     a_with = _a_kepler(P_DAY)[4]
     a_without = _a_kepler(P_DAY, with_planet_mass=False)[4]
     assert abs(a_with / a_without - 1.0) > 1e-4
@@ -117,14 +118,14 @@ def test_a3_over_p2_is_one_in_au_and_years():
 
 
 def test_test_particle_at_1_au_period():
-    # P = 2 pi sqrt(a^3 / GM_sun) at a = 1 au: 365.2569 d (REFERENCES §2e, derived).
+    # P = 2 pi sqrt(a^3 / GM_sun) at a = 1 au: 365.2569 d ([Standish1992], derived).
     assert kp.period_day(1.0, 1.0) == pytest.approx(365.2569, abs=5e-5)
     assert kp.orbital_period(1 * u.au, 1 * u.M_sun).to_value(u.day) == pytest.approx(365.2569, abs=5e-5)
 
 
 def test_solar_system_through_the_cli(tmp_path, capsys):
     # End to end: the eight planets as a system file (fact-sheet periods, fact-sheet
-    # masses in M_E, REFERENCES §2b/§2c), a from the JSON report vs Table 1 (§2a).
+    # masses in M_E, [NSSDC], [Luzum2011]), a from the JSON report vs Table 1 ([Standish1992]).
     masses_mearth = [0.0553, 0.815, 1.0, 0.107, 317.83, 95.159, 14.536, 17.147]
     lines = ['name = "Sun"', "[star]", "mass = 1.0"]
     for name, P, m, e in zip(PLANETS, P_DAY, masses_mearth, E_TABLE1):
@@ -150,7 +151,7 @@ def test_solar_system_through_the_cli(tmp_path, capsys):
 
 def test_done_criterion_sun_earth_report_json(tmp_path, capsys):
     # The issue's "done" criterion: Sun (1 M_sun) + Earth (sidereal year
-    # 365.256363004 d, from memory per REFERENCES §1; 1 M_E) -> a = 1.0000 au +- 1e-4.
+    # 365.256363004 d, from memory, docs/references.md; 1 M_E) -> a = 1.0000 au +- 1e-4.
     f = tmp_path / "earth.toml"
     f.write_text('name = "Sun-Earth"\n[star]\nmass = 1\n'
                  '[[planet]]\nname = "Earth"\nperiod = 365.256363004\nmass = 1\n')
@@ -163,7 +164,7 @@ def test_done_criterion_sun_earth_report_json(tmp_path, capsys):
     assert planet["a_au"]["median"] == pytest.approx(1.00000002, abs=5e-9)
 
 
-# ------------------------------------------------------------------ minimum masses (REFERENCES §3)
+# ------------------------------------------------------------------ minimum masses ([LovisFischer2010])
 def _msini_mj(P, K, M, e=0.0):
     return float(kp.msini_from_k_msun(P, K, M, e)) / C.MJUP_MSUN
 
@@ -174,7 +175,7 @@ def _a_with_planet(P, K, M, e=0.0):
 
 def test_51_peg_b():
     # Mayor & Queloz 1995 (Nature 378, 355; IAU Circ. 6251): P = 4.2293 d, K = 59 m/s,
-    # e = 0 -> m sin i = 0.47 +- 0.02 M_J with M* = 1.0 M_sun; a = 0.0512 au (REFERENCES §3).
+    # e = 0 -> m sin i = 0.47 +- 0.02 M_J with M* = 1.0 M_sun; a = 0.0512 au ([MayorQueloz1995]).
     assert _msini_mj(4.2293, 59.0, 1.0) == pytest.approx(0.47, rel=1e-2)
     assert _msini_mj(4.2293, 59.0, 1.0) == pytest.approx(0.4696, abs=5e-5)  # recomputed, derived
     assert _a_with_planet(4.2293, 59.0, 1.0) == pytest.approx(0.0512, abs=5e-5)
@@ -185,7 +186,7 @@ def test_51_peg_b():
 
 def test_tau_boo_b():
     # Butler et al. 1997 (ApJ 474, L115): P = 3.3128 d, K = 468 m/s, circular, M* = 1.2 M_sun
-    # -> M sin i = 3.87 M_J, a = 0.0462 au; exact cubic recomputed 3.884 (REFERENCES §3).
+    # -> M sin i = 3.87 M_J, a = 0.0462 au; exact cubic recomputed 3.884 ([Butler1997], derived).
     m = _msini_mj(3.3128, 468.0, 1.2)
     assert m == pytest.approx(3.87, rel=1e-2)
     assert m == pytest.approx(3.884, abs=5e-4)
@@ -195,7 +196,7 @@ def test_tau_boo_b():
 
 def test_70_vir_b_eccentric():
     # Marcy & Butler 1996 (ApJ 464, L147): P = 116.6 d, K = 318 m/s, e = 0.40 -> 6.6 M_J.
-    # REFERENCES §3: M* = 1.0 gives 7.04 (exact); M* ~ 0.91 reproduces the published 6.6.
+    # [MarcyButler1996], derived: M* = 1.0 gives 7.04 (exact); M* ~ 0.91 reproduces the published 6.6.
     assert _msini_mj(116.6, 318.0, 1.0, 0.40) == pytest.approx(7.04, abs=5e-3)
     assert _msini_mj(116.6, 318.0, 0.91, 0.40) == pytest.approx(6.6, abs=0.05)
     # The (1 - e^2)^(1/2) factor: e = 0 gives a mass larger by ~1/sqrt(1 - 0.16) (m << M* form).
@@ -205,7 +206,7 @@ def test_70_vir_b_eccentric():
 
 def test_16_cyg_bb_highly_eccentric():
     # Cochran et al. 1997 (ApJ 483, 457): P = 800.8 d, K = 43.9 m/s, e = 0.63, M* = 1.0
-    # -> 1.5 M_J (rounded; REFERENCES §3 recomputes 1.559, 4 % above); a = 1.688 au.
+    # -> 1.5 M_J (rounded; [Cochran1997] recomputes 1.559, 4 % above); a = 1.688 au.
     m = _msini_mj(800.8, 43.9, 1.0, 0.63)
     assert m == pytest.approx(1.559, abs=5e-4)
     assert m == pytest.approx(1.5, rel=0.05)
@@ -214,7 +215,7 @@ def test_16_cyg_bb_highly_eccentric():
 
 def test_exact_over_approx_equals_mass_term():
     # x^3 = f (M + x)^2 vs the m << M* form x0^3 = f M^2 gives x/x0 = (1 + x/M)^(2/3)
-    # exactly (REFERENCES §3: 0.2 % for tau Boo b, 0.4 % for 70 Vir b).
+    # exactly ([LovisFischer2010], derived: 0.2 % for tau Boo b, 0.4 % for 70 Vir b).
     for P, K, M, e, size in [(3.3128, 468.0, 1.2, 0.0, 0.002), (116.6, 318.0, 1.0, 0.4, 0.004)]:
         f = kp.mass_function_msun(P, K, e)
         x0 = (f * M * M) ** (1 / 3)
@@ -224,10 +225,10 @@ def test_exact_over_approx_equals_mass_term():
 
 
 def test_earth_sun_reflex_and_28_m_per_s_coefficient():
-    # Earth-Sun reflex K = 0.0895 m/s (REFERENCES §3, derived).
+    # Earth-Sun reflex K = 0.0895 m/s ([Cumming1999], derived).
     K_earth = float(kp.k_from_mass_ms(365.256363004, C.MEARTH_MSUN, 1.0))
     assert K_earth == pytest.approx(0.0895, abs=5e-5)
-    # 28.4325 m/s per M_J at 1 yr around 1 M_sun, m << M* (REFERENCES §3/§11, derived),
+    # 28.4325 m/s per M_J at 1 yr around 1 M_sun, m << M* ([Cumming1999], derived),
     # recomputed here from the SI constants: (2 pi GM_sun / 1 yr)^(1/3) * (GM_J / GM_sun).
     yr_s = C.JULIAN_YEAR_DAY * C.DAY_S
     coeff = (2 * math.pi * C.GM_SUN_SI / yr_s) ** (1 / 3) * (C.GM_JUP_SI / C.GM_SUN_SI)
@@ -235,16 +236,16 @@ def test_earth_sun_reflex_and_28_m_per_s_coefficient():
     tiny = 1e-9
     K_lin = float(kp.k_from_mass_ms(C.JULIAN_YEAR_DAY, tiny * C.MJUP_MSUN, 1.0)) / tiny
     assert K_lin == pytest.approx(coeff, rel=1e-8)
-    # Keeping 1 M_J in M* + m: 28.4144 m/s (REFERENCES §3, derived).
+    # Keeping 1 M_J in M* + m: 28.4144 m/s ([Cumming1999], derived).
     assert float(kp.k_from_mass_ms(C.JULIAN_YEAR_DAY, C.MJUP_MSUN, 1.0)) == pytest.approx(28.4144, abs=5e-5)
-    # The commonly quoted 28.4329 m/s (from memory, REFERENCES §11): rel. tol 5e-5.
+    # The commonly quoted 28.4329 m/s (from memory, [Cumming1999]): rel. tol 5e-5.
     assert coeff == pytest.approx(28.4329, rel=5e-5)
 
 
 def test_large_mass_function_gives_the_positive_root():
     # Regression for a bug fixed here: the old Newton start (the m << M* solution)
     # ran to a negative root once m ~ M*.  The exact cubic has one positive root
-    # (REFERENCES §3); check it with K = 1e6 m/s and a face-on-ish sin i.
+    # ([LovisFischer2010]); check it with K = 1e6 m/s and a face-on-ish sin i.
     m = kp.mass_from_k_msun(10.0, np.array([1e4, 1e6, 1e9]), 1.0, 0.0, np.array([1.0, 1.0, 0.05]))
     assert np.all(m > 0)
     back = kp.k_from_mass_ms(10.0, m, 1.0, 0.0, np.array([1.0, 1.0, 0.05]))
@@ -275,7 +276,7 @@ def test_a_increases_with_period(P, M, f):
 @given(P=st.floats(1.0, 1e4), K=st.floats(1e-3, 5.0), M=st.floats(0.1, 3.0),
        e=st.floats(0.0, 0.9), lam=st.floats(0.1, 10.0))
 def test_msini_linear_in_k_when_light(P, K, M, e, lam):
-    # m << M*: m sin i = K sqrt(1 - e^2) (P / 2 pi G)^(1/3) M*^(2/3) (REFERENCES §3),
+    # m << M*: m sin i = K sqrt(1 - e^2) (P / 2 pi G)^(1/3) M*^(2/3) ([LovisFischer2010]),
     # linear in K.  The exact cubic departs from linear by the factor
     # [(M* + m2)/(M* + m1)]^(2/3), i.e. by less than m/M* (here < 2e-2).
     m1 = float(kp.msini_from_k_msun(P, K, M, e))
@@ -290,7 +291,7 @@ def test_msini_linear_in_k_when_light(P, K, M, e, lam):
        e=st.floats(0.0, 0.95), sin_i=st.floats(0.05, 1.0))
 def test_exact_mass_k_round_trip(P, M, q, e, sin_i):
     # k_from_mass_ms(mass_from_k_msun(K)) == K to 1e-10 for masses up to 0.5 M*
-    # (the exact cubic, REFERENCES §3).
+    # (the exact cubic, [LovisFischer2010]).
     m = q * M
     K = float(kp.k_from_mass_ms(P, m, M, e, sin_i))
     m_back = float(kp.mass_from_k_msun(P, K, M, e, sin_i))

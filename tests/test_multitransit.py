@@ -1,5 +1,5 @@
 """Geometry of several transiting planets (archsys.physics.multitransit) and the forward model's building
-blocks (archsys.survey.multiplicity), against worked values of REFERENCES.md and reference libraries."""
+blocks (archsys.survey.multiplicity), against worked values of docs/references.md and reference libraries."""
 import math
 
 import numpy as np
@@ -9,21 +9,21 @@ from scipy import stats
 from archsys.physics import multitransit as mt
 from archsys.survey import multiplicity as mp
 
-SIDEREAL_YEAR_DAY = 365.256363  # REFERENCES §9 worked case (sidereal year; from memory per §1)
-# Solar-system masses as fractions of the Sun (REFERENCES §2c, IAU 2009 ratios, verified)
+SIDEREAL_YEAR_DAY = 365.256363  # Sun-Earth worked case of [Winn2010] (sidereal year from memory, docs/references.md)
+# Solar-system masses as fractions of the Sun ([Luzum2011], IAU 2009 ratios, verified)
 M_EARTH = 1.0 / 332946.050895
 M_MARS = 1.0 / 3098703.59
 
 
 def test_sun_earth_grazing_halfwidth():
-    # Winn 2010 eq. 9 (e = 0) with grazing transits: (R_sun + R_E)/a = 0.4693 % (REFERENCES §9, derived).
+    # Winn 2010 eq. 9 (e = 0) with grazing transits: (R_sun + R_E)/a = 0.4693 % ([Winn2010], derived).
     a = mt.semi_major_axis_au(SIDEREAL_YEAR_DAY, 1.0)
     assert float(a) == pytest.approx(1.0, abs=2e-5)        # Kepler III, planet mass neglected
     assert float(mt.transit_halfwidth(a, 1.0, 1.0)) == pytest.approx(0.004693, abs=1e-6)   # R_p = 1 R_E
 
 
 def test_single_planet_transit_probability_is_epsilon_for_isotropic_observers():
-    # Isotropic orbit normals: o.n uniform on [-1, 1], so P(|o.n| < eps) = eps (REFERENCES §9, Winn 2010 eq. 9).
+    # Isotropic orbit normals: o.n uniform on [-1, 1], so P(|o.n| < eps) = eps ([Winn2010], Winn 2010 eq. 9).
     rng = np.random.default_rng(3)
     n = 400_000
     eps = np.full((n, 1), 0.05)
@@ -35,7 +35,7 @@ def test_single_planet_transit_probability_is_epsilon_for_isotropic_observers():
 
 
 def test_earth_mars_spacing_in_mutual_hill_radii():
-    # REFERENCES §2e (derived): Earth-Mars are 40.0 mutual Hill radii apart at period ratio 1.881.
+    # [Standish1992] (derived): Earth-Mars are 40.0 mutual Hill radii apart at period ratio 1.881.
     # The inverse of that spacing must give back the period ratio (3 significant figures quoted).
     r = float(mt.min_period_ratio(M_EARTH, M_MARS, 1.0, 40.0))
     assert r == pytest.approx(1.881, rel=2e-3)

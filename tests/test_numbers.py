@@ -39,7 +39,7 @@ def test_carries_and_large_errors(value, minus, plus, expected):
 
 
 def test_very_large_numbers_have_no_binary_noise():
-    # M_E = 5.972168e24 kg (REFERENCES §1, derived) with a 1e20 kg error: the digits
+    # M_E = 5.972168e24 kg ([Prsa2016], derived) with a 1e20 kg error: the digits
     # beyond the rounding place must be zeros, not float noise (fixed here: the old
     # f"{x:.0f}" printed 5972200000000000281018368-style strings).
     v, m, p = round_uncertain(5.972168e24, 1.2e20, 1.2e20)

@@ -57,7 +57,7 @@ def test_fit_edges_match_hill_spacing_solved_by_hand():
 
 def test_gladman_limit_two_sqrt_three():
     # With no spacing threshold the edges are where the Gladman (1993) margin vanishes: 2 sqrt(3)
-    # mutual Hill radii for circular orbits (to ~1e-3 for these masses, REFERENCES.md section 4).
+    # mutual Hill radii for circular orbits (to ~1e-3 for these masses, [Gladman1993]).
     m_in, m_out = 5 * MEARTH_MSUN, 12 * MEARTH_MSUN
     grid, flags, (a_in, a_out, m_t) = _run(10.0, 14.0, m_in, m_out, min_hill=0.0, n=20000)
     _, lo, hi = packing.fit_range(grid, flags["gladman"])

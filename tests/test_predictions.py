@@ -153,7 +153,7 @@ def test_packing_block_room_and_packed_probability():
 
 def test_transit_odds_figure_from_document():
     # The figure reads only the document: curve, band, isotropic line and the companion's marker.
-    from archsys.output.figure_transit_odds import transit_odds_figure
+    from archsys.output.figures.transit_odds import transit_odds_figure
     post = _posterior(_system(), ref_inc_deg=89.5, sigma_deg=1.0)
     planets = [{"name": n, "period_days": {"median": P}} for n, P in (("T b", 10.0), ("T c", 15.3), ("T d", 45.0))]
     for entry, extra in zip(planets, companion_transit_block(post)):
@@ -226,7 +226,7 @@ def test_room_intervals_for_the_architecture_figure():
 def test_timing_figure_from_document():
     # Behaviour check: one point per planet of each near-first-order pair, a triangle for the
     # second-order pair; None without super-periods.
-    from archsys.output.figure_timing import timing_figure
+    from archsys.output.figures.timing import timing_figure
     pairs, system = super_period_block(_posterior(_system()))
     doc = {"system": "Test", "pairs": [{"inner": a, "outer": b, **q} for (a, b), q in
                                        zip((("T b", "T c"), ("T c", "T d")), pairs)], **system}

@@ -2,8 +2,8 @@
 
 Sources: Kipping 2013 (MNRAS 434, L51); Van Eylen & Albrecht 2015 (ApJ 808,
 126); Van Eylen et al. 2019 (AJ 157, 61); Fang & Margot 2012 (ApJ 761, 92);
-Fabrycky et al. 2014 -- values as listed in /work/shared/REFERENCES.md section 8
-(verified / derived / from memory as marked there).  scipy.stats and
+Fabrycky et al. 2014 -- entries [Kipping2013], [VanEylenAlbrecht2015], [VanEylen2019], [FangMargot2012],
+[Fabrycky2014] of docs/references.md (verified / derived / from memory as marked there).  scipy.stats and
 scipy.integrate serve as reference libraries.
 """
 
@@ -68,7 +68,7 @@ def test_each_bundled_file_loads_with_provenance(name):
 
 
 def test_from_memory_flags_follow_references():
-    # REFERENCES.md 8a/8b: Kipping 2013 short/long splits and Fang & Margot 2012 sigma
+    # [Kipping2013], [FangMargot2012]: Kipping 2013 short/long splits and Fang & Margot 2012 sigma
     # are from memory; the others verified (or common practice).
     flagged = {p.name for p in P.list_priors() if p.from_memory}
     assert flagged == {"ecc-kipping2013-short", "ecc-kipping2013-long", "incl-fangmargot2012"}
@@ -93,7 +93,7 @@ def test_published_values_in_files():
 
 # ---- moments against published / derived numbers ------------------------------
 def test_kipping2013_mean_and_median():
-    # REFERENCES 8a (derived from Kipping 2013): mean alpha/(alpha+beta) = 0.2225, median 0.173
+    # [Kipping2013] (derived from Kipping 2013): mean alpha/(alpha+beta) = 0.2225, median 0.173
     k = P.load_prior("ecc-kipping2013-rv")
     assert k.mean() == pytest.approx(0.867 / (0.867 + 3.03), rel=1e-12)
     assert k.mean() == pytest.approx(0.2225, abs=5e-5)
@@ -101,13 +101,13 @@ def test_kipping2013_mean_and_median():
 
 
 def test_kipping2013_split_means():
-    # REFERENCES 8a (derived, inputs from memory): short mean 0.176, long mean 0.266
+    # [Kipping2013] (derived, inputs from memory): short mean 0.176, long mean 0.266
     assert P.load_prior("ecc-kipping2013-short").mean() == pytest.approx(0.176, abs=5e-4)
     assert P.load_prior("ecc-kipping2013-long").mean() == pytest.approx(0.266, abs=5e-4)
 
 
 def test_halfnormal_vs_rayleigh_identities():
-    # REFERENCES 8a derived identities: half-normal(0.32) mean 0.255, Rayleigh(0.32) mean 0.401.
+    # [VanEylen2019] derived identities: half-normal(0.32) mean 0.255, Rayleigh(0.32) mean 0.401.
     # Use the sigma quantity (range 0-180) so no truncation at e = 1 interferes.
     base = dict(name="t", quantity="mutual_inclination_sigma", citation="test")
     hn = P.Prior(family="halfnormal", parameters={"sigma": 0.32}, **base)
@@ -121,7 +121,7 @@ def test_halfnormal_vs_rayleigh_identities():
 
 def test_vaneylen2019_singles_truncated_at_e_one():
     # Truncation at e = 1 removes 2*(1 - Phi(1/0.32)) = 0.18 % of the half-normal mass, so the
-    # mean falls slightly below the untruncated 0.255 (REFERENCES 8a).  Reference: scipy truncnorm.
+    # mean falls slightly below the untruncated 0.255 ([VanEylen2019]).  Reference: scipy truncnorm.
     s = 0.32
     ve = P.load_prior("ecc-vaneylen2019-singles")
     ref = stats.truncnorm(0.0, 1.0 / s, scale=s)
@@ -181,7 +181,7 @@ def test_fabrycky_prior_concentrated_on_published_mode():
 def test_fang_margot_headline_bound():
     # Fang & Margot 2012 (verified headline): > 85 % of planets have i < 3 deg.
     # For a single Rayleigh, P(i < 3 deg) > 0.85 requires sigma < 1.54 deg (derived);
-    # REFERENCES 8b: sigma = 1.4 -> 0.90, sigma = 2.0 -> 0.68.
+    # [FangMargot2012]: sigma = 1.4 -> 0.90, sigma = 2.0 -> 0.68.
     frac = lambda sig: stats.rayleigh(scale=sig).cdf(3.0)
     assert frac(1.4) == pytest.approx(0.90, abs=0.005)
     assert frac(2.0) == pytest.approx(0.68, abs=0.01)

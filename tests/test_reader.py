@@ -173,7 +173,7 @@ def test_all_problems_reported_one_line_each(tmp_path, capsys):
 
 # ------------------------------------------------------------------ units
 def test_unit_override_period_years(tmp_path):
-    # 1 Julian year = 365.25 d (IAU convention; REFERENCES §1), errors scale too.
+    # 1 Julian year = 365.25 d (IAU convention; [Luzum2011]), errors scale too.
     s_yr = read_system(_write(tmp_path, STAR + planet('period = {value = 2.0, err = 0.1, unit = "yr"}'), "a.toml"))
     s_d = read_system(_write(tmp_path, STAR + planet("period = {value = 730.5, err = 36.525}"), "b.toml"))
     p_yr, p_d = s_yr.planets[0].period, s_d.planets[0].period
@@ -185,7 +185,7 @@ def test_unit_override_period_years(tmp_path):
 
 
 def test_unit_override_msini_jupiter_masses(tmp_path):
-    # M_J / M_E = 317.8284 (ratio of IAU 2015 B3 nominal GMs, REFERENCES §1 derived);
+    # M_J / M_E = 317.8284 (ratio of IAU 2015 B3 nominal GMs, [Prsa2016] derived);
     # astropy's jupiterMass/earthMass are defined from the same nominal values.
     text = STAR + planet('period = 3.0\nmsini = {value = 1.0, minus = 0.1, plus = 0.2, unit = "jupiterMass"}')
     m = read_system(_write(tmp_path, text)).planets[0].get("msini")

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from archsys.inference.sampler import needs_mcmc, sample_system
+from archsys.inference.route import needs_mcmc, sample_system
 from archsys.model.reader import build_system
 from archsys.pipeline import AnalysisOptions, analyze
 from archsys.physics import kepler, transit

@@ -2,9 +2,9 @@
 
 Sources:
 * semi-major axes and eccentricities: JPL approximate elements, Table 1 (Standish; Explanatory
-  Supplement 1992), REFERENCES.md section 2a;
-* sidereal periods: NASA/NSSDC planetary fact sheet, REFERENCES.md section 2b;
-* masses: IAU 2009 Sun/planet mass ratios (A&A 2012 table 2), REFERENCES.md section 2c;
+  Supplement 1992), [Standish1992];
+* sidereal periods: NASA/NSSDC planetary fact sheet, [NSSDC];
+* masses: IAU 2009 Sun/planet mass ratios (A&A 2012 table 2), [Luzum2011];
 * inclinations to the invariable plane: Souami & Souchay 2012 (A&A 543, A133), section 2d;
 * longitudes of the ascending node on the J2000 ecliptic, JPL Table 1: from memory (the file gives I
   but these Omega values were not verified).
@@ -48,7 +48,7 @@ def _solar_posterior(sel=slice(None), n=4, psi=True):
 
 def test_solar_system_every_pair_hill_stable():
     # Gladman 1993, circular limit: every adjacent pair is separated by more than 2 sqrt(3) mutual
-    # Hill radii (spacings 7.9-63 R_H, REFERENCES 2e derived), so all are Hill stable; with the
+    # Hill radii (spacings 7.9-63 R_H, [Standish1992] derived), so all are Hill stable; with the
     # eccentric form every pair except Mars-Jupiter is Hill stable.  Mars-Jupiter is not, and that
     # is what the criterion says (derived): for m_inner -> 0 its left-hand side tends to
     # 1 - e_outer^2, so a test particle beside an eccentric giant is never Hill stable in the
@@ -61,7 +61,7 @@ def test_solar_system_every_pair_hill_stable():
     circ = _solar_posterior()
     circ.draws["ecc"] = np.zeros_like(circ.draws["ecc"])
     assert compute_scores(circ)["system"]["all_pairs_hill_stable_probability"] == 1.0
-    # REFERENCES 2e (derived): J-S spacing 7.89, Me-V 63.4 mutual Hill radii
+    # [Standish1992] (derived): J-S spacing 7.89, Me-V 63.4 mutual Hill radii
     js = sc["pairs"][4]
     assert js["hill_separation"]["median"] == pytest.approx(7.89, abs=0.02)
     assert sc["pairs"][0]["hill_separation"]["median"] == pytest.approx(63.4, abs=0.1)
@@ -69,7 +69,7 @@ def test_solar_system_every_pair_hill_stable():
 
 def test_solar_system_nearest_resonances():
     # Jupiter-Saturn nearest 5:2 ("great inequality"), Uranus-Neptune nearest 2:1 (common practice;
-    # period ratios 2.482 and 1.962 from REFERENCES 2e).
+    # period ratios 2.482 and 1.962 from [Standish1992]).
     sc = compute_scores(_solar_posterior())
     by = {(p["inner"], p["outer"]): p for p in sc["pairs"]}
     assert by[("Jupiter", "Saturn")]["nearest_mmr"] == "5:2"
@@ -92,7 +92,7 @@ def test_giant_mutual_inclinations_below_three_degrees():
 def test_solar_system_amd_unstable_whole_outer_stable():
     # Laskar & Petit 2017 (from memory, qualitative): the Solar System as a whole is AMD-unstable
     # (the giants' AMD dominates the inner pairs' critical AMD) while the outer four planets alone
-    # are AMD-stable; beta values derived in REFERENCES 2e (112, 64, 187 / 0.050, 0.175, 0.364).
+    # are AMD-stable; beta values derived in [Standish1992] (112, 64, 187 / 0.050, 0.175, 0.364).
     whole = compute_scores(_solar_posterior())
     assert whole["system"]["amd"]["system_stable_probability"] == 0.0
     assert whole["pairs"][0]["amd_beta"]["median"] == pytest.approx(112, rel=0.03)

@@ -12,30 +12,30 @@ from scipy.optimize import minimize
 from archsys.physics import spacing as sp
 from archsys.physics.constants import JULIAN_YEAR_DAY, MEARTH_MSUN
 
-# Sidereal periods, NASA/NSSDC Planetary Fact Sheet (REFERENCES §2b, verified):
+# Sidereal periods, NASA/NSSDC Planetary Fact Sheet ([NSSDC], verified):
 # days for Mercury-Mars, Julian years for the giants (11.862 yr x 365.25 d).
 SOLAR_P_DAY = np.array([87.969, 224.701, 365.256, 686.980]
                        + [y * JULIAN_YEAR_DAY for y in (11.862, 29.457, 84.011, 164.79)])
-# JPL approximate elements Table 1 semi-major axes [au] (Standish; REFERENCES §2a, verified).
+# JPL approximate elements Table 1 semi-major axes [au] (Standish; [Standish1992], verified).
 SOLAR_A_AU = np.array([0.38709927, 0.72333566, 1.00000261, 1.52371034,
                        5.20288700, 9.53667594, 19.18916464, 30.06992276])
-# Adjacent period ratios (a2/a1)^(3/2) from Table 1 a (REFERENCES §2e, derived):
+# Adjacent period ratios (a2/a1)^(3/2) from Table 1 a ([Standish1992], derived):
 # V/Me, E/V, Ma/E, J/Ma, S/J, U/S, N/U.
 SOLAR_RATIOS_2E = np.array([2.554, 1.626, 1.881, 6.310, 2.482, 2.854, 1.962])
-# Neptune mass: M/M_E = 17.147 (NASA fact sheet, REFERENCES §2c, verified).
+# Neptune mass: M/M_E = 17.147 (NASA fact sheet, [NSSDC], verified).
 MU_NEPTUNE_PAIR = 2 * 17.147 * MEARTH_MSUN
 
 
 # --------------------------------------------------------------------- ratios
 def test_solar_period_ratios_from_fact_sheet_periods():
-    # REFERENCES §2e values are from Table 1 mean a; the fact-sheet sidereal
+    # [Standish1992] values are from Table 1 mean a; the fact-sheet sidereal
     # periods differ from a^(3/2) by up to ~0.06 % per planet (mean elements are
-    # not osculating, §2e note), so rtol = 1e-3.
+    # not osculating, [Standish1992] derived values), so rtol = 1e-3.
     np.testing.assert_allclose(sp.period_ratios(SOLAR_P_DAY), SOLAR_RATIOS_2E, rtol=1e-3)
 
 
 def test_solar_period_ratios_from_table1_a():
-    # P ∝ a^(3/2) for one central mass; §2e quotes 3 decimals -> atol 5e-4.
+    # P ∝ a^(3/2) for one central mass; [Standish1992] derived values quote 3 decimals -> atol 5e-4.
     np.testing.assert_allclose(sp.period_ratios(SOLAR_A_AU**1.5), SOLAR_RATIOS_2E, atol=5e-4)
 
 
@@ -85,7 +85,7 @@ def test_solar_system_nearest_resonances():
     j, k, off = sp.nearest_mmr(sp.period_ratios(SOLAR_P_DAY))
     names = [sp.mmr_label(a, b) for a, b in zip(j, k)]
     # Jupiter-Saturn "great inequality" near 5:2 and Uranus-Neptune near 2:1
-    # (common practice; ratios from NASA fact-sheet periods, REFERENCES §2b).
+    # (common practice; ratios from NASA fact-sheet periods, [NSSDC]).
     assert names[4] == "5:2" and k[4] == 3
     assert names[6] == "2:1" and k[6] == 1
     # Signs: S/J = 2.483 is narrow of 5:2, N/U = 1.962 narrow of 2:1 (derived).
@@ -93,11 +93,11 @@ def test_solar_system_nearest_resonances():
 
 
 def test_lithwick_xie_wu_2012_example():
-    # LXW12 (ApJ 761, 122), REFERENCES §6: P = 10 d, P' = 15.3 d, j = 3 -> Delta = 0.0200.
+    # LXW12 (ApJ 761, 122), [LithwickXieWu2012]: P = 10 d, P' = 15.3 d, j = 3 -> Delta = 0.0200.
     j, k, off = sp.nearest_mmr(15.3 / 10.0)
     assert (int(j), int(k)) == (3, 1)
     assert float(off) == pytest.approx(0.0200, abs=1e-12)
-    # Super-period P^j = P'/(j |Delta|) = 255.0 d (REFERENCES §6, derived).
+    # Super-period P^j = P'/(j |Delta|) = 255.0 d ([LithwickXieWu2012], derived).
     assert 15.3 / (3 * abs(float(off))) == pytest.approx(255.0, rel=1e-9)
 
 
@@ -186,9 +186,9 @@ def test_width_coefficient_reproduces_deck2013_overlap():
 
 
 def test_near_resonance_neptune_pair_at_1p5_percent():
-    # Kepler near-resonant pairs sit 1-2 % wide (REFERENCES §6: Fabrycky et al.
+    # Kepler near-resonant pairs sit 1-2 % wide ([Fabrycky2014]: Fabrycky et al.
     # 2014; Lithwick & Wu 2012).  Two Neptune masses (fact sheet 17.147 M_E,
-    # REFERENCES §2c) around 1 M_sun, Delta = +1.5 %, must be flagged.
+    # [NSSDC]) around 1 M_sun, Delta = +1.5 %, must be flagged.
     for ratio_res in (2.0, 1.5, 4 / 3):
         assert sp.near_resonance(1.015 * ratio_res, MU_NEPTUNE_PAIR)
     # Earth-mass pair at the same offset: window ~0.4 %, not flagged (mu^(2/3) scaling).
@@ -241,7 +241,7 @@ def test_chain_length_max_vectorised_matches_chains():
 
 # --------------------------------------------------------------- overlap
 def test_overlap_zone_deck2013_derived_ratios():
-    # REFERENCES §6, derived from 1 - alpha = 1.46 eps^(2/7) (Deck, Payne &
+    # [Deck2013], derived from 1 - alpha = 1.46 eps^(2/7) (Deck, Payne &
     # Holman 2013; coefficient from memory), quoted to 3 decimals.
     eps = np.array([1e-5, 3e-5, 1e-4, 1e-3])
     np.testing.assert_allclose(sp.overlap_zone(eps / 2, eps / 2),
@@ -267,12 +267,12 @@ def test_in_overlap_zone():
 
 # ------------------------------------------------------- gap complexity
 def test_c_max_matches_gilbert_fabrycky_table():
-    # Gilbert & Fabrycky 2020 C_max table (REFERENCES §7, recalled from memory)
+    # Gilbert & Fabrycky 2020 C_max table ([GilbertFabrycky2020], recalled from memory)
     # for n = 2..9, agreement to <= 1e-3 as stated there.
     table = [0.106, 0.212, 0.291, 0.350, 0.398, 0.437, 0.469, 0.497]
     for n, c in zip(range(2, 10), table):
         assert sp.c_max(n) == pytest.approx(c, abs=1e-3)
-    # n = 10: recalled 0.520, but global maximisation gives 0.5220 (REFERENCES §7,
+    # n = 10: recalled 0.520, but global maximisation gives 0.5220 ([GilbertFabrycky2020],
     # derived); we test the computed value and keep the discrepancy documented.
     assert sp.c_max(10) == pytest.approx(0.5220, abs=1e-4)
     assert sp.c_max(11) > sp.c_max(10)  # computed beyond the table
@@ -301,9 +301,9 @@ def _periods_from_pstar(p, P0=3.0, span=np.log(40.0)):
 
 
 def test_gap_complexity_maximiser_and_equal_spacing():
-    # Equal log spacing: disequilibrium 0 -> C = 0 (REFERENCES §7, derived).
+    # Equal log spacing: disequilibrium 0 -> C = 0 ([GilbertFabrycky2020], derived).
     assert sp.gap_complexity(5.0 * 1.5 ** np.arange(6)) == pytest.approx(0.0, abs=1e-15)
-    # n = 2 maximiser p* = 0.122 / 0.878 (REFERENCES §7, derived, 3 decimals).
+    # n = 2 maximiser p* = 0.122 / 0.878 ([GilbertFabrycky2020], derived, 3 decimals).
     assert sp.gap_complexity(_periods_from_pstar([0.122, 0.878])) == pytest.approx(1.0, abs=1e-3)
     for n in (2, 4, 7, 12):
         p = sp.lmc_maximiser(n)

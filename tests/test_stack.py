@@ -8,7 +8,7 @@ import pytest
 from archsys.cli import main
 from archsys.errors import InputError
 from archsys.output import figures as F
-from archsys.stacking import collect_documents, sort_documents
+from archsys.output.figures.stack import collect_documents, sort_documents
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 
@@ -105,7 +105,7 @@ def test_corner_params_choose_the_paper_figure(korrin):
 def test_many_systems_are_split_into_pages_that_fit(tmp_path, preset):
     import matplotlib.image
     from archsys.output.style import PRESETS
-    from archsys.stacking import write_stacked_figure
+    from archsys.output.figures.stack import write_stacked_figure
     d = _survey_folder(tmp_path)
     docs = collect_documents([d]) * 12                      # 36 rows
     paths = write_stacked_figure(docs, tmp_path / "f", stem="many", preset=preset)

@@ -5,8 +5,6 @@ what can be re-analysed is repaired, and the outputs equal an uninterrupted run'
 partial table with exit status 0", "one line, exit 2" for a store that cannot be used (the file is
 left untouched).  Behaviour checks of archsys itself; the catalogue is invented for the test.
 """
-import os
-import pathlib
 import sqlite3
 
 import numpy as np

@@ -13,7 +13,7 @@ import pytest
 from archsys.cli import main
 from archsys.errors import InputError
 from archsys.survey.catalog import group_systems, parse_where, read_catalog, select
-from archsys.survey.columns import bind, canonical_map, load_column_map, system_mapping, where_names
+from archsys.survey.column_map import bind, canonical_map, load_column_map, system_mapping, where_names
 from archsys.survey.run import run_survey, system_seed
 from archsys.survey.store import csv_text, escape_cell
 

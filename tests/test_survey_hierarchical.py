@@ -1,11 +1,11 @@
 """Hierarchical population inference (Hogg, Myers & Bovy 2010, ApJ 725, 2166).
 
 Synthetic populations with known parameters: the eccentricity Beta(0.867,
-3.03) of Kipping 2013 (MNRAS 434, L51; RV planets, REFERENCES.md 8a,
+3.03) of Kipping 2013 (MNRAS 434, L51; RV planets, [Kipping2013],
 verified), observed with per-planet Gaussian errors between 0.01 and 0.1
 (typical of RV eccentricities: common practice), and tilts from a Rayleigh
 with sigma = 2 deg (inside the 1.0-2.2 deg mode of Kepler multis, Fabrycky et
-al. 2014, REFERENCES.md 8b, verified).
+al. 2014, [Fabrycky2014], verified).
 """
 import csv
 import math
@@ -57,7 +57,7 @@ def test_beta_recovered_from_catalogue_survey(tmp_path):
     d = ep["beta"]["diagnostics"]
     assert 1.0 < d["ess_min"] <= d["ess_median"] <= d["samples_per_object"]
     assert ep["ess_min"] == min(d["ess_min"], ep["rayleigh"]["diagnostics"]["ess_min"])
-    # the Rayleigh fit is reported too; its mean sigma*sqrt(pi/2) tracks the sample mean (REFERENCES 8a identity)
+    # the Rayleigh fit is reported too; its mean sigma*sqrt(pi/2) tracks the sample mean ([VanEylen2019] identity)
     s = ep["rayleigh"]["sigma"]["median"]
     assert s * math.sqrt(math.pi / 2) == pytest.approx(np.mean(e), rel=0.25)
 

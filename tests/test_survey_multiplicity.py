@@ -4,16 +4,16 @@ Recovery: synthetic catalogues made by the forward model with plain isotropic ob
 importance sampling the fit uses) and a different seed.  Real data: the Open Exoplanet Catalogue extract
 (Rein 2012, arXiv:1211.7121, snapshot 2026-08-22) with tests/data/oec_columns.toml, compared with
 
-* Fabrycky et al. 2014 (ApJ 790, 146): mode of the mutual inclinations 1.0-2.2 deg (REFERENCES.md §8b,
+* Fabrycky et al. 2014 (ApJ 790, 146): mode of the mutual inclinations 1.0-2.2 deg ([Fabrycky2014],
   verified).  For a Rayleigh law the mode is its sigma; the mutual inclination of two planets tilted by
   Rayleigh(s) from one plane is Rayleigh(sqrt(2) s) for small angles, so our tilt sigma should be
   1.0/sqrt(2)-2.2/sqrt(2) = 0.71-1.56 deg (derived).
-* Fang & Margot 2012 (ApJ 761, 92): more than 85 % of planets within 3 deg of a common plane (§8b,
-  verified), i.e. a tilt sigma below 1.55 deg for a single Rayleigh (§8b, derived).
+* Fang & Margot 2012 (ApJ 761, 92): more than 85 % of planets within 3 deg of a common plane ([FangMargot2012],
+  verified), i.e. a tilt sigma below 1.55 deg for a single Rayleigh ([FangMargot2012], derived).
 * Lissauer et al. 2011 (ApJS 197, 8): a single population that reproduces the numbers of multi-transiting
   systems predicts too few single-transit systems (an excess of singles, the later "Kepler dichotomy";
-  from memory, not in REFERENCES.md), with inclination dispersions of a few degrees at most (from memory).
-  The dichotomy itself is verified as a headline of He, Ford & Ragozzine 2019 (§8b).
+  from memory, [Lissauer2011]), with inclination dispersions of a few degrees at most (from memory).
+  The dichotomy itself is verified as a headline of He, Ford & Ragozzine 2019 ([He2019]).
 """
 import csv
 import math
@@ -25,19 +25,16 @@ import pytest
 from archsys.cli import main
 from archsys.survey import multiplicity as mp
 from archsys.survey.catalog import group_systems, read_catalog
-from archsys.survey.columns import bind, load_column_map
+from archsys.survey.column_map import bind, load_column_map
 from archsys.survey.multiplicity_block import MultiplicitySettings, transit_multiplicity
-from archsys.survey.multiplicity_figure import plot_transit_multiplicity
+from archsys.output.figures.multiplicity import plot_transit_multiplicity
 from archsys.survey.multiplicity_fit import CountModel, fit_counts, single_excess
 from archsys.survey.run import run_survey
 
-OEC = next((c for c in (pathlib.Path(__file__).resolve().parents[2] / "shared" / "data"
-                        / "open_exoplanet_catalogue_planets.csv",
-                        pathlib.Path("/work/shared/data/open_exoplanet_catalogue_planets.csv")) if c.exists()),
-           pathlib.Path("/work/shared/data/open_exoplanet_catalogue_planets.csv"))
+OEC = pathlib.Path(__file__).parent / "data" / "oec" / "open_exoplanet_catalogue_planets.csv"  # Rein 2012; see data/oec/README.md
 COLUMNS = pathlib.Path(__file__).parent / "data" / "oec_columns.toml"
 FABRYCKY_TILT_DEG = (1.0 / math.sqrt(2.0), 2.2 / math.sqrt(2.0))     # derived, see module docstring
-FANG_MARGOT_MAX_TILT_DEG = 1.55                                      # derived (REFERENCES §8b)
+FANG_MARGOT_MAX_TILT_DEG = 1.55                                      # derived ([FangMargot2012])
 
 
 def _pool(seed=0, n=2000):
@@ -107,8 +104,6 @@ def test_coverage_over_synthetic_catalogues():
 
 @pytest.fixture(scope="module")
 def oec_block():
-    if not OEC.exists():
-        pytest.skip("open catalogue extract not present")
     cat = read_catalog(str(OEC))
     cmap = bind(load_column_map(str(COLUMNS)), cat)
     groups, _ = group_systems(cat, cmap.system)

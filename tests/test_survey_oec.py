@@ -5,7 +5,7 @@ Known bad rows are named in the extract's README (eccentricities above 1 or
 below 0); the rows checked here were found in the file itself:
 TOI-1272 c (e = 280), HD 93351 b (e = -0.129) and HD 155918 b (e = -0.080).
 The period-ratio asymmetry (excess just wide of 3:2 and 2:1, deficit just
-narrow) is that of Fabrycky et al. 2014 (ApJ 790, 146; REFERENCES.md 6,
+narrow) is that of Fabrycky et al. 2014 (ApJ 790, 146; [Fabrycky2014],
 verified); only its sign is checked.
 """
 import csv
@@ -18,13 +18,8 @@ import pytest
 from archsys.cli import main
 from archsys.survey.run import run_survey
 
-# the open catalogue in ../shared beside the checkout (CI lays it there), else this workplace's copy
-OEC = next((c for c in (pathlib.Path(__file__).resolve().parents[2] / "shared" / "data"
-                        / "open_exoplanet_catalogue_planets.csv",
-                        pathlib.Path("/work/shared/data/open_exoplanet_catalogue_planets.csv")) if c.exists()),
-           pathlib.Path("/work/shared/data/open_exoplanet_catalogue_planets.csv"))
+OEC = pathlib.Path(__file__).parent / "data" / "oec" / "open_exoplanet_catalogue_planets.csv"  # Rein 2012; see data/oec/README.md
 COLUMNS = pathlib.Path(__file__).parent / "data" / "oec_columns.toml"
-pytestmark = pytest.mark.skipif(not OEC.exists(), reason="open catalogue extract not present")
 
 
 def _rejects(out):
@@ -137,7 +132,7 @@ def test_full_catalogue_fast_mode(tmp_path):
 def test_where_on_real_columns():
     """--where over the extract's own columns: discovery_method is lower case there ('transit')."""
     from archsys.survey.catalog import group_systems, parse_where, read_catalog, select
-    from archsys.survey.columns import bind, load_column_map, where_names
+    from archsys.survey.column_map import bind, load_column_map, where_names
     cat = read_catalog(OEC)
     cmap = bind(load_column_map(COLUMNS), cat)
     names = where_names(cmap, cat.columns)

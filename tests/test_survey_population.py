@@ -3,7 +3,7 @@
 Synthetic two-planet systems (invented) with period ratios log-uniform in
 [1.2, 3.0]; the "injected" population moves a quarter of the systems to
 1-2 % wide of 3:2, the typical offset of Kepler's near-resonant pairs
-(Fabrycky et al. 2014; Lithwick & Wu 2012; REFERENCES.md 6, verified).
+(Fabrycky et al. 2014; Lithwick & Wu 2012; [Fabrycky2014], verified).
 """
 import csv
 import math

@@ -2,7 +2,7 @@
 
 Sources: super-period P_sup = 1/|j/P' - (j-1)/P| and Delta = (P'/P)(j-1)/j - 1 of Lithwick, Xie
 & Wu 2012 (ApJ 761, 122), with the worked example P = 10 d, P' = 15.3 d, j = 3 -> 255 d
-(REFERENCES.md section 6, derived); Laplace coefficients against complete elliptic integrals
+([LithwickXieWu2012], derived); Laplace coefficients against complete elliptic integrals
 from scipy (Murray & Dermott 1999 eq. 6.67-6.69 relations, from memory); the TTV amplitudes
 against a direct three-body integration written here (scipy's DOP853 integrator).
 """

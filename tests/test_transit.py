@@ -1,4 +1,4 @@
-"""Transit geometry (archsys.physics.transit) against worked cases of REFERENCES §9."""
+"""Transit geometry (archsys.physics.transit) against worked cases of [Winn2010]."""
 import math
 
 import numpy as np
@@ -12,16 +12,16 @@ from archsys.model.reader import build_system
 from archsys.physics import constants as C
 from archsys.physics import transit as tr
 
-SIDEREAL_YEAR_DAY = 365.256363  # REFERENCES §9 worked case (sidereal year; from memory per §1)
+SIDEREAL_YEAR_DAY = 365.256363  # Sun-Earth worked case of [Winn2010] (sidereal year from memory, docs/references.md)
 
 
 def test_sun_earth_scaled_semi_major_axis():
-    # 1 au / R_sun^N = 215.032 16 (REFERENCES §1/§9, derived from IAU 2012 B2 and 2015 B3).
+    # 1 au / R_sun^N = 215.032 16 ([IAU2012], [Prsa2016], derived from IAU 2012 B2 and 2015 B3).
     assert float(tr.a_over_rstar(1.0, 1.0)) == pytest.approx(215.03216, abs=5e-6)
 
 
 def test_sun_density_from_transit_matches_nominal_sun():
-    # Seager & Mallen-Ornelas 2003: rho* = 3 pi (a/R*)^3 / (G P^2).  REFERENCES §9 worked
+    # Seager & Mallen-Ornelas 2003: rho* = 3 pi (a/R*)^3 / (G P^2).  [SeagerMallenOrnelas2003] worked
     # case: Sun-Earth gives 1.40978 g/cm^3, and M_sun^N / (4/3 pi R_sun^N^3) = 1.40978
     # (agree to 3e-6; the difference is M_E in Kepler III and a != 1 au exactly).
     aor = float(tr.a_over_rstar(1.0, 1.0))
@@ -36,7 +36,7 @@ def test_sun_density_from_transit_matches_nominal_sun():
 
 def test_sun_earth_transit_probability():
     # Winn 2010 eq. 9, circular: p = R*/a = 0.4650 %; grazing (R* + R_E)/a = 0.4693 %
-    # (REFERENCES §9, derived).
+    # ([Winn2010], derived).
     aor = tr.a_over_rstar(1.0, 1.0)
     assert float(tr.transit_probability(aor)) == pytest.approx(0.004650, abs=5e-7)
     k_earth = C.R_EARTH_M / C.R_SUN_M
@@ -49,7 +49,7 @@ def test_sun_earth_transit_probability():
 
 
 def test_inclination_from_impact_parameter_worked_case():
-    # b = 0.5, a/R* = 10 -> i = 87.134 deg (REFERENCES §9, derived; Winn 2010 eq. 7).
+    # b = 0.5, a/R* = 10 -> i = 87.134 deg ([Winn2010], derived; Winn 2010 eq. 7).
     assert math.degrees(float(tr.inclination_from_b(0.5, 10.0))) == pytest.approx(87.134, abs=5e-4)
     # b = 0 is edge-on; b beyond the projected distance has no solution (NaN).
     assert float(tr.inclination_from_b(0.0, 10.0)) == pytest.approx(math.pi / 2, abs=1e-15)
@@ -58,7 +58,7 @@ def test_inclination_from_impact_parameter_worked_case():
 
 def test_hd209458b_from_memory():
     # HD 209458 b, Torres, Winn & Holman 2008 (from memory, low-medium confidence,
-    # REFERENCES §9): a/R* = 8.76, i = 86.71 deg -> b = 0.503 (recomputed) and
+    # [Torres2008]): a/R* = 8.76, i = 86.71 deg -> b = 0.503 (recomputed) and
     # rho* = 1.024 g/cm^3 with P = 3.52474859 d.
     b = float(tr.impact_parameter(8.76, math.radians(86.71)))
     assert b == pytest.approx(0.503, abs=5e-4)
@@ -87,7 +87,7 @@ def test_eccentric_impact_parameter_round_trip(aor, u, e, w):
 
 def test_isotropic_orientations_via_uniform_b():
     # For isotropic orbit normals cos i is uniform, i.e. b = (a/R*) cos i is uniform on
-    # [0, a/R*]; then <sin i> = pi/4 and median sin i = sqrt(3)/2 (REFERENCES §9, derived).
+    # [0, a/R*]; then <sin i> = pi/4 and median sin i = sqrt(3)/2 ([Winn2010], derived).
     # A uniform-in-i prior would give <sin i> = 2/pi instead (the common mistake).
     rng = np.random.default_rng(2024)
     n = 200_000
@@ -104,7 +104,7 @@ def test_isotropic_orientations_via_uniform_b():
 
 def test_transiting_planet_draws_are_isotropic_given_transit():
     # archsys draws b uniform on [0, 1 + Rp/R*] for a transiting planet without a
-    # measured b: isotropic orientations conditioned on a transit (REFERENCES §9),
+    # measured b: isotropic orientations conditioned on a transit ([Winn2010]),
     # so (a/R*) cos i must be uniform on that interval (KS test, scipy reference).
     data = {"name": "T", "star": {"mass": 1.0, "radius": 1.0},
             "planet": [{"name": "T b", "period": 10.0, "ror": 0.1, "transiting": True}]}

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from archsys import read_system
-from archsys.output.document import build_document
+from archsys.output.json_document import build_document
 from archsys.output.formats import render
 from archsys.output.wording import verdict_sentence
 from archsys.pipeline import Analysis, AnalysisOptions, analyze
@@ -208,7 +208,7 @@ def _compiles(tmp_path, tex, name):
 
 
 def test_flagged_and_infinite_latex_compiles(tmp_path):
-    from archsys.output.latex import standalone
+    from archsys.output.formats.latex import standalone
     res = analyze(_system(tmp_path, RV_PAIR), AnalysisOptions(n_draws=300, mode="direct"))
     post = res.posterior
     post.notes = {n: dict(v, ecc="prior only (no eccentricity data)") for n, v in post.notes.items()}

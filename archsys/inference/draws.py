@@ -3,7 +3,7 @@
 When no joint constraint binds (independent Gaussian or asymmetric summaries,
 no stability prior) the posterior of each quantity is its summary
 distribution, and derived quantities are propagated draw by draw.  This is the
-"direct" path; the MCMC engine (:mod:`archsys.inference.sampler`) is used when
+"direct" path; the MCMC engine (:mod:`archsys.inference.route`) is used when
 constraints couple the parameters.
 """
 from __future__ import annotations

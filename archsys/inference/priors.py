@@ -87,11 +87,6 @@ from scipy import special, stats
 
 from archsys.errors import InputError
 
-try:  # Python >= 3.11
-    import tomllib
-except ModuleNotFoundError:  # pragma: no cover - Python 3.10
-    import tomli as tomllib
-
 __all__ = [
     "FAMILIES", "QUANTITIES", "DEFAULT_PRIORS", "Prior",
     "load_prior", "list_priors", "default_prior",

@@ -13,7 +13,6 @@ import math
 import astropy.units as u
 import numpy as np
 
-from ..compat import tomllib
 from ..limits import MAX_NAME_CHARS, clip
 from ..errors import InputError
 from .inputfile import read_input_bytes

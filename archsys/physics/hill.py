@@ -25,7 +25,7 @@ HILL_CRIT = 2.0 * math.sqrt(3.0)
 #: Slope b of log10(t / P_inner) = b * Delta + c.  From memory, heuristic:
 #: recalled for the mu = 1e-7, equally spaced N >= 3 integrations of
 #: Chambers, Wetherill & Boss (1996) with a_1 = 1 au (so years = inner orbits).
-#: Low confidence (REFERENCES.md section 11, item 1); not a literature value.
+#: Low confidence ([Chambers1996]); not a literature value.
 CHAMBERS_B = 1.18
 #: Intercept c of the same fit.  From memory, heuristic; low confidence.
 CHAMBERS_C = -1.66
@@ -167,7 +167,7 @@ def gladman_margin(a1, a2, m1, m2, m_star, e1=0.0, e2=0.0):
 
     with :math:`\\mu_i = m_i/M_\\star`, :math:`\\mu = \\mu_1 + \\mu_2`,
     :math:`\\gamma_i = \\sqrt{1 - e_i^2}`, :math:`\\delta = \\sqrt{a_2/a_1}`.
-    The prefactors of this form are from memory (REFERENCES.md section 4); its
+    The prefactors of this form are from memory ([Gladman1993]); its
     circular limit is :math:`\\Delta = 2\\sqrt{3}` mutual Hill radii, as in
     Gladman (1993).
 

@@ -16,7 +16,7 @@ A pair near a j:(j-k) mean-motion resonance has transit-timing variations
 with :math:`\\Delta = (P'/P)(j-1)/j - 1`, :math:`\\mu = m/M_\\star`, and f, g
 the first-order disturbing-function coefficients (Laplace coefficients; the
 indirect term enters g for 2:1).  The amplitude formulae are from memory of
-LXW12 (REFERENCES.md section 6 verifies the super-period and Delta only) and
+LXW12 ([LithwickXieWu2012] verifies the super-period and Delta only) and
 hold for small eccentricities, outside the resonance and away from exact
 commensurability; they are order-of-magnitude estimates and labelled
 "approximate" wherever they are shown.  Z_free is the free-eccentricity

@@ -31,4 +31,4 @@ def load_builtin():
     _loaded = True
 
 
-from .summary import compute_scores, per_draw_arrays  # noqa: E402
+from .compute import compute_scores, per_draw_arrays  # noqa: E402

@@ -181,7 +181,7 @@ def column(key, table=None):
 
     This is the one place figures and renderers get a key's label, LaTeX label and unit.
     """
-    from .columns import BASE_COLUMNS
+    from .planet_columns import BASE_COLUMNS
     for c in list(BASE_COLUMNS) + score_columns():
         if c.key == key and (table is None or c.table == table):
             return c

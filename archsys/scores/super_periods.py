@@ -23,7 +23,7 @@ __all__ = ["super_period_block", "MAX_OFFSET"]
 #: Largest |Delta| (fractional offset of the period ratio from the resonance,
 #: posterior median) for which a super-period is reported.  A choice of this
 #: tool: LXW12's formulae assume the pair is near, but not in, resonance, and
-#: Kepler's near-resonant pairs sit 1-2 % wide (REFERENCES.md section 6).
+#: Kepler's near-resonant pairs sit 1-2 % wide ([Fabrycky2014]).
 MAX_OFFSET = 0.05
 MINUTES_PER_DAY = 1440.0
 CITATION = "Lithwick, Xie & Wu 2012"

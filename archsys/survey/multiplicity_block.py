@@ -29,7 +29,7 @@ import numpy as np
 from ..errors import InputError
 from ..physics.constants import R_EARTH_M, R_SUN_M
 from .catalog import evaluate, parse_where
-from .columns import system_mapping, where_names
+from .column_map import system_mapping, where_names
 from .multiplicity import (GLADMAN_HILL, K_MAX, N_MAX, PERIOD_JITTER_DEX, Detectability, MultiplicityModel,
                            PlanetPool)
 from .multiplicity_fit import (MBAR_MAX, SIGMA_RANGE_DEG, CountModel, count_summary, fit_counts,
@@ -197,7 +197,7 @@ def _side_by_side(per_system, sigma_pop):
 
 def transit_multiplicity(groups, cmap, cat_columns, cat_units, settings=None, seed=0, per_system_fit=None):
     """The ``transit_multiplicity`` block of population.json (see module docstring); JSON-ready, no NaN."""
-    from ..output.document import _finite
+    from ..output.json_document import _finite
     return _finite(_block(groups, cmap, cat_columns, cat_units, settings, seed, per_system_fit))
 
 

@@ -32,7 +32,6 @@ import json
 import math
 import os
 import pathlib
-import time
 import zlib
 from dataclasses import replace
 
@@ -43,14 +42,14 @@ from ..errors import InputError
 from ..options import FAST_DRAWS, AnalysisOptions, SurveyOptions, split_keywords
 from .catalog import group_systems, read_catalog
 from .where import parse_where, select
-from .columns import bind, canonical_map, load_column_map, where_names
+from .column_map import bind, canonical_map, load_column_map, where_names
 from .lock import SurveyLock
 from .identity import merge_notes
 from .store import STORE_FORMAT, STORE_NAME, SurveyStore, header_of, write_csv
 from .store_check import check_and_repair, reconcile
 from .workers import SAMPLES_PER_PLANET, dask_client, process_system, progress_bar, run_tasks
 
-__all__ = ["run_survey", "survey_benchmark", "system_seed", "process_system",
+__all__ = ["run_survey", "system_seed", "process_system",
            "FAST_DRAWS", "SAMPLES_PER_PLANET", "AnalysisOptions", "SurveyOptions"]
 
 _FIRST_SYSTEM_COLS = ("system", "n_planets", "n_pairs", "n_transiting", "sampler", "warnings")
@@ -234,7 +233,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
         write_csv(out / "pairs.csv", header_of(pairs, _FIRST_PAIR_COLS), pairs)
         write_csv(out / "rejects.csv", list(REJECT_COLS), rejects)
         if sv.figures:
-            from .figures import survey_figures
+            from ..output.figures.survey_set import survey_figures
             survey_figures(pop, ok_rows, pairs, planets, out / "figures")
         atomic_write(out / "population.json", json.dumps(pop, indent=2, allow_nan=False) + "\n")
     return pop
@@ -291,37 +290,3 @@ def _hier_inputs(store, ids, ok_rows):
     if skipped:
         info["skipped_unknown_interim_prior"] = skipped
     return ecc_s, ecc_l, psi_s, psi_l, info
-
-
-# --------------------------------------------------------------------------
-# Benchmark
-# --------------------------------------------------------------------------
-
-def survey_benchmark(catalog, columns=None, jobs=1, out=None, mode="fast", draws=None, where=(),
-                     limit=None, seed=0):
-    """Time one survey (no figures) and return its figures of merit.
-
-    Returns
-    -------
-    dict
-        ``wall_s``, ``systems``, ``systems_per_s``, ``analysed``, ``rejected``,
-        ``jobs``, ``mode``, ``draws``.
-    """
-    import tempfile
-    tmp = None
-    if out is None:
-        tmp = tempfile.TemporaryDirectory(prefix="archsys-bench-")
-        out = tmp.name
-    try:
-        t0 = time.perf_counter()
-        pop = run_survey(catalog, out, AnalysisOptions(n_draws=draws, mode=mode, seed=seed, jobs=jobs),
-                         SurveyOptions(columns=columns, where=tuple(where), limit=limit, figures=False))
-        wall = time.perf_counter() - t0
-    finally:
-        if tmp is not None:
-            tmp.cleanup()
-    c = pop["counts"]
-    n = c["systems_selected"]
-    return {"wall_s": wall, "systems": n, "systems_per_s": n / wall if wall > 0 else float("nan"),
-            "analysed": c["systems_analysed"], "rejected": c["systems_rejected"], "jobs": jobs,
-            "mode": mode, "draws": pop["options"]["n_draws"]}

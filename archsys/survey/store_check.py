@@ -138,7 +138,7 @@ def _json_ok(text, want=dict):
 
 def _problem(rows):
     """What is structurally wrong with one system's rows, or None."""
-    (srow,), planets, pairs, rejects = rows[0][:1], rows[1], rows[2], rows[3]
+    (srow,), planets, pairs = rows[0][:1], rows[1], rows[2]
     sid, status, n, kind, row_json, document = srow
     if status not in KNOWN_STATUS:
         return f"unknown status {str(status)[:20]!r}"

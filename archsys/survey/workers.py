@@ -97,7 +97,7 @@ def _prior_name(post, key, default):
 
 def _finite_json(x):
     """The document with NaN/inf replaced by None (JSON has no such numbers)."""
-    from ..output.document import _finite
+    from ..output.json_document import _finite
     return _finite(x)
 
 

@@ -99,11 +99,11 @@ def make_figures(draws, document, preset=None, truths=None, priors=None, corner_
         items.append(FigureItem("period_ratios", period_ratio_figure([document], preset=p),
                                 f"Adjacent period ratios of {name} (median and 68.3 % interval) with first-, "
                                 "second- and third-order mean-motion resonances.", p))
-    from ..figure_transit_odds import CAPTION as TRANSIT_CAPTION, transit_odds_figure
+    from .transit_odds import CAPTION as TRANSIT_CAPTION, transit_odds_figure
     transit_fig = transit_odds_figure(document, preset=p)
     if transit_fig is not None:
         items.append(FigureItem("transit_odds", transit_fig, TRANSIT_CAPTION.format(name=name), p))
-    from ..figure_timing import CAPTION as TIMING_CAPTION, timing_figure
+    from .timing import CAPTION as TIMING_CAPTION, timing_figure
     timing_fig = timing_figure(document, preset=p)
     if timing_fig is not None:
         items.append(FigureItem("timing", timing_fig, TIMING_CAPTION.format(

@@ -17,11 +17,10 @@ any numeric column of a survey's ``systems.csv``.
 """
 from __future__ import annotations
 
-import json
 import math
 import pathlib
 
-from .errors import InputError
+from ...errors import InputError
 
 __all__ = ["collect_documents", "sort_documents", "SORT_KEYS", "write_stacked_figure"]
 
@@ -49,7 +48,7 @@ def _num(x):
 
 def _survey_documents(folder, where=()):
     """Report-like documents of every analysed system of a survey folder that passes ``where``."""
-    from .survey.catalog import group_systems, parse_where, read_catalog, select
+    from ...survey.catalog import group_systems, parse_where, read_catalog, select
     folder = pathlib.Path(folder)
     for name in ("systems.csv", "planets.csv", "pairs.csv"):
         if not (folder / name).is_file():
@@ -116,16 +115,16 @@ def collect_documents(sources, options=None, where=()):
         if path.is_dir():
             docs += _survey_documents(path, where)
         elif path.suffix.lower() == ".npz":
-            from .output.chains import load_posterior
+            from ..chains import load_posterior
             _, meta = load_posterior(path)
             doc = meta.get("document") or {}
             if not doc.get("planets"):
                 raise InputError("chains file has no report document", source=str(path))
             docs.append(doc)
         elif path.suffix.lower() == ".json":
-            from .model.inputfile import read_input_bytes
-            from .limits import parse_json
-            from .output.doc_check import check_document
+            from ...model.inputfile import read_input_bytes
+            from ...limits import parse_json
+            from ..doc_check import check_document
             try:
                 text = read_input_bytes(path, "report document").decode("utf-8")
             except UnicodeDecodeError as exc:
@@ -136,8 +135,8 @@ def collect_documents(sources, options=None, where=()):
         else:
             files.append(path)
     if files:
-        from . import read_system
-        from .pipeline import analyze
+        from ... import read_system
+        from ...pipeline import analyze
         systems = [read_system(f) for f in files]        # validate every file before any analysis
         docs += [analyze(s, options).document for s in systems]
     if where and not any(pathlib.Path(s).is_dir() for s in sources):
@@ -188,10 +187,10 @@ def write_stacked_figure(docs, fig_dir, stem="architecture_stack", preset=None, 
 
     Returns the written paths.
     """
-    from .output.figures import architecture_figure
-    from .output.figures.common import FigureItem
-    from .output.files import atomic_write, safe_name
-    from .output.style import get_preset
+    from . import architecture_figure
+    from .common import FigureItem
+    from ..files import atomic_write, safe_name
+    from ..style import get_preset
     if limit is not None:
         docs = docs[:limit]
     if not docs:

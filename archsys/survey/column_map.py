@@ -83,7 +83,6 @@ from dataclasses import dataclass, field
 
 import astropy.units as u
 
-from ..compat import tomllib
 from ..limits import clip
 from ..errors import InputError
 from ..model.inputfile import read_input_bytes

@@ -3,7 +3,7 @@ r"""LaTeX tables of the derived parameters, for ``\input`` into a paper.
 Values carry asymmetric errors as ``$x^{+a}_{-b}$`` (``$x \pm a$`` when the
 two agree after rounding), rounded by their uncertainty with
 :func:`archsys.output.numbers.round_uncertain`; units sit in a second header
-row.  Labels and units come from the table model (:mod:`archsys.output.tables`).
+row.  Labels and units come from the table model (:mod:`archsys.output.table_model`).
 
 :func:`render_latex` writes plain ``tabular`` environments with ``\hline`` rules, so
 the fragment compiles with any document class and no extra package (wide
@@ -15,9 +15,9 @@ from __future__ import annotations
 
 import io
 
-from .files import safe_name
-from .tables import document_tables, intro_line
-from .tex import escape
+from ..files import safe_name
+from ..table_model import document_tables, intro_line
+from ..latex_escape import escape
 
 __all__ = ["render_latex", "render_aastex", "latex_cell", "escape", "standalone"]
 
@@ -148,7 +148,7 @@ def _deluxetable(columns, rows, caption, label, comments=(), marks=None):
 
 def render_aastex(doc) -> str:
     r"""The tables of ``doc`` as AAS ``deluxetable*`` environments (for ``\input`` with the AASTeX class)."""
-    from ..scores.registry import Column
+    from ...scores.registry import Column
     t = document_tables(doc)
     name = doc.get("system", "system")
     key = safe_name(name).lower()

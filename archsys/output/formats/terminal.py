@@ -6,8 +6,8 @@ only when writing to a terminal.
 """
 from __future__ import annotations
 
-from .numbers import plain_cell
-from .tables import document_tables, intro_line
+from ..numbers import plain_cell
+from ..table_model import document_tables, intro_line
 
 __all__ = ["render_text"]
 

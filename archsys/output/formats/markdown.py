@@ -1,7 +1,7 @@
 """Markdown report (GitHub-flavoured pipe tables), rendered from the report document."""
 from __future__ import annotations
 
-from .tables import document_tables, intro_line, provenance_items, sampler_items
+from ..table_model import document_tables, intro_line, provenance_items, sampler_items
 
 __all__ = ["render_markdown", "md_cell"]
 

@@ -13,7 +13,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
 
-from .style import GREY, PALETTE, get_preset, rc_params
+from ..style import GREY, PALETTE, get_preset, rc_params
 
 __all__ = ["transit_odds_figure", "CAPTION"]
 

@@ -8,8 +8,8 @@ from __future__ import annotations
 import base64
 from html import escape
 
-from .tables import document_tables, intro_line, provenance_items, sampler_items
-from .style import PALETTE
+from ..table_model import document_tables, intro_line, provenance_items, sampler_items
+from ..style import PALETTE
 
 __all__ = ["render_html", "html_cell"]
 

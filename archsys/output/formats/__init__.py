@@ -1,7 +1,7 @@
 """Report formats: :func:`render` one format, or :func:`write_outputs` all of them.
 
 Every renderer (text, Markdown, HTML, LaTeX) reads the one table model of
-:mod:`archsys.output.tables`; this module only dispatches, so the renderers
+:mod:`archsys.output.table_model`; this module only dispatches, so the renderers
 never import it back (no import cycle).  :func:`write_outputs` renders every
 format, the chains file, the provenance sidecar and the figures in memory and
 only then writes them, each atomically.
@@ -12,14 +12,14 @@ import json
 import os
 import pathlib
 
-from ..errors import InputError
-from ..scores.registry import Column
+from ...errors import InputError
+from ...scores.registry import Column
 from . import html as html_out
 from . import latex as latex_out
 from . import markdown as markdown_out
-from . import text as text_out
-from .numbers import short_name
-from .tables import Table, Tables, document_tables, format_cell, verdict_lines
+from . import terminal as text_out
+from ..numbers import short_name
+from ..table_model import Table, Tables, document_tables, format_cell, verdict_lines
 
 __all__ = ["Column", "Table", "Tables", "document_tables", "format_cell", "short_name",
            "verdict_lines", "FORMATS", "render", "write_outputs", "document_of"]
@@ -61,7 +61,7 @@ def render(result, fmt, figures=None, preset=None):
         return text_out.render_text(doc)
     if name == "html":
         if figures is None:
-            from .figures import make_figures
+            from ..figures import make_figures
             figures = make_figures(_draws_of(result), doc, preset=preset)
         return html_out.render_html(doc, figures)
     raise InputError(f"unknown report format {fmt!r}; choose one of {', '.join(FORMATS)}", field="format")
@@ -94,10 +94,10 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, co
     written : dict
         file name -> :class:`pathlib.Path` of every file written.
     """
-    from .figures import figure_files, make_figures
-    from .files import atomic_write, safe_name
-    from .provenance import build_provenance, provenance_json
-    from .style import get_preset
+    from ..figures import figure_files, make_figures
+    from ..files import atomic_write, safe_name
+    from ..provenance import build_provenance, provenance_json
+    from ..style import get_preset
 
     if out_dir is None and fig_dir is None:
         return {}
@@ -124,7 +124,7 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, co
         files[out / f"{stem}.txt"] = (text_out.render_text(doc), "w")
         post = getattr(result, "posterior", None)
         if post is not None:
-            from .chains import posterior_bytes
+            from ..chains import posterior_bytes
             files[out / f"{stem}.chains.npz"] = (posterior_bytes(post, doc), "wb")
         hashed = {_display_path(p, out): data for p, (data, _) in files.items()}
         prov = build_provenance(doc, hashed, preset=preset_name)

@@ -8,18 +8,18 @@ from __future__ import annotations
 
 import pathlib
 
-from ..output.figures.common import figure_bytes
-from ..output.figures.survey import (KIPPING2013, plot_eccentricity_population, plot_gap_complexity,
+from .common import figure_bytes
+from .survey import (KIPPING2013, plot_eccentricity_population, plot_gap_complexity,
                                      plot_hill_separations, plot_multiplicity, plot_period_ratios)
-from ..output.files import atomic_write
-from ..output.style import get_preset
+from ..files import atomic_write
+from ..style import get_preset
 
 __all__ = ["survey_figures", "plot_period_ratios", "plot_hill_separations", "plot_multiplicity",
            "plot_gap_complexity", "plot_eccentricity_population", "KIPPING2013"]
 
 
 def _transit_figure(block, preset):
-    from .multiplicity_figure import plot_transit_multiplicity
+    from .multiplicity import plot_transit_multiplicity
     return plot_transit_multiplicity(block, preset=preset)
 
 

@@ -16,9 +16,9 @@ import json
 from dataclasses import dataclass, field
 
 from ..scores.registry import Column, column, score_columns
-from ..scores.columns import PLANET_COLUMNS, STAR_COLUMNS
+from ..scores.planet_columns import PLANET_COLUMNS, STAR_COLUMNS
 from .numbers import fmt_plain, format_value, is_summary, short_name
-from .tex import escape
+from .latex_escape import escape
 from .wording import prior_lines
 
 __all__ = ["Table", "Tables", "document_tables", "format_cell", "verdict_lines", "sampler_items",

@@ -14,7 +14,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.ticker import FuncFormatter, NullFormatter
 
-from .style import PALETTE, get_preset, rc_params
+from ..style import PALETTE, get_preset, rc_params
 
 __all__ = ["timing_figure", "CAPTION"]
 

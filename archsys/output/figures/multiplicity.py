@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..output.style import PALETTE, figure_size, rc_params
+from ..style import PALETTE, figure_size, rc_params
 
 __all__ = ["plot_transit_multiplicity"]
 
