@@ -30,6 +30,7 @@ from dataclasses import dataclass, field
 
 from ..errors import InputError
 from ..model.inputfile import MAX_TABLE_BYTES, read_input_bytes
+from ..limits import MAX_CELL_CHARS
 from .identity import bad_text, decode_cell, screen_rows, system_key
 
 __all__ = ["Catalog", "SystemRows", "read_catalog", "group_systems", "parse_where",
@@ -154,10 +155,16 @@ def _read_csv_rows(path, reader, delim):
             continue
         row = len(rows) + 1
         why = None
-        m = _NOT_UTF8.search(",".join(rec))
+        joined = ",".join(rec)
+        m = _NOT_UTF8.search(joined)
         if m:
             why = (f"line {lineno} is not UTF-8 text (byte 0x{ord(m.group(0)) - 0xdc00:02x}); the row is "
                    f"skipped, save the table as UTF-8")
+        elif len(joined) > MAX_CELL_CHARS and max(map(len, rec)) > MAX_CELL_CHARS:
+            j = max(range(len(rec)), key=lambda k: len(rec[k]))
+            col = header[j][:60] if j < len(header) else f"#{j + 1}"
+            why = (f"line {lineno}: column '{col}': {len(rec[j])} characters; a cell may have at most "
+                   f"{MAX_CELL_CHARS}; the row is skipped")
         elif len(rec) > len(header):      # a bad row is reported, never guessed at
             why = (f"line {lineno} has {len(rec)} cells but the header has {len(header)} columns; "
                    f"check the quoting of that line")
@@ -229,7 +236,8 @@ def read_catalog(path) -> Catalog:
         header, cols, units, malformed = _read_parquet(p)
     else:
         header, cols, units, malformed = _read_astropy(p, fmt)
-    malformed, raw = screen_rows(header, cols, list(malformed), raw)   # not UTF-8, over-long cells
+    if fmt != "csv":        # (CSV rows are screened as they are read, in _read_csv_rows)
+        malformed, raw = screen_rows(header, cols, list(malformed), raw)   # not UTF-8, over-long cells
     seen = set()
     for j, h in enumerate(header, start=1):
         if not h:

@@ -49,9 +49,13 @@ def screen_rows(header, cols, malformed, raw):
     known = {r for r, _ in malformed}
     found = {}
     for h in header:
-        for i, v in enumerate(cols[h]):
-            if isinstance(v, str) and i + 1 not in known and i + 1 not in found:
-                why = bad_text(v)
+        col = cols[h]
+        # the common case (short ASCII text, numbers) is one pass without a call per cell
+        suspects = [i for i, v in enumerate(col)
+                    if v.__class__ is str and not (len(v) <= MAX_CELL_CHARS and v.isascii())]
+        for i in suspects:
+            if i + 1 not in known and i + 1 not in found:
+                why = bad_text(col[i])
                 if why:
                     found[i + 1] = f"column '{h[:60]}': {why}; the row is skipped"
     for row in sorted(found):
