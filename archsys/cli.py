@@ -3,7 +3,8 @@
 
 Exit status: 0 success, 2 bad input, a bad argument or an output that cannot be
 written (one clear line per problem on stderr, no traceback unless --debug),
-1 internal error, 130 interrupted, 143 terminated (SIGTERM).
+3 ``report --strict`` with an unusable posterior (README, "Usable posteriors"; the
+reports are still written), 1 internal error, 130 interrupted, 143 terminated (SIGTERM).
 
 :func:`main` is the one boundary where every failure of the outside world
 becomes one line and exit status 2: ``OSError`` (a full disk, a read-only or
@@ -24,6 +25,7 @@ import sys
 import warnings
 
 from .errors import InputError
+from .options import AUTO_NBODY_DRAWS, DEFAULT_NBODY_BUDGET, DEFAULT_NBODY_ORBITS
 
 __all__ = ["main", "build_parser"]
 
@@ -59,14 +61,21 @@ def _add_analysis_options(p):
     g.add_argument("--incl-prior", default=None, metavar="NAME_OR_FILE",
                    help="prior on the mutual-inclination dispersion sigma")
     g.add_argument("--require-stable", action="store_true",
-                   help="add Hill/AMD stability of every adjacent pair as a prior")
+                   help="keep only stable draws (the criterion is set by --stable-by)")
+    g.add_argument("--stable-by", choices=["analytic", "nbody"], default="analytic",
+                   help="what --require-stable conditions on: 'analytic' (Hill + AMD criterion as a prior, "
+                        "default) or 'nbody' (survival of each integrated draw over the N-body horizon)")
     g.add_argument("--max-steps", type=int, default=None, help="cap on MCMC steps per walker (>= 1)")
-    g.add_argument("--nbody", type=int, default=0, metavar="N",
-                   help="integrate N posterior draws with rebound and MEGNO (extra 'nbody')")
-    g.add_argument("--nbody-orbits", type=float, default=1000.0, metavar="ORBITS",
-                   help="N-body horizon in orbits of the outermost planet (default 1000)")
-    g.add_argument("--jobs", type=int, default=1,
-                   help="worker processes (report: N-body checks; survey: systems, default one per core)")
+    g.add_argument("--nbody", default=None, metavar="N",
+                   help="posterior draws integrated with rebound (WHFast + MEGNO): 'auto' (report default: "
+                        f"{AUTO_NBODY_DRAWS} draws when the analytic criteria are not enough), 0 = never, N = always")
+    g.add_argument("--nbody-budget", type=float, default=DEFAULT_NBODY_BUDGET, metavar="SECONDS",
+                   help="integration work per system, in seconds at a nominal speed (default "
+                        f"{DEFAULT_NBODY_BUDGET:g}); fewer draws are integrated to fit it, and the report says so")
+    g.add_argument("--nbody-orbits", type=float, default=None, metavar="ORBITS",
+                   help=f"N-body horizon in orbits of the innermost planet (default {DEFAULT_NBODY_ORBITS:g})")
+    g.add_argument("--jobs", type=int, default=0,
+                   help="worker processes (report: N-body draws; survey: systems); default 0 = one per core")
     g.add_argument("--quiet", action="store_true", help="no progress bar")
 
 
@@ -85,8 +94,9 @@ def options_from_args(args):
     from .options import AnalysisOptions
     return AnalysisOptions(n_draws=args.draws, seed=args.seed, mode=args.mode, ecc_prior=args.ecc_prior,
                            incl_prior=args.incl_prior, require_stable=args.require_stable,
+                           stable_by=args.stable_by,
                            quiet=args.quiet, max_steps=args.max_steps, nbody=args.nbody,
-                           nbody_orbits=args.nbody_orbits, jobs=args.jobs,
+                           nbody_orbits=args.nbody_orbits, nbody_budget=args.nbody_budget, jobs=args.jobs,
                            test_planet_mass=getattr(args, "probe_mass", None),
                            ttv_free_eccentricity=getattr(args, "ttv_free_ecc", 0.0))
 
@@ -148,7 +158,21 @@ def _cmd_report(args):
         from .output.formats import render
         text = "\n".join(render(r, fmt, preset=args.preset) for r in results)
     _write_stdout(text)
-    return 0
+    return _strict_status(results, args)
+
+
+#: Exit status of ``archsys report --strict`` when a posterior is unusable.
+EXIT_UNUSABLE = 3
+
+
+def _strict_status(results, args):
+    """0, or EXIT_UNUSABLE under --strict when any system's posterior is unusable (named on stderr)."""
+    bad = [r.document.get("system", "?") for r in results
+           if not (r.document.get("posterior_usability") or {}).get("usable", True)]
+    for name in bad:
+        _note(f"warning: the posterior of '{name}' is unusable (effective sample size below the "
+              f"threshold; README, 'Usable posteriors')")
+    return EXIT_UNUSABLE if bad and getattr(args, "strict", False) else 0
 
 
 def _write_report_files(results, args):
@@ -235,6 +259,12 @@ def _cmd_survey(args):
             _note(f"survey: {line}")
     for line in pop.get("_notes", []):
         _note(line)
+    if c.get("systems_unusable_posterior"):
+        _note(f"survey: warning: {c['systems_unusable_posterior']} analysed systems have an unusable posterior "
+              f"(column posterior_usability_usable in systems.csv; README, 'Usable posteriors')")
+    ecc_warn = (pop.get("eccentricity_population") or {}).get("ess_warning")
+    if ecc_warn and not args.quiet:
+        _note(f"survey: warning: population eccentricities: {ecc_warn}")
     if c["rejected_analysis_error"]:
         _note(f"survey: warning: {c['rejected_analysis_error']} systems failed inside the analysis "
               f"(reason 'analysis failed: ...' in rejects.csv); please report them")
@@ -295,6 +325,8 @@ def build_parser():
     r.add_argument("--preset", default="one-column", help="figure preset: one-column, two-column, slide")
     r.add_argument("--corner-params", default=None, metavar="KEYS", help=_CORNER_HELP)
     r.add_argument("--no-colour", action="store_true", help="plain text even on a terminal")
+    r.add_argument("--strict", action="store_true",
+                   help=f"exit with status {EXIT_UNUSABLE} when a posterior is unusable (reports are still written)")
     r.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(r)
     _add_prediction_options(r)
@@ -326,7 +358,7 @@ def build_parser():
                    help="second population: one planet per system (default) or mutually isotropic orbits")
     s.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
     _add_analysis_options(s)
-    s.set_defaults(func=_cmd_survey, jobs=0)   # survey: one worker per core by default
+    s.set_defaults(func=_cmd_survey, jobs=0, nbody="0")   # survey: one worker per core; N-body when asked
 
     q = sub.add_parser("plot", help="redraw figures from a saved result (no resampling)")
     q.add_argument("result", help="chains file (.npz) written by `archsys report --out`")

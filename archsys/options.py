@@ -42,8 +42,22 @@ MAX_SEED = 2 ** 63 - 1
 MAX_JOBS = 1024
 #: Most posterior draws integrated by ``--nbody``.
 MAX_NBODY = 10_000
-#: Longest N-body horizon in orbits of the outermost planet (10^7 orbits take hours per draw).
+#: Longest N-body horizon in orbits of the innermost planet (10^7 orbits take hours per draw).
 MAX_NBODY_ORBITS = 1e7
+#: Posterior draws integrated when the analytic criteria are not enough (``--nbody auto``, the
+#: default of ``archsys report``): 64 draws give a fraction to +-0.06 (1 sigma at 50 %).
+AUTO_NBODY_DRAWS = 64
+#: Default N-body horizon in orbits of the innermost planet (issue: >= 10^4; 2 x 10^4 matches the
+#: horizon of the independent checks in the tests).
+DEFAULT_NBODY_ORBITS = 2e4
+#: Default wall-clock budget of the N-body step of one system [s]; the draws integrated are cut to
+#: fit it (and the report says so).
+DEFAULT_NBODY_BUDGET = 120.0
+#: Environment variable that sets the default of ``nbody`` when it is not given ("auto" or a number):
+#: e.g. ``ARCHSYS_NBODY=0`` in batch scripts and in the test suite.
+NBODY_ENV = "ARCHSYS_NBODY"
+#: What ``require_stable`` conditions on: the analytic Hill + AMD criterion or N-body survival.
+STABLE_BY = ("analytic", "nbody")
 #: Largest prior file read (bundled priors are a few hundred bytes).
 MAX_PRIOR_FILE_BYTES = 1 << 20
 
@@ -66,7 +80,8 @@ class Mode(str, enum.Enum):
 #: Option name -> command-line flag, for messages.
 _FLAG = {"n_draws": "--draws", "seed": "--seed", "mode": "--mode", "ecc_prior": "--prior",
          "incl_prior": "--incl-prior", "max_steps": "--max-steps", "nbody": "--nbody",
-         "nbody_orbits": "--nbody-orbits", "jobs": "--jobs",
+         "nbody_orbits": "--nbody-orbits", "nbody_budget": "--nbody-budget", "jobs": "--jobs",
+         "stable_by": "--require-stable",
          "test_planet_mass": "--probe-mass", "ttv_free_eccentricity": "--ttv-free-ecc",
          "limit": "--limit", "where": "--where", "columns": "--columns", "scheduler": "--scheduler"}
 
@@ -159,8 +174,14 @@ class AnalysisOptions:
     require_stable : Hill/AMD stability of every adjacent pair as a prior
     quiet : no progress bar
     max_steps : cap on MCMC steps per walker (None = the sampler's default), >= 1
-    nbody : posterior draws integrated with rebound (0 = none), 0..MAX_NBODY
-    nbody_orbits : N-body horizon in orbits of the outermost planet, in (0, MAX_NBODY_ORBITS]
+    nbody : posterior draws integrated with rebound: "auto" (AUTO_NBODY_DRAWS draws when the system
+        falls outside the analytic criteria's domain, none otherwise), 0 (never) or 1..MAX_NBODY
+        (always); None = the environment variable ARCHSYS_NBODY, else "auto"
+    nbody_orbits : N-body horizon in orbits of the innermost planet, in (0, MAX_NBODY_ORBITS];
+        None = DEFAULT_NBODY_ORBITS
+    nbody_budget : wall-clock budget of the N-body step [s], > 0
+    stable_by : what ``require_stable`` conditions on: "analytic" (Hill + AMD criterion) or "nbody"
+        (survival of each draw over the N-body horizon)
     jobs : worker processes (0 = one per core), 0..MAX_JOBS
     test_planet_mass : mass of the test planet put in each gap [Earth masses], > 0
         (None = geometric mean of the gap's neighbours)
@@ -175,8 +196,10 @@ class AnalysisOptions:
     require_stable: bool = False
     quiet: bool = True
     max_steps: int | None = None
-    nbody: int = 0
-    nbody_orbits: float = 1000.0
+    nbody: int | str | None = None
+    nbody_orbits: float | None = None
+    nbody_budget: float = DEFAULT_NBODY_BUDGET
+    stable_by: str = "analytic"
     jobs: int = 1
     test_planet_mass: float | None = None
     ttv_free_eccentricity: float = 0.0
@@ -196,13 +219,36 @@ class AnalysisOptions:
         put("seed", _int("seed", self.seed, 0, MAX_SEED))
         if self.max_steps is not None:
             put("max_steps", _int("max_steps", self.max_steps, 1, None))
-        put("nbody", _int("nbody", self.nbody, 0, MAX_NBODY))
+        nb = self.nbody
+        if nb is None:
+            nb = os.environ.get(NBODY_ENV, "auto").strip() or "auto"
+        if isinstance(nb, str) and nb.strip().lower() == "auto":
+            put("nbody", "auto")
+        else:
+            if isinstance(nb, str):
+                try:
+                    nb = int(nb)
+                except ValueError:
+                    raise InputError(f"{_name('nbody')} must be 'auto' or a number of draws between 0 and "
+                                     f"{MAX_NBODY}; got {nb!r:.40}", field="nbody") from None
+            put("nbody", _int("nbody", nb, 0, MAX_NBODY))
+        if self.nbody_orbits is None:
+            put("nbody_orbits", DEFAULT_NBODY_ORBITS)
         orbits = self.nbody_orbits
         if isinstance(orbits, bool) or not isinstance(orbits, (int, float)) or not math.isfinite(orbits) \
                 or not 0 < orbits <= MAX_NBODY_ORBITS:
             raise InputError(f"{_name('nbody_orbits')} must be a number in (0, {MAX_NBODY_ORBITS:g}] orbits; "
                              f"got {orbits!r:.40}", field="nbody_orbits")
         put("nbody_orbits", float(orbits))
+        budget = self.nbody_budget
+        if isinstance(budget, bool) or not isinstance(budget, (int, float)) or not math.isfinite(budget) \
+                or budget <= 0:
+            raise InputError(f"{_name('nbody_budget')} must be a positive number of seconds; got {budget!r:.40}",
+                             field="nbody_budget")
+        put("nbody_budget", float(budget))
+        if self.stable_by not in STABLE_BY:
+            raise InputError(f"{_name('stable_by')} must be one of {', '.join(STABLE_BY)}; "
+                             f"got {self.stable_by!r:.40}", field="stable_by")
         put("jobs", _int("jobs", self.jobs, 0, MAX_JOBS, " (0 = one per core)"))
         probe = self.test_planet_mass
         if probe is not None:
@@ -225,6 +271,11 @@ class AnalysisOptions:
         if self.incl_prior is not None:
             check_prior("incl_prior", self.incl_prior, "mutual_inclination_sigma")
             put("incl_prior", str(self.incl_prior))
+
+    @property
+    def analytic_stability_prior(self) -> bool:
+        """Whether the Hill + AMD criterion is a prior (``--require-stable`` with ``--stable-by analytic``)."""
+        return bool(self.require_stable) and self.stable_by == "analytic"
 
     @property
     def uses_mcmc(self) -> bool:
@@ -315,6 +366,7 @@ def split_keywords(options=None, survey=None, **kw):
     s = {k: v for k, v in kw.items() if k in _SURVEY_KEYS}
     if options is None:
         a.setdefault("jobs", 0)           # a survey: one worker per core unless told otherwise
+        a.setdefault("nbody", 0)          # and no N-body unless asked (--nbody N)
         options = AnalysisOptions(**a)
     elif a:
         options = replace(options, **a)

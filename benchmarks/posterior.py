@@ -16,7 +16,7 @@ _V010_POSTERIOR = """
 import json, time, warnings
 warnings.simplefilter("ignore")
 from archsys import read_system
-from archsys.inference.sampler import sample_system
+from archsys.inference.route import sample_system
 from archsys.pipeline import AnalysisOptions
 s = read_system({path!r})
 sample_system(s, AnalysisOptions(seed=1, quiet=True, n_draws=200))     # imports, caches

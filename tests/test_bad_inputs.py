@@ -104,6 +104,7 @@ BAD = {
     # top-level keys that used to pass whatever their value
     "reference_plane_number.toml": ["'reference_plane'", "'sky'", "42"],
     "reference_plane_unknown.toml": ["'reference_plane'", "galactic", "'ecliptic'"],
+    "reference_plane_with_k.toml": ["Plane b", "'k'", "needs sky inclinations", "'ecliptic'"],
     "notes_not_string.toml": ["'notes'", "string"],
     # m sin i above the true mass beyond the errors
     "msini_above_mass.toml": ["planet 'Bad b'", "'msini'", "cannot exceed"],

@@ -61,7 +61,9 @@ def _check_numbers(node, path=""):
             assert lo <= m <= hi, path
             return
         for k, v in node.items():
-            if path == "" and k in ("provenance", "sampler", "schema_version"):
+            if path == "" and k in ("provenance", "sampler", "schema_version", "posterior_usability"):
+                continue
+            if k == "data_or_prior":        # diagnostics (README "Data or prior?"): ratios, not summaries
                 continue
             if isinstance(v, float):
                 assert "probability" in k, f"{path}/{k} is a bare float, not a summary"

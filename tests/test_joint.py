@@ -59,9 +59,11 @@ def test_handbook_elements_run_in_default_mode_and_reproduce_hill_spacings():
         # [Standish1992] (derived from Table 1 a); a here comes from P by Kepler III, which agrees with
         # the mean elements to 5e-4 (2e), and the masses are the fact sheet's (3 significant figures).
         assert q["hill_separation"]["median"] == pytest.approx(ref, rel=0.01)
-    # Earth at i = 0 has m sin i = 0 exactly and a finite true mass
+    # Ecliptic inclinations are not sky inclinations (reference_plane = "ecliptic", issue 18): m sin i is
+    # unknown, the true masses stand, and the notes say what the inclinations are measured from.
     earth = doc["planets"][2]
-    assert earth["msini_mearth"]["median"] == pytest.approx(0.0, abs=1e-12)
+    assert earth.get("msini_mearth") is None
+    assert earth["mass_mearth"]["median"] == pytest.approx(1.0, rel=1e-9)
     assert "mutual_inclination_sigma_deg" in doc
 
 
@@ -227,18 +229,18 @@ def test_pareto_khat_separates_good_and_bad_weights():
     assert pareto_khat(np.log(rng.pareto(0.5, 20000) + 1.0)) > 1.0
 
 
-def test_nbody_horizon_is_counted_in_outer_orbits():
-    # Issue item 10 (behaviour check): the horizon is an option, counted in orbits of the outermost
-    # planet, and reported with its inner-orbit equivalent (period ratio of the handbook pair 2.48).
+def test_nbody_horizon_is_counted_in_inner_orbits():
+    # Issue 18 (behaviour check): the horizon is an option, counted in orbits of the innermost planet,
+    # and reported in outer orbits and years too (period ratio of the handbook Jupiter-Saturn pair 2.48).
     pytest.importorskip("rebound")
     s = build_system({"name": "N", "star": {"mass": 1.0}, "planet": [
         {"name": "N b", "period": P_DAY[4], "mass": M_EARTHS[4], "ecc": ECC[4]},
         {"name": "N c", "period": P_DAY[5], "mass": M_EARTHS[5], "ecc": ECC[5]}]}, source="<test>")
-    doc = analyze(s, _opts(n_draws=200, nbody=2, nbody_orbits=20)).document
-    nb = doc["nbody"]
-    assert nb["orbits_of_outer_planet"] == 20
-    assert nb["orbits_of_inner_planet"] == pytest.approx(20 * P_DAY[5] / P_DAY[4], rel=1e-6)
-    assert nb["horizon_years"] == pytest.approx(20 * P_DAY[5] / 365.25, rel=1e-6)
+    doc = analyze(s, _opts(n_draws=200, nbody=8, nbody_orbits=50)).document
+    hz = doc["dynamics"]["nbody"]["horizon"]
+    assert hz["inner_orbits"] == 50
+    assert hz["outer_orbits"]["median"] == pytest.approx(50 * P_DAY[4] / P_DAY[5], rel=1e-6)
+    assert hz["years"]["median"] == pytest.approx(50 * P_DAY[4] / 365.25, rel=1e-6)
 
 
 def test_face_on_orbit_with_k_is_bounded_or_refused():

@@ -88,10 +88,10 @@ def test_every_document_key_has_column_metadata(demo):
         for k in set(q) - {"inner", "outer"}:
             assert column(k, "pair") is not None, k
     for p in doc["planets"]:
-        for k in set(p) - {"name", "not_constrained_by_data"}:
+        for k in set(p) - {"name", "not_constrained_by_data", "data_or_prior"}:
             assert column(k, "planet") is not None, k
     meta = {"schema_version", "system", "star", "planets", "pairs", "sampler", "disclaimer", "provenance",
-            "verdicts", "structured_verdicts"}
+            "verdicts", "structured_verdicts", "posterior_usability", "data_or_prior"}
     for k in _flat_keys({k: v for k, v in doc.items() if k not in meta}):
         assert column(k, "system") is not None, k
     for v in doc["structured_verdicts"]:

@@ -127,10 +127,16 @@ def test_oec_sigma_against_fabrycky_and_fang_margot(oec_block):
     s = oec_block["fit"]["two_populations"]["sigma_deg"]
     # Fabrycky et al. 2014 (verified; tilt range derived): the 68 % interval overlaps 0.71-1.56 deg.
     assert s["lo"] <= FABRYCKY_TILT_DEG[1] and s["hi"] >= FABRYCKY_TILT_DEG[0]
-    # Fang & Margot 2012 (verified headline; bound derived): median below 1.55 deg.
-    assert s["median"] < FANG_MARGOT_MAX_TILT_DEG
-    # Lissauer et al. 2011 (from memory): a few degrees at most.
-    assert s["hi95"] < 5.0
+    # Fang & Margot 2012 (verified headline; bound derived): 1.55 deg lies inside the 68 % interval.
+    # (With the observed spacing -- adjacent period ratios near 2 -- outer planets rarely transit together,
+    # so counts alone constrain sigma only loosely: the interval spans more than a decade; README.)
+    assert s["lo"] < FANG_MARGOT_MAX_TILT_DEG < s["hi"]
+    # Lissauer et al. 2011 (from memory): a few degrees, inside the 95 % interval.
+    assert s["lo95"] < 3.0 < s["hi95"]
+    # the spacing the model used, and that the lower part of the posterior follows the prior
+    assert oec_block["model"]["spacing"]["kind"] == "observed_ratios"
+    assert oec_block["model"]["spacing"]["n_ratios"] > 500
+    assert oec_block["sigma_follows_prior"] is True
 
 
 def test_oec_excess_of_single_transit_systems(oec_block):
@@ -209,3 +215,91 @@ def test_bad_transit_options_are_one_line_errors(tmp_path, capsys, args, match):
     err = capsys.readouterr().err
     assert rc == 2 and match in err and err.count("\n") == 1 and "Traceback" not in err
     assert not (tmp_path / "o" / "systems.csv").exists()
+
+
+# ---------------------------------------------------------------- spacing: recovery on wider-spaced catalogues
+
+def _independent_catalogue(sigma_deg, n_sys, seed, single_fraction=0.0, mbar=3.0):
+    """An independent transit-survey simulator (not archsys' forward model; vector geometry written here).
+
+    Sun-like stars; N planets from the zero-truncated Poisson law (mean ``mbar``, at most 8) or one planet
+    for a fraction ``single_fraction``; innermost period log-uniform in 1-30 d and adjacent period ratios
+    log-normal (median 1.8, 0.25 in ln, at least 1.3) -- spaced much wider than 2 sqrt 3 mutual Hill radii;
+    radii log-normal around 2 R_E; each orbit normal tilted from an isotropic reference normal by
+    psi ~ Rayleigh(sigma) at a uniform node; one isotropic observer per star; a planet is seen when
+    |n . o| < (R* + Rp)/a (Winn 2010, circular) and 1 <= P <= 300 d.  Returns (system ids, P, Rp) of
+    the transiting planets."""
+    from archsys.physics.constants import REARTH_AU, RSUN_AU
+    rng = np.random.default_rng(seed)
+    pmf = mp.truncated_poisson_pmf(mp.poisson_rate_for_mean(mbar, 8), 8)[0]
+    N = 1 + np.searchsorted(np.cumsum(pmf)[:-1], rng.uniform(size=n_sys), side="right")
+    N[rng.uniform(size=n_sys) < single_fraction] = 1
+    unit = lambda v: v / np.linalg.norm(v, axis=-1, keepdims=True)      # noqa: E731
+    obs, ref = unit(rng.normal(size=(n_sys, 3))), unit(rng.normal(size=(n_sys, 3)))
+    e1 = unit(np.cross(ref, [0.0, 0.0, 1.0]))
+    e2 = np.cross(ref, e1)
+    sid, per, rad = [], [], []
+    for n in range(1, 9):
+        idx = np.flatnonzero(N == n)
+        m = idx.size
+        if not m:
+            continue
+        ratios = np.maximum(np.exp(rng.normal(math.log(1.8), 0.25, (m, n - 1))), 1.3)
+        P = np.exp(rng.uniform(0.0, math.log(30.0), m))[:, None] * np.concatenate(
+            [np.ones((m, 1)), np.cumprod(ratios, axis=1)], axis=1)
+        R = np.exp(rng.normal(math.log(2.0), 0.4, (m, n)))
+        a = (P / 365.25) ** (2.0 / 3.0)                       # au, one solar mass (Kepler III)
+        psi = math.radians(sigma_deg) * np.sqrt(-2.0 * np.log(rng.uniform(size=(m, n))))
+        phi = rng.uniform(0.0, 2.0 * np.pi, (m, n))
+        normal = (np.cos(psi)[..., None] * ref[idx, None, :] + np.sin(psi)[..., None]
+                  * (np.cos(phi)[..., None] * e1[idx, None, :] + np.sin(phi)[..., None] * e2[idx, None, :]))
+        seen = (np.abs(np.sum(normal * obs[idx, None, :], axis=-1)) < (RSUN_AU + R * REARTH_AU) / a) \
+            & (P >= 1.0) & (P <= 300.0)
+        i, j = np.nonzero(seen)
+        sid.append(idx[i])
+        per.append(P[i, j])
+        rad.append(R[i, j])
+    return np.concatenate(sid), np.concatenate(per), np.concatenate(rad)
+
+
+def _fit_catalogue(sid, P, R, spacing, n_per=3000, n_grid=24, n_steps=1000, n_burn=400):
+    k = np.bincount(np.unique(sid, return_inverse=True)[1])
+    counts = np.bincount(np.minimum(k, mp.K_MAX), minlength=mp.K_MAX + 1)[1:]
+    pool = mp.PlanetPool.from_transits(P, R, np.ones_like(P), np.ones_like(P))
+    ratios = mp.adjacent_ratios(sid, P) if spacing else None
+    cm = CountModel(mp.MultiplicityModel(pool, mp.Detectability((1.0, 300.0)), n_per_multiplicity=n_per,
+                                         seed=3, spacing=ratios), n_grid=n_grid)
+    return fit_counts(cm, counts, seed=1, n_steps=n_steps, n_burn=n_burn), counts
+
+
+def test_sigma_recovered_from_a_wider_spaced_catalogue_with_observed_spacing():
+    # Fast small version: one catalogue of about 3500 observed systems, sigma = 3 deg, spaced wider than
+    # the Hill minimum.  With the spacing taken from the observed adjacent period ratios the truth lies in
+    # the 95 % interval (packing instead: next test).
+    sid, P, R = _independent_catalogue(3.0, 30_000, seed=1)
+    fit, counts = _fit_catalogue(sid, P, R, spacing=True, n_per=2000, n_grid=20, n_steps=700, n_burn=300)
+    assert 2500 < counts.sum() < 5000
+    assert _inside(fit["sigma_deg"], 3.0), fit["sigma_deg"]
+
+
+@pytest.mark.slow
+def test_packing_to_the_hill_minimum_overestimates_sigma_on_wider_spaced_catalogues():
+    # The assumption the model used to make silently: on the same catalogue, packed systems need a
+    # sigma far above the truth (measured: median 11 deg for a truth of 3 deg).
+    sid, P, R = _independent_catalogue(3.0, 30_000, seed=1)
+    packed, _ = _fit_catalogue(sid, P, R, spacing=False)
+    assert packed["sigma_deg"]["lo95"] > 3.0 * 1.5, packed["sigma_deg"]
+
+
+@pytest.mark.slow
+def test_sigma_recovery_over_wider_spaced_catalogues():
+    # Six catalogues of about 3500 observed systems: sigma 1.5, 3 and 6 deg, single fraction 0 and 0.4.
+    # Each 95 % interval must hold the truth, and the 68 % intervals at least 3 of 6 (binomial: 68 %
+    # coverage gives >= 3 of 6 with probability 0.93; common practice).
+    hits68 = 0
+    for i, (s, f) in enumerate([(1.5, 0.0), (3.0, 0.0), (6.0, 0.0), (1.5, 0.4), (3.0, 0.4), (6.0, 0.4)]):
+        sid, P, R = _independent_catalogue(s, 30_000 if f == 0 else 50_000, seed=10 + i, single_fraction=f)
+        fit, _ = _fit_catalogue(sid, P, R, spacing=True, n_per=6000, n_grid=32, n_steps=2000, n_burn=600)
+        assert _inside(fit["sigma_deg"], s), (s, f, fit["sigma_deg"])
+        hits68 += _inside(fit["sigma_deg"], s, "lo", "hi")
+    assert hits68 >= 3

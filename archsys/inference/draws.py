@@ -14,6 +14,7 @@ from ..errors import InputError
 from ..physics import kepler, transit
 from ..physics.constants import MEARTH_MSUN, REARTH_AU, RSUN_AU
 from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
+from .phases import add_phases
 from .posterior import Posterior
 
 __all__ = ["direct_draws", "eccentricity_draws", "radius_draws", "mass_from_radius_draws", "DEFAULT_DRAWS"]
@@ -98,9 +99,10 @@ def direct_draws(system, n=DEFAULT_DRAWS, seed=0) -> Posterior:
         raise InputError(f"periods of planets '{names[j]}' and '{names[j + 1]}' overlap so much that "
                          f"their order is undetermined; check the period uncertainties",
                          source=system.source)
-    return Posterior(system, draws, "direct", seed=seed, notes=notes,
+    post = Posterior(system, draws, "direct", seed=seed, notes=notes,
                      sampler={"method": "direct Monte Carlo", "draws": n,
                               "why": "no joint constraint binds: summaries are independent"})
+    return add_phases(post)
 
 
 #: Upper bound of every true mass [M_sun] (about 84 M_J, the hydrogen-burning limit; common practice):

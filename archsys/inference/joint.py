@@ -43,8 +43,10 @@ from .exact import ecc_prior_for, exact_draws, geometry_factor, mass_basis
 from .orient_chain import BURN_TAU, N_TAU, run_orientation_mcmc
 from .orient_proposal import OrientationProposal, pareto_khat
 from .orientation import OrientationModel, orbit_normals, prior_orientations
+from .phases import add_phases
 from .posterior import Posterior
 from .stability import stable_draws
+from .usability import KHAT_MAX, Status, assess, required_ess
 
 __all__ = ["sample_joint", "MASS_CAP", "N_TAU", "BURN_TAU", "MAX_POOL_FACTOR"]
 
@@ -86,6 +88,14 @@ def _prior_block(user, sp, ecc_priors, system):
     if no_data:
         out["eccentricity_without_data"] = dict(cite(no_data[0][1]), planets=[nm for nm, _ in no_data])
     return out
+
+
+def _stability_record(opts):
+    """The stability prior as a constraint record (named in every report where it ran)."""
+    if not opts.analytic_stability_prior:
+        return {}
+    return {"stability": "imposed (--require-stable): Hill (Gladman 1993) and AMD (Laskar & Petit 2017) "
+                         "stability of every adjacent pair; stability numbers are stable by construction"}
 
 
 def _systematic_resample(rng, w, n):
@@ -133,7 +143,7 @@ def _why(system, opts):
     if opts.mode == "mcmc":
         return "requested (--mode mcmc)"
     reasons = []
-    if opts.require_stable:
+    if opts.analytic_stability_prior:
         reasons.append("stability prior")
     if opts.ecc_prior not in (None, "ecc-uniform"):
         reasons.append("population eccentricity prior")
@@ -154,7 +164,9 @@ _REASONS = {
     "mass_cap": f"true mass below {MASS_CAP} M_sun (nearly face-on orbits with a K or m sin i)",
     "crossing": "non-crossing orbits",
     "stability": "the stability prior (Gladman 1993 Hill criterion and Laskar & Petit 2017 AMD)",
-    "weights": "redundant summaries (e.g. K beside a true mass) and priors",
+    "weights": "zero likelihood or prior density (redundant summaries such as K beside a true mass, "
+               "impact parameters, priors)",
+    "proposal_support": "orientation proposals outside the orientation model's support",
 }
 
 
@@ -204,30 +216,23 @@ def sample_joint(system, opts) -> Posterior:
             raise InputError(f"{system.source}: no orientation of the orbits satisfies the transit, non-transit "
                              "and inclination data together; check b, Rp/R*, the transiting flags and the "
                              "stellar radius")
-    pieces, total_ess, pool = [], 0.0, 0
-    rejected = dict.fromkeys(_REASONS, 0)
-    crossing_by_pair = None
-    chunk = int(1.3 * n) + 16
-    while True:
-        piece, why_bad = _pool_piece(system, opts, model, kinds, chain if chain is not None else proposal, hier, orient_free,
-                                     ecc_priors, sp, rng_pool, chunk)
-        pair_cross = why_bad.pop("crossing_by_pair", None)
-        if pair_cross is not None:
-            crossing_by_pair = pair_cross if crossing_by_pair is None else crossing_by_pair + pair_cross
-        for k, v in why_bad.items():
-            rejected[k] += v
-        pieces.append(piece)
-        pool += chunk
-        lw = np.concatenate([p["logw"] for p in pieces])
-        good = np.isfinite(lw)
-        total_ess = 0.0
-        if good.any():
-            w = np.exp(lw[good] - lw[good].max())
-            total_ess = float(w.sum() ** 2 / np.sum(w * w))
-        if total_ess >= n or pool >= MAX_POOL_FACTOR * n:
-            break
-        rate = max(total_ess / pool, 1.0 / (MAX_POOL_FACTOR * n))
-        chunk = int(min(max(n, 1.2 * (n - total_ess) / rate), MAX_POOL_FACTOR * n - pool, MAX_CHUNK))
+    source = chain if chain is not None else proposal
+    imp = _importance(system, opts, model, kinds, source, hier, orient_free, ecc_priors, sp, rng_pool, n)
+    fallback = None
+    if proposal is not None and not (imp["khat"] <= KHAT_MAX):
+        # the pilot looked healthy but the weights actually used are not: the orientation chain instead
+        chain, cinfo = run_orientation_mcmc(model, rng_chain, n, max_steps=opts.max_steps,
+                                            quiet=getattr(opts, "quiet", True), name=system.name)
+        if chain is not None:
+            fallback = {"from": "independent orientation proposal", "to": "orientation chain (emcee)",
+                        "reason": "final_weights_khat", "pareto_khat_before": _r3(imp["khat"]),
+                        "effective_sample_size_before": round(imp["ess"], 1)}
+            info = dict(info or {}, **cinfo)
+            info["orientation_draws"] = "MCMC (emcee), after the independent proposal's final weights failed"
+            proposal = None
+            imp = _importance(system, opts, model, kinds, chain, hier, orient_free, ecc_priors, sp, rng_pool, n)
+    pieces, total_ess, pool, rejected = imp["pieces"], imp["ess"], imp["pool"], imp["rejected"]
+    lw, good, crossing_by_pair = imp["lw"], imp["good"], imp["crossing_by_pair"]
     if not good.any():
         worst = max(rejected, key=rejected.get)
         detail = ""
@@ -239,9 +244,12 @@ def sample_joint(system, opts) -> Posterior:
         raise InputError(f"{system.source}: no draw satisfies the joint constraints; every one of {pool} draws "
                          f"failed, most often on {_REASONS[worst]}{detail}; check the inputs")
     if total_ess < n:
+        worst = _REASONS[max(rejected, key=rejected.get)]
+        verdict = ("the posterior is unusable (README, 'Usable posteriors')" if total_ess < required_ess(n)
+                   else "intervals are rough")
         warnings.warn(f"{system.name}: importance effective sample size {total_ess:.0f} < {n} requested draws "
-                      f"after {pool} proposals (most rejected on {_REASONS[max(rejected, key=rejected.get)]}); "
-                      "intervals are rough", ConvergenceWarning, stacklevel=2)
+                      f"after {pool} proposals (most rejected on {worst}); {verdict}",
+                      ConvergenceWarning, stacklevel=2)
     draws = {k: np.concatenate([p["draws"][k] for p in pieces]) for k in pieces[0]["draws"]}
     idx = np.flatnonzero(good)
     wn = np.exp(lw[good] - lw[good].max())
@@ -262,19 +270,79 @@ def sample_joint(system, opts) -> Posterior:
     }
     if info:
         post.sampler.update(info)
+    chain_ok = bool(info.get("converged", True)) if info else True
+    min_neff = float(min(chain_neff, total_ess, n))
+    usab = assess(min_neff, n, imp["khat"], chain_ok)
+    importance = {"proposals": pool, "accepted": imp["accepted"], "effective_sample_size": round(total_ess, 1),
+                  "efficiency": round(total_ess / pool, 4),
+                  "rejected": {k: v for k, v in rejected.items() if v},
+                  "pareto_khat": _r3(imp["khat"]), "blocks": imp["blocks"]}
+    if fallback:
+        importance["fallback"] = fallback
     post.sampler.update({
-        "importance": {"proposals": pool, "effective_sample_size": round(total_ess, 1),
-                       "efficiency": round(total_ess / pool, 4),
-                       "rejected": {k: v for k, v in rejected.items() if v}},
-        "min_n_eff": round(float(min(chain_neff, total_ess, n)), 1),
-        "converged": bool((info.get("converged", True) if info else True) and total_ess >= 0.5 * n),
+        "importance": importance,
+        "min_n_eff": round(min_neff, 1),
+        "converged": usab["status"] == Status.OK.value,
+        "usability": usab,
     })
-    post.prior = _prior_block(user, sp, ecc_priors, system)
-    return post
+    post.prior = dict(_prior_block(user, sp, ecc_priors, system), **_stability_record(opts))
+    return add_phases(post)
 
 
-#: Pareto k-hat above which the independent orientation proposal is not trusted (Vehtari et al. 2024).
-KHAT_MAX = 0.7
+def _r3(x):
+    return round(float(x), 3) if np.isfinite(x) else None
+
+
+def _ess(lw):
+    """Importance effective sample size (sum w)^2 / sum w^2 of finite log-weights (Kong 1992)."""
+    lw = lw[np.isfinite(lw)]
+    if lw.size == 0:
+        return 0.0
+    w = np.exp(lw - lw.max())
+    return float(w.sum() ** 2 / np.sum(w * w))
+
+
+def _importance(system, opts, model, kinds, source, hier, orient_free, ecc_priors, sp, rng, n):
+    """Grow the weighted pool until its effective sample size reaches n (or the cap); diagnose its weights.
+
+    Every proposal is either accepted (finite weight) or counted once under the first reason that
+    rejected it, so ``accepted + sum(rejected) == proposals``.  ``khat`` and ``ess`` describe the final
+    weights that the resampling uses; ``blocks`` the same for each factor of the weights.
+    """
+    pieces, total_ess, pool = [], 0.0, 0
+    rejected = dict.fromkeys(_REASONS, 0)
+    crossing_by_pair = None
+    chunk = int(1.3 * n) + 16
+    while True:
+        piece, why_bad = _pool_piece(system, opts, model, kinds, source, hier, orient_free,
+                                     ecc_priors, sp, rng, chunk)
+        pair_cross = why_bad.pop("crossing_by_pair", None)
+        if pair_cross is not None:
+            crossing_by_pair = pair_cross if crossing_by_pair is None else crossing_by_pair + pair_cross
+        for k, v in why_bad.items():
+            rejected[k] += v
+        pieces.append(piece)
+        pool += chunk
+        lw = np.concatenate([p["logw"] for p in pieces])
+        good = np.isfinite(lw)
+        total_ess = _ess(lw)
+        if total_ess >= n or pool >= MAX_POOL_FACTOR * n:
+            break
+        rate = max(total_ess / pool, 1.0 / (MAX_POOL_FACTOR * n))
+        chunk = int(min(max(n, 1.2 * (n - total_ess) / rate), MAX_POOL_FACTOR * n - pool, MAX_CHUNK))
+    accepted = int(good.sum())
+    if accepted + sum(rejected.values()) != pool:            # an accounting error is a bug, never hidden
+        raise RuntimeError(f"importance accounting: {accepted} accepted + {sum(rejected.values())} rejected "
+                           f"!= {pool} proposals")
+    blocks = {}
+    for name in pieces[0]["blocks"]:
+        lb = np.concatenate([p["blocks"][name] for p in pieces])
+        if lb.size and np.ptp(lb) > 0:
+            blocks[name] = {"pareto_khat": _r3(pareto_khat(lb)), "effective_sample_size": round(_ess(lb), 1)}
+    return {"pieces": pieces, "ess": total_ess, "pool": pool, "rejected": rejected, "lw": lw, "good": good,
+            "crossing_by_pair": crossing_by_pair, "accepted": accepted,
+            "khat": pareto_khat(lw) if accepted else np.inf, "blocks": blocks}
+
 
 
 def _try_proposal(model, rng, n):
@@ -304,11 +372,16 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
     d, logw, notes = exact_draws(system, rng, m, ecc_priors)
     g = geometry_factor(system, d)
     bad = {}
+    counted = np.zeros(m, dtype=bool)          # each proposal is counted under its first rejection only
+    lw_orient = np.zeros(m)                    # the orientation block's factor of the weights
 
     def reject(mask, reason):
-        mask = mask & np.isfinite(logw)
+        mask = mask & ~counted
         bad[reason] = bad.get(reason, 0) + int(mask.sum())
+        counted[mask] = True
         logw[mask] = -np.inf
+
+    reject(np.isneginf(logw), "weights")       # zero prior density (e.g. e outside a population prior)
 
     psi = sigma = ref_inc = None
     if hier:
@@ -317,7 +390,7 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
             with np.errstate(all="ignore"):
                 inside = np.isfinite(model.log_prob(theta))
             # proposals outside the orientation block's support are not rejections by the data
-            logw[~inside] = -np.inf
+            reject(~inside, "proposal_support")
         else:
             theta = chain[rng.integers(0, len(chain), m)]
             with np.errstate(all="ignore"):
@@ -326,7 +399,8 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
             lt = model.log_prob(theta, g, g_nt=g)
         reject(~np.isfinite(lt), "geometry")
         with np.errstate(invalid="ignore"):
-            logw += np.where(np.isfinite(lt), lt - lq, 0.0)
+            lw_orient = np.where(np.isfinite(lt), lt - lq, 0.0)
+            logw += lw_orient
         c = model.unpack(theta, g)
         with np.errstate(all="ignore"):
             terms = model.sign_terms(c)
@@ -346,7 +420,8 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
     else:
         cos_i, node, lw1 = _single_orientation(system, d, g, rng, kinds)
         reject(~np.isfinite(lw1), "geometry")
-        logw += np.where(np.isfinite(lw1), lw1, 0.0)
+        lw_orient = np.where(np.isfinite(lw1), lw1, 0.0)
+        logw += lw_orient
     cos_i = np.clip(cos_i, -1.0, 1.0)
     sin_i = np.sqrt(1.0 - cos_i * cos_i)
     P, e, ms = d["period"], d["ecc"], d["m_star"]
@@ -379,10 +454,7 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
             reject(np.abs(cos_i[:, j]) >= (1.0 + ror) * g[:, j], "geometry")
             if "b" in q:
                 logw += q["b"].log_likelihood(np.abs(cos_i[:, j]) / g[:, j])
-    nan = np.isnan(logw)
-    if nan.any():
-        bad["weights"] = bad.get("weights", 0) + int(nan.sum())
-        logw[nan] = -np.inf
+    reject(~np.isfinite(logw), "weights")     # NaN, or a likelihood term of zero (not counted above)
     mass = np.where(np.isfinite(mass), mass, np.nan)
     a = kepler.a_au(P, ms[:, None] + np.nan_to_num(mass))
     if npl >= 2:
@@ -394,14 +466,17 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
                  msini=msini, mass=mass, inc=np.arccos(cos_i), node=node, radius=d["radius"])
     if psi is not None:
         draws.update(psi=psi, sigma_mutual=sigma, ref_inc=ref_inc)
-    if opts.require_stable and npl >= 2:
+    if opts.analytic_stability_prior and npl >= 2:
         live = np.isfinite(logw)
         if live.any():
             st, _ = stable_draws({k: v[live] for k, v in draws.items()})
             mask = np.zeros(m, dtype=bool)
             mask[np.flatnonzero(live)[~st]] = True
             reject(mask, "stability")
+    reject(~np.isfinite(logw), "weights")
     bad = {k: v for k, v in bad.items() if np.any(v)}
     live = np.isfinite(logw)        # keep only draws that can be resampled (memory stays small)
     draws = {k: v[live] for k, v in draws.items()}
-    return {"draws": draws, "logw": logw[live], "notes": notes}, bad
+    lo = lw_orient[live] if np.ndim(lw_orient) else np.zeros(int(live.sum()))
+    blocks = {"orientation": lo, "rest": logw[live] - lo}
+    return {"draws": draws, "logw": logw[live], "notes": notes, "blocks": blocks}, bad

@@ -23,7 +23,7 @@ def needs_mcmc(system, opts) -> bool:
     transiting ones, a population prior other than flat, the stability prior,
     astrometric orientations, or orbits that cross in some direct draws.
     """
-    if opts.require_stable or opts.ecc_prior not in (None, "ecc-uniform"):
+    if opts.analytic_stability_prior or opts.ecc_prior not in (None, "ecc-uniform"):
         return True
     tr = [p for p in system.planets if p.transiting or "b" in p.quantities]
     if len(tr) >= 2:

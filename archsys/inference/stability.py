@@ -7,19 +7,32 @@ One definition, so that the two can never disagree: a draw is stable when
 * when every planet's mass is known, the system is AMD-stable (Laskar & Petit
   2017, with the MMR-overlap correction of Petit, Laskar & Boue 2017): every
   pair's beta < 1 and the innermost planet's beta_* < 1, with the inclinations
-  taken as the tilts from the system's reference plane (``psi``) where the
-  posterior has them, else zero (coplanar).
+  measured from the invariable plane of each draw (its total angular momentum,
+  Laskar & Petit 2017) where every orbit's inclination and node are known,
+  else the tilts from the reference plane (``psi``), else zero (coplanar); see
+  :func:`amd_inclinations`.
 
 Masses are the true masses where known, else m sin i (``effective_mass``), as in
 the report's scores.  Stability verdicts are statistical, not guarantees.
 """
 from __future__ import annotations
 
+from enum import Enum
+
 import numpy as np
 
-from ..physics import amd, hill
+from ..physics import amd, hill, invariable
 
-__all__ = ["effective_mass", "stable_draws", "stability_inputs"]
+__all__ = ["effective_mass", "stable_draws", "stability_inputs", "amd_inclinations", "InclinationBasis"]
+
+
+class InclinationBasis(str, Enum):
+    """What the AMD inclinations are measured from (recorded in the report)."""
+
+    INVARIABLE = "invariable_plane"      # total angular momentum of each draw
+    REFERENCE = "reference_plane"        # tilts psi from the fitted reference plane
+    COPLANAR = "coplanar"                # no orientation information: zero inclinations
+
 
 
 def effective_mass(draws):
@@ -28,12 +41,42 @@ def effective_mass(draws):
     return np.where(np.isfinite(m), m, np.asarray(draws["msini"], dtype=float))
 
 
+def amd_inclinations(draws, m=None):
+    """(inclinations (n, n_planets) for the AMD, :class:`InclinationBasis`).
+
+    Inclinations from the invariable plane of each draw
+    (:func:`archsys.physics.invariable.invariable_inclinations`) where every
+    planet's sky inclination and node are finite; draws without them get the
+    tilts from the reference plane (``psi``) where the posterior has those, else
+    zero.  The basis returned is the one used by most draws.
+    """
+    e = np.asarray(draws["ecc"], dtype=float)
+    m = effective_mass(draws) if m is None else m
+    psi = draws.get("psi")
+    fallback = np.zeros_like(e) if psi is None else np.asarray(psi, dtype=float)
+    fallback = np.where(np.isfinite(fallback), fallback, 0.0)
+    inc, node = draws.get("inc"), draws.get("node")
+    if inc is None or node is None:
+        return fallback, InclinationBasis.COPLANAR if psi is None else InclinationBasis.REFERENCE
+    inc = np.asarray(inc, dtype=float)
+    node = np.asarray(node, dtype=float)
+    a = np.asarray(draws["a"], dtype=float)
+    ok = np.all(np.isfinite(inc) & np.isfinite(node) & np.isfinite(m) & (m > 0) & np.isfinite(a)
+                & np.isfinite(e) & (e < 1), axis=1)
+    out = fallback.copy()
+    if ok.any():
+        out[ok] = invariable.invariable_inclinations(m[ok], a[ok], e[ok], inc[ok], node[ok],
+                                                     np.asarray(draws["m_star"], dtype=float)[ok])
+    if ok.mean() >= 0.5:
+        return out, InclinationBasis.INVARIABLE
+    return out, InclinationBasis.COPLANAR if psi is None else InclinationBasis.REFERENCE
+
+
 def stability_inputs(draws):
-    """(m, a, e, inclinations from the reference plane, m_star) used by the criterion."""
+    """(m, a, e, inclinations from the invariable plane, m_star) used by the criterion."""
     m = effective_mass(draws)
     e = np.asarray(draws["ecc"], dtype=float)
-    psi = draws.get("psi")
-    inc = np.zeros_like(e) if psi is None else np.asarray(psi, dtype=float)
+    inc, _ = amd_inclinations(draws, m)
     return m, np.asarray(draws["a"], dtype=float), e, inc, np.asarray(draws["m_star"], dtype=float)
 
 

@@ -12,7 +12,12 @@ import warnings
 from ..physics.constants import MEARTH_MSUN
 from ..physics.kepler import msini_from_k_msun
 
-__all__ = ["InputWarning", "has_control", "check_notes", "mass_checks", "cross_checks"]
+__all__ = ["InputWarning", "has_control", "check_notes", "mass_checks", "cross_checks", "phase_checks",
+           "phase_span_check", "PHASE_SPAN_WARN_DAYS"]
+
+#: Times of one system spread over more than this many days probably mix zero points (BJD against
+#: BJD - 2450000, or a Kepler/TESS offset); a one-line warning says so (common practice: ~270 yr).
+PHASE_SPAN_WARN_DAYS = 1e5
 
 
 class InputWarning(UserWarning):
@@ -84,3 +89,31 @@ def cross_checks(q, star, where, P):
             if k in q and q[k].center is not None and q[k].center >= mstar_mearth:
                 P.add(where, f"field '{k}': planet mass {q[k].center:g} M_earth is not below "
                              f"the stellar mass ({mstar_mearth:g} M_earth)")
+
+
+def phase_checks(q, transiting, has_epoch, where, P):
+    """The phase of one planet: at most one of transit_time / periastron_time / mean_longitude,
+    no limits on them, a transit time only for a planet that may transit, a mean longitude only
+    with the system's ``epoch``."""
+    given = [k for k in ("transit_time", "periastron_time", "mean_longitude") if k in q]
+    if len(given) > 1:
+        P.add(where, f"give the phase one way only; got {', '.join(given)} (they state the same phase)")
+    for k in given:
+        if q[k].is_limit:
+            P.add(where, f"field '{k}': a phase takes a value (with errors), not a limit")
+    if "transit_time" in q and transiting is False:
+        P.add(where, "field 'transit_time' given for a planet with transiting = false")
+    if "mean_longitude" in q and not has_epoch:
+        P.add(where, "field 'mean_longitude' needs the top-level 'epoch' (the time it refers to, in days)")
+
+
+def phase_span_check(times, source):
+    """One warning when the given times (transit/periastron times, epoch) span more than
+    :data:`PHASE_SPAN_WARN_DAYS`: they probably use different zero points."""
+    if len(times) < 2:
+        return
+    lo, hi = min(times, key=lambda x: x[1]), max(times, key=lambda x: x[1])
+    if hi[1] - lo[1] > PHASE_SPAN_WARN_DAYS:
+        warnings.warn(f"{source}: times {lo[0]} = {lo[1]:.10g} and {hi[0]} = {hi[1]:.10g} days are "
+                      f"{hi[1] - lo[1]:.3g} days apart; do all times use one zero point (e.g. BJD_TDB)?",
+                      InputWarning, stacklevel=3)

@@ -18,8 +18,9 @@ from ..errors import InputError
 from .inputfile import read_input_bytes
 from .quantity import Measurement
 from .checks import InputWarning, check_notes as _check_notes, cross_checks as _cross_checks, \
-    has_control as _has_control, mass_checks as _mass_checks
-from .schema import (PLANET_FIELDS, PLANET_META_KEYS, QUANTITY_KEYS, STAR_FIELDS,
+    has_control as _has_control, mass_checks as _mass_checks, phase_checks as _phase_checks, \
+    phase_span_check as _phase_span_check
+from .schema import (EPOCH_FIELD, PLANET_FIELDS, PLANET_META_KEYS, QUANTITY_KEYS, STAR_FIELDS,
                      STAR_META_KEYS, TOP_KEYS, Field)
 from .system import Planet, Star, System
 
@@ -249,6 +250,14 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
         P.add("field 'reference_plane'", f"must be one of {', '.join(repr(x) for x in REFERENCE_PLANES)} "
                                          f"(the plane inclinations are measured from); got {rp!r:.40}")
     _check_notes(data.get("notes"), "field 'notes'", P)
+    epoch = None
+    if "epoch" in data:
+        em = parse_quantity(data["epoch"], EPOCH_FIELD, "", P)
+        if em is not None and em.kind != "exact":
+            P.add("field 'epoch'", "is a reference time (a definition, not a measurement): give a number "
+                                   "of days, without errors or limits")
+        elif em is not None:
+            epoch = float(em.value)
 
     star = None
     star_raw = data.get("star")
@@ -347,7 +356,9 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
         if "period" not in pr and "period" not in pl_meant:
             P.add(where, "missing required field 'period' (days)")
         _cross_checks(q, star, where, P)
+        _phase_checks(q, tr, "epoch" in data, where, P)
         _mass_checks(q, star, where, P, source)
+        _plane_checks(q, tr, data.get("reference_plane", "sky"), where, P)
         if "period" in q:
             planets.append(Planet(name=pname, period=q.pop("period"), quantities=q, transiting=tr))
     P.raise_if_any()
@@ -357,8 +368,26 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
             P.add(f"planet '{p2.name}'", f"field 'period': same period as planet '{p1.name}' "
                                           f"({p1.period.center:g} d); co-orbital planets are not supported")
     P.raise_if_any()
+    times = [(f"'{p.name}' {k}", p.quantities[k].center) for p in planets
+             for k in ("transit_time", "periastron_time") if k in p.quantities]
+    _phase_span_check(times + ([("epoch", epoch)] if epoch is not None else []), source)
     return System(name=name.strip(), star=star, planets=tuple(planets), source=source, sha256=sha256,
-                  reference_plane=str(data.get("reference_plane", "sky")))
+                  reference_plane=str(data.get("reference_plane", "sky")), epoch=epoch)
+
+
+#: Fields whose meaning needs inclinations measured from the sky (the line of sight).
+SKY_FIELDS = ("k", "msini", "b", "ror", "transit_time")
+
+
+def _plane_checks(q, transiting, plane, where, P):
+    """Inclinations from the ecliptic or the invariable plane cannot be combined with sky-plane data."""
+    if plane in (None, "sky") or plane not in REFERENCE_PLANES:
+        return
+    bad = [k for k in SKY_FIELDS if k in q] + (["transiting"] if transiting else [])
+    if bad:
+        P.add(where, f"field '{bad[0]}' needs sky inclinations, but reference_plane = '{plane}' measures "
+                     "inclinations from another plane; give sky inclinations (reference_plane = 'sky') or leave "
+                     f"out {', '.join(repr(b) for b in bad)}")
 
 
 def _meant(key, known, value=None):

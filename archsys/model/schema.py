@@ -53,12 +53,21 @@ PLANET_FIELDS = {
         Field("b", "", (0.0, INF), "transit impact parameter"),
         Field("inclination", "deg", (0.0, 180.0), "orbital inclination"),
         Field("ascending_node", "deg", (-INF, INF), "longitude of ascending node", periodic=True),
+        # phases (one per planet): a time of mid-transit, a time of periastron, or a mean longitude at
+        # the system's `epoch`; times on one time scale and zero point (BJD_TDB recommended)
+        Field("transit_time", "day", (-INF, INF), "time of mid-transit (inferior conjunction)"),
+        Field("periastron_time", "day", (-INF, INF), "time of periastron passage"),
+        Field("mean_longitude", "deg", (-INF, INF), "mean longitude at the system epoch", periodic=True),
     ]
 }
 
 #: Keys allowed inside a quantity table.
 QUANTITY_KEYS = ("value", "err", "minus", "plus", "upper", "lower", "cl", "unit")
 #: Non-quantity keys.
-TOP_KEYS = ("name", "star", "planet", "reference_plane", "notes")
+TOP_KEYS = ("name", "star", "planet", "reference_plane", "epoch", "notes")
+#: Planet fields that state the orbital phase; a planet gives at most one of them.
+PHASE_FIELDS = ("transit_time", "periastron_time", "mean_longitude")
+#: The system-level reference time of mean longitudes and of the N-body initial conditions.
+EPOCH_FIELD = Field("epoch", "day", (-INF, INF), "reference time of the phases")
 PLANET_META_KEYS = ("name", "transiting", "notes")
 STAR_META_KEYS = ("name", "notes")

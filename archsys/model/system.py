@@ -38,6 +38,7 @@ class System:
     source: str = "<memory>"
     sha256: str = ""
     reference_plane: str = "sky"            # what `inclination` is measured from
+    epoch: float | None = None              # day: reference time of mean longitudes and phases
 
     @property
     def n_planets(self) -> int:

@@ -31,6 +31,7 @@ DRAW_UNITS = {
     "r_star": ("star_radius_rsun", 1.0, "solRad"), "rho_star": ("star_density_gcc", 1.0, "g / cm3"),
     "sigma_mutual": ("sigma_mutual_deg", math.degrees(1.0), "deg"),
     "ref_inc": ("reference_inclination_deg", math.degrees(1.0), "deg"),
+    "mean_anomaly": ("mean_anomaly_deg", math.degrees(1.0), "deg"),
 }
 
 

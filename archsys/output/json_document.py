@@ -13,10 +13,12 @@ import platform
 import numpy as np
 
 from .. import __version__
+from ..inference.dataprior import posterior_measures
 from ..inference.summary import summarize, summarize_angle
+from ..inference.usability import posterior_status
 from ..physics.constants import MEARTH_MSUN
 from ..scores.common import barely_constrained, flat_ecc_prior
-from .wording import verdict_sentences
+from .wording import tagged, unusable_verdict_line, verdict_sentences, verdict_tags
 
 __all__ = ["build_document", "DISCLAIMER", "SCHEMA_VERSION"]
 
@@ -90,7 +92,9 @@ def _priors_that_ran(post, opts):
         out[q] = {"name": pr.name, "citation": pr.citation, "from_memory": bool(pr.from_memory),
                   "default": not name}
     if getattr(opts, "require_stable", False):
-        out["stability"] = "Hill (Gladman 1993) and AMD (Laskar & Petit 2017) stability of every adjacent pair"
+        out["stability"] = ("survival of each draw over the N-body horizon (--stable-by nbody; importance weights "
+                            "0/1 over the integrated draws)" if getattr(opts, "stable_by", "analytic") == "nbody" else
+                            "Hill (Gladman 1993) and AMD (Laskar & Petit 2017) stability of every adjacent pair")
     return out
 
 
@@ -98,12 +102,15 @@ def build_document(res) -> dict:
     """JSON-ready document of one analysis (see module docstring for the contract)."""
     post, sysm, sc = res.posterior, res.system, res.scores
     d = post.draws
+    usability = posterior_status(post.sampler, post.n_draws)
+    dp_planets, dp_system = posterior_measures(post)
     star = {"mass_msun": summarize(d["m_star"])}
     if sysm.star.radius is not None:
         star["radius_rsun"] = summarize(d["r_star"])
     if sysm.star.density is not None:
         star["density_gcc"] = summarize(d["rho_star"])
     doc = {
+        "posterior_usability": usability,
         "schema_version": SCHEMA_VERSION,
         "system": sysm.name,
         "star": star,
@@ -111,10 +118,29 @@ def build_document(res) -> dict:
                     for j, (pl, extra) in enumerate(zip(sysm.planets, sc.get("planets") or [{}] * sysm.n_planets))],
         "pairs": sc["pairs"],
     }
+    for entry in doc["planets"]:
+        if entry["name"] in dp_planets:
+            entry["data_or_prior"] = dp_planets[entry["name"]]
     doc.update({k: v for k, v in sc["system"].items()})
+    if dp_system:
+        doc["data_or_prior"] = dp_system
     structured = _finite(sc.get("verdicts", []))
-    doc["verdicts"] = verdict_sentences(doc, structured)
+    constraints = _constraints(res.options)
+    for v in structured:
+        if constraints:
+            v["constraints"] = list(constraints)
+    doc["provenance"] = {"priors": _priors_that_ran(post, res.options),
+                         "options": res.options.as_dict()}        # read by the wording (replaced below)
+    if usability["usable"]:
+        doc["verdicts"] = [tagged(s, verdict_tags(doc, v))
+                           for s, v in zip(verdict_sentences(doc, structured), structured)]
+    else:
+        doc["verdicts"] = [unusable_verdict_line(doc)]
+    del doc["provenance"]                     # (its final place is at the end)
     doc["structured_verdicts"] = structured
+    dyn = [t for v, t in zip(structured, doc["verdicts"]) if v.get("code") == "dynamical_assessment"]
+    if dyn and isinstance(doc.get("dynamics"), dict):
+        doc["dynamics"]["verdict"] = dyn[0]     # the headline of every format
     doc["sampler"] = dict(post.sampler)
     doc["disclaimer"] = DISCLAIMER
     doc["provenance"] = {
@@ -128,6 +154,11 @@ def build_document(res) -> dict:
         "versions": _versions(),
     }
     return _finite(doc)
+
+
+def _constraints(opts):
+    """Codes of the constraints imposed on the posterior (named wherever a result rests on them)."""
+    return ("require_stable",) if getattr(opts, "require_stable", False) else ()
 
 
 def _finite(obj):

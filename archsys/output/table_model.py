@@ -12,6 +12,7 @@ rounded numbers and percentages.
 """
 from __future__ import annotations
 
+import dataclasses
 import json
 from dataclasses import dataclass, field
 
@@ -19,18 +20,18 @@ from ..scores.registry import Column, column, score_columns
 from ..scores.planet_columns import PLANET_COLUMNS, STAR_COLUMNS
 from .numbers import fmt_plain, format_value, is_summary, short_name
 from .latex_escape import escape
-from .wording import prior_lines
+from .wording import CONSTRAINT_MARK, DATA_PRIOR_MARKS, WITHHELD_NOTE, prior_lines, status_line
 
 __all__ = ["Table", "Tables", "document_tables", "format_cell", "verdict_lines", "sampler_items",
            "provenance_items", "intro_line", "basis_notes", "column_of", "META_KEYS", "MARK", "MARK_NOTE"]
 
 #: Document keys that are not quantities (rendered in their own sections).
 META_KEYS = {"schema_version", "system", "star", "planets", "pairs", "sampler", "disclaimer",
-             "provenance", "verdicts", "structured_verdicts"}
-_PLANET_SKIP = {"name", "not_constrained_by_data"}
+             "provenance", "verdicts", "structured_verdicts", "posterior_usability", "data_or_prior"}
+_PLANET_SKIP = {"name", "not_constrained_by_data", "data_or_prior"}
 _PAIR_SKIP = {"inner", "outer"}
 MARK = "†"
-MARK_NOTE = "† not constrained by the data: the value is (nearly) the prior's."
+MARK_NOTE = "† not constrained by the data: the value is (nearly) set by the prior."
 NAME_COLUMN = Column("name", "planet", "Planet", fmt="text", table="planet")
 PAIR_COLUMN = Column("pair", "pair", "Pair", fmt="text", table="pair")
 
@@ -52,6 +53,8 @@ class Tables:
     notes: list         # plain-text notes on the basis of values
     verdicts: list = field(default_factory=list)
     priors: list = field(default_factory=list)
+    status: str | None = None      # the line a report opens with when its posterior is not usable/clean
+    usable: bool = True            # False: no intervals, no verdicts (README, "Usable posteriors")
 
 
 def column_of(key, table):
@@ -138,6 +141,10 @@ def _planet_table(doc):
         tab.raw.append(e)
         for key in p.get("not_constrained_by_data") or []:
             tab.marks[(i, key)] = MARK
+        for key, m in (p.get("data_or_prior") or {}).items():
+            mark = DATA_PRIOR_MARKS.get((m or {}).get("source"), ("",))[0]
+            if mark:
+                tab.marks[(i, key)] = mark
     return tab
 
 
@@ -167,10 +174,53 @@ def document_tables(doc) -> Tables:
     ordered = {k: rest.pop(k) for k in order if k in rest}
     ordered.update(rest)
     system = _flatten(ordered, "system", sysname)
+    pair_tab = _pair_table(doc)
     notes = basis_notes(doc)
-    if ptab.marks:
+    used = set(ptab.marks.values())
+    dp = doc.get("data_or_prior") or {}
+    imposed = _imposed(doc)
+    for i, (col, cell) in enumerate(system):         # marks on system quantities: data or prior, imposed
+        mark = DATA_PRIOR_MARKS.get((dp.get(col.key) or {}).get("source"), ("",))[0]
+        if imposed and "stable" in col.key and "probability" in col.key:
+            mark += CONSTRAINT_MARK[0]
+        if mark:
+            system[i] = (dataclasses.replace(col, label=col.label + " " + mark), cell)
+            used.update(mark)
+    if imposed and pair_tab is not None:
+        for r in range(len(pair_tab.rows)):
+            for col in pair_tab.columns:
+                if "stable" in col.key and "probability" in col.key:
+                    pair_tab.marks[(r, col.key)] = CONSTRAINT_MARK[0]
+                    used.add(CONSTRAINT_MARK[0])
+    if MARK in used:
         notes.append(MARK_NOTE)
-    return Tables(ptab, _pair_table(doc), star, system, notes, verdict_lines(doc), prior_lines(doc))
+    notes += [note for mark, note in DATA_PRIOR_MARKS.values() if mark in used and mark != MARK]
+    if CONSTRAINT_MARK[0] in used:
+        notes.append(CONSTRAINT_MARK[1])
+    tabs = Tables(ptab, pair_tab, star, system, notes, verdict_lines(doc), prior_lines(doc),
+                  status=status_line(doc), usable=(doc.get("posterior_usability") or {}).get("usable", True))
+    if not tabs.usable:
+        _withhold(tabs)
+    return tabs
+
+
+def _imposed(doc):
+    return bool(((doc.get("provenance") or {}).get("options") or {}).get("require_stable"))
+
+
+_NUMERIC = ("pm", "percent", "number", "inf")
+
+
+def _withhold(t):
+    """An unusable posterior: every number drawn from it becomes "—" (no interval it cannot support)."""
+    for tab in (t.planets, t.pairs):
+        if tab is None:
+            continue
+        tab.rows = [[("none",) if c[0] in _NUMERIC else c for c in row] for row in tab.rows]
+        tab.marks = {}
+    t.star = [(col, ("none",) if c[0] in _NUMERIC else c) for col, c in t.star]
+    t.system = [(col, ("none",) if c[0] in _NUMERIC else c) for col, c in t.system]
+    t.notes = [n for n in t.notes if not n.startswith(("†", "‡", "§"))] + [WITHHELD_NOTE]
 
 
 def verdict_lines(doc):
@@ -239,8 +289,15 @@ def intro_line(doc):
     """'4000 posterior draws (direct Monte Carlo), seed 0': how the numbers were made."""
     prov = doc.get("provenance") or {}
     smp = doc.get("sampler") or {}
+    imp = smp.get("importance") or {}
     bits = []
-    if "draws" in prov:
+    if "draws" in prov and imp.get("proposals"):
+        ess = float(imp.get("effective_sample_size") or 0)
+        bits.append(f"{prov['draws']} draws resampled from {imp['proposals']} weighted proposals "
+                    f"(effective sample size {ess:.0f})" if ess >= 10 else
+                    f"{prov['draws']} draws resampled from {imp['proposals']} weighted proposals "
+                    f"(effective sample size {ess:.2g})")
+    elif "draws" in prov:
         bits.append(f"{prov['draws']} posterior draws")
     if smp.get("method"):
         bits.append(f"({smp['method']})")

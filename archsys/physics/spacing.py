@@ -527,3 +527,63 @@ def spacing_uniformity(periods):
         return np.full(P.shape[:-1], np.nan)
     logr = np.log(period_ratios(P))  # (..., n_pairs)
     return logr.std(axis=-1) / logr.mean(axis=-1)
+
+
+# ---------------------------------------------------------------------------
+# Three-body (Laplace-type) relations
+# ---------------------------------------------------------------------------
+
+#: Largest integer coefficient searched for three-body relations p/P1 - (p+q)/P2 + q/P3 ~ 0.
+LAPLACE_MAX_COEFF = 4
+#: A three-body relation is reported when its residual frequency is below this fraction of the
+#: middle planet's mean motion (a choice of this tool: 0.3 % of n2 holds the relations of the known
+#: resonant chains, whose two-body offsets are ~1 %, and rejects most chance alignments).
+LAPLACE_TOL = 3e-3
+
+
+def laplace_relations(periods, max_coeff=LAPLACE_MAX_COEFF, tol=LAPLACE_TOL):
+    """Three-body relations ``p/P1 - (p+q)/P2 + q/P3 ~ 0`` of consecutive triples in one system.
+
+    Parameters
+    ----------
+    periods : array_like, shape (n_planets,)
+        Periods of one system (e.g. posterior medians), sorted.
+    max_coeff : int
+        Largest p and q searched (1..max_coeff).
+    tol : float
+        Largest ``|p n1 - (p+q) n2 + q n3| / n2`` reported (n = 1/P).
+
+    Returns
+    -------
+    list of dict
+        One per triple that has a relation: ``planets`` (indices i, i+1, i+2), ``p``, ``q``,
+        ``residual`` (fractional, signed) and ``coefficients`` ``(p, -(p+q), q)`` of the
+        three-body angle ``p lam1 - (p+q) lam2 + q lam3``.  The smallest coefficients that
+        satisfy the tolerance are taken (lowest ``p + q``, then smallest residual).
+
+    Notes
+    -----
+    Such relations (e.g. the Laplace relation of the Galilean satellites, n1 - 3 n2 + 2 n3 = 0)
+    make a slow three-body angle whose libration marks a resonant chain (Murray & Dermott 1999,
+    ch. 8); whether it librates is read from the N-body integration.
+    """
+    P = np.asarray(periods, dtype=float)
+    out = []
+    for i in range(len(P) - 2):
+        n1, n2, n3 = 1.0 / P[i], 1.0 / P[i + 1], 1.0 / P[i + 2]
+        best = None
+        for s in range(2, 2 * max_coeff + 1):
+            for p in range(1, max_coeff + 1):
+                q = s - p
+                if not 1 <= q <= max_coeff or gcd(p, q) != 1:
+                    continue
+                r = (p * n1 - (p + q) * n2 + q * n3) / n2
+                if np.isfinite(r) and abs(r) < tol and (best is None or abs(r) < abs(best[2])):
+                    best = (p, q, float(r))
+            if best is not None:
+                break
+        if best is not None:
+            p, q, r = best
+            out.append({"planets": (i, i + 1, i + 2), "p": p, "q": q, "residual": r,
+                        "coefficients": (p, -(p + q), q)})
+    return out

@@ -2,9 +2,10 @@
 
 Per draw: the AMD coefficient beta of every adjacent pair (beta < 1: AMD
 stable; beta = inf where the critical AMD is zero, counted as unstable) and
-of the innermost planet against collision with the star.  Inclinations are the
-tilts from the system reference plane (MCMC) or zero (coplanar) when the
-posterior has no orientation model.  Summaries keep infinite draws (see
+of the innermost planet against collision with the star.  Inclinations are
+measured from the invariable plane of each draw (its total angular momentum,
+as Laskar & Petit 2017 define the AMD), or zero (coplanar) when the posterior
+has no orientations (:func:`archsys.inference.stability.amd_inclinations`).  Summaries keep infinite draws (see
 :func:`archsys.scores.common.summarize_with_infinite`).
 """
 from __future__ import annotations
@@ -13,6 +14,7 @@ import numpy as np
 
 from ..inference.summary import probability
 from ..physics import amd
+from ..inference.stability import InclinationBasis, amd_inclinations
 from .common import effective_mass, summarize_with_infinite
 from .hill import stability_caveats
 from .registry import Column, Score, ScoreResult, register, verdict
@@ -32,8 +34,7 @@ def amd_arrays(post):
     """AMD coefficients per draw: (beta (n, n_pairs), beta_star (n,)), or None."""
     m = effective_mass(post)
     a, e = post["a"], post["ecc"]
-    psi = post.get("psi")
-    inc = psi if psi is not None else np.zeros_like(e)
+    inc, _ = amd_inclinations(post, m)
     ok = _defined(post)
     if not ok.any():
         return None
@@ -43,6 +44,11 @@ def amd_arrays(post):
     b, bs = amd.amd_beta(m[ok], a[ok], e[ok], inc[ok], post["m_star"][ok])
     beta[ok], beta_star[ok] = b, bs
     return beta, beta_star
+
+
+_INCL_TEXT = {InclinationBasis.INVARIABLE: "from the invariable plane of each draw (total angular momentum)",
+              InclinationBasis.REFERENCE: "tilts from the reference plane (posterior)",
+              InclinationBasis.COPLANAR: "coplanar (no orientation posterior)"}
 
 
 class AmdScore(Score):
@@ -78,8 +84,7 @@ class AmdScore(Score):
         system = {"amd": {
             "system_stable_probability": probability(np.all(beta[ok] < 1, axis=1) & (beta_star[ok] < 1))
             if ok.any() else None,
-            "inclinations": "coplanar (no orientation posterior)" if ctx.post.get("psi") is None
-            else "tilts from the reference plane (posterior)",
+            "inclinations": _INCL_TEXT[amd_inclinations(ctx.post)[1]],
             "criterion": CRITERION,
         }}
         return ScoreResult(pairs=pairs, system=system)
@@ -89,8 +94,11 @@ class AmdScore(Score):
         if b.get("system_stable_probability") is None:
             return []
         caveats = stability_caveats(ctx)
-        if ctx.post.get("psi") is None:
+        basis = amd_inclinations(ctx.post)[1]
+        if basis is InclinationBasis.COPLANAR:
             caveats.append("coplanar_amd")
+        elif basis is InclinationBasis.REFERENCE:
+            caveats.append("reference_plane_amd")
         return [verdict("amd_stable_system", b["system_stable_probability"], ctx.names,
                         criterion="AMD stability of every adjacent pair and of the innermost planet",
                         citation="Laskar & Petit 2017; Petit, Laskar & Boue 2017", caveats=caveats)]

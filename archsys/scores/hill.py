@@ -32,8 +32,6 @@ def stability_caveats(ctx, uses_ecc=True):
         out.append("weak_eccentricity")
     if any(str(ctx.note(p, "mass")).startswith("minimum") for p in planets):
         out.append("minimum_masses")
-    if any((q.get("near_resonance_probability") or 0) >= 0.5 for q in ctx.pairs):
-        out.append("near_resonance_analytic")
     return out
 
 

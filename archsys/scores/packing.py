@@ -16,6 +16,7 @@ import numpy as np
 from ..inference.summary import probability, summarize
 from ..physics import amd, packing
 from ..physics.constants import MEARTH_MSUN
+from ..inference.stability import amd_inclinations
 from .common import effective_mass
 from .registry import Column, Score, ScoreResult, register, verdict
 
@@ -54,8 +55,7 @@ def packing_arrays(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARA
     sub = post.subset(max_draws)
     m = effective_mass(sub)                                            # (n, n_planets) M_sun
     a, e, P = sub["a"], sub["ecc"], sub["period"]
-    psi = sub.get("psi")
-    inc = np.zeros_like(e) if psi is None else np.asarray(psi, dtype=float)
+    inc, _ = amd_inclinations(sub, m)                                  # from the invariable plane
     ms = np.asarray(sub["m_star"], dtype=float)
     usable = (np.all(np.isfinite(m) & (m > 0), axis=1) & np.all(np.isfinite(a) & np.isfinite(e), axis=1)
               & np.all(np.diff(a, axis=1) > 0, axis=1) & np.all(np.isfinite(inc), axis=1))

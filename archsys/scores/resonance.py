@@ -6,7 +6,7 @@ ratio lies within a window of the first-order resonance widths, which scale
 with the planets' mass ratio as mu^(2/3) (Deck, Payne & Holman 2013; see
 :func:`archsys.physics.spacing.near_resonance`).  Summaries: the period ratio,
 the most frequent nearest resonance over the draws with the offsets from it,
-and the fraction of draws near a first-order resonance.
+and the fraction of draws near a resonance of order 1-3 (:func:`near_window`).
 """
 from __future__ import annotations
 
@@ -19,15 +19,51 @@ from ..physics import spacing
 from .common import adjacent, barely_constrained, effective_mass, flat_ecc_prior, masked_apply
 from .registry import Column, Score, ScoreResult, register, verdict
 
-__all__ = ["ResonanceScore", "WIDE_RATIO", "near_first_order"]
+__all__ = ["ResonanceScore", "WIDE_RATIO", "near_first_order", "near_mmr", "near_window"]
 
 #: Pairs wider than this period ratio get no nearest resonance: the table of
 #: resonances of order <= 3 ends at 4:1 (common practice: resonances of order
 #: > 3 are too weak to matter for planets).
 WIDE_RATIO = 4.5
 
+#: Widest near-resonance window (fractional offset): the super-periods' limit (scores.super_periods.MAX_OFFSET).
+NEAR_MAX_OFFSET = 0.05
+
 #: A pair counts as near resonance in a verdict when this fraction of draws is (common practice: majority).
 NEAR_THRESHOLD = 0.5
+
+def near_window(j, k, mu, e):
+    """Half-width of the "near resonance" window of j:(j-k), as a fractional offset of the period ratio.
+
+    Every order k <= 3 uses the same mass-scaled window, ``NEAR_WINDOW_MULTIPLE`` times the
+    first-order width scale of :func:`archsys.physics.spacing.resonance_width` at that j, divided by
+    the order k.  A choice of this tool: it names the pairs of a resonant chain of first-, second- and
+    third-order resonances (e.g. 8:5, 5:3 and 3:2 links) the same way, with narrower windows for the
+    weaker higher orders, and never wider than :data:`NEAR_MAX_OFFSET` (5 %, the offset within which the
+    super-period columns report a pair).  Whether the pair is *in* resonance is decided by the libration of its
+    resonant angles in the N-body integration, not by this window.
+    """
+    return np.minimum(spacing.NEAR_WINDOW_MULTIPLE * spacing.resonance_width(j, 1, mu, e) / k, NEAR_MAX_OFFSET)
+
+
+def near_mmr(ratio, mu, e, max_order=spacing.MMR_MAX_ORDER):
+    """(flag, j, k) per draw: near a resonance of order <= max_order, and which (0 where none).
+
+    The resonance whose window (:func:`near_window`) holds the ratio most centrally is chosen.
+    """
+    flag = np.zeros(np.shape(ratio), dtype=bool)
+    which_j = np.zeros(np.shape(ratio), dtype=int)
+    which_k = np.zeros(np.shape(ratio), dtype=int)
+    best = np.full(np.shape(ratio), np.inf)
+    for j, k, ratio_res in spacing.MMR_TABLE[spacing.MMR_TABLE["k"] <= max_order]:
+        dist = np.abs(ratio / ratio_res - 1.0) / near_window(j, k, mu, e)
+        hit = (dist < 1.0) & (dist < best)
+        which_j = np.where(hit, j, which_j)
+        which_k = np.where(hit, k, which_k)
+        best = np.where(hit, dist, best)
+        flag |= dist < 1.0
+    return flag, which_j, which_k
+
 
 def near_first_order(ratio, mu, e):
     """(flag, j) per draw: near a first-order resonance, and which one (j:(j-1); 0 where none)."""
@@ -55,7 +91,7 @@ class ResonanceScore(Score):
         Column("mmr_offset", "offset", r"$\delta$", "%", r"\%", scale=100.0, unit_astropy="%",
                description="fractional offset from the nearest resonance"),
         Column("near_resonance_probability", "P(near MMR)", r"$P_\mathrm{MMR}$", fmt="percent",
-               description="fraction of draws near a first-order resonance"),
+               description="fraction of draws near a resonance of order 1-3"),
     )
 
     def per_draw(self, ctx):
@@ -69,12 +105,15 @@ class ResonanceScore(Score):
         j, k, off = spacing.nearest_mmr(np.where(ordered, ratio, 1.0))
         mu = (m1 + m2) / post["m_star"][:, None]
         r_ok = np.where(ordered, ratio, np.nan)
-        # which first-order resonance each draw is near (0: none; NaN: unknown masses or crossing periods)
-        which = masked_apply(lambda r, x, y: near_first_order(r, x, y)[1], r_ok, mu, np.maximum(e1, e2))
+        # which resonance of order <= 3 each draw is near (0: none; NaN: unknown masses or crossing periods)
+        e_pair = np.maximum(e1, e2)
+        which = masked_apply(lambda r, x, y: near_mmr(r, x, y)[1], r_ok, mu, e_pair)
+        which_k = masked_apply(lambda r, x, y: near_mmr(r, x, y)[2], r_ok, mu, e_pair)
         near = np.where(np.isfinite(which), (which > 0).astype(float), np.nan)
         near_j = np.nan_to_num(which).astype(int)
+        near_k = np.nan_to_num(which_k).astype(int)
         return {"period_ratio": ratio, "mmr_j": j, "mmr_k": k, "mmr_offset": np.where(ordered, off, np.nan),
-                "mu": mu, "near_resonance": near, "near_resonance_j": near_j}
+                "mu": mu, "near_resonance": near, "near_resonance_j": near_j, "near_resonance_k": near_k}
 
     def summarise(self, ctx, arr):
         pairs = []
@@ -96,26 +135,29 @@ class ResonanceScore(Score):
 
     def verdicts(self, ctx):
         near_j = ctx.arrays["near_resonance_j"]
+        near_k = ctx.arrays["near_resonance_k"]
         out = []
         for p, q in enumerate(ctx.pairs):
             prob = q.get("near_resonance_probability")
             if prob is None or prob < NEAR_THRESHOLD:
                 continue
-            js = near_j[:, p][near_j[:, p] > 0]
-            j = Counter(js.tolist()).most_common(1)[0][0] if js.size else 0
+            sel = near_j[:, p] > 0
+            jk = list(zip(near_j[:, p][sel].tolist(), near_k[:, p][sel].tolist()))
+            j, k = Counter(jk).most_common(1)[0][0] if jk else (0, 0)
             eccs = [ctx.note(q["inner"], "ecc"), ctx.note(q["outer"], "ecc")]
             loose = any("prior only" not in e and "assumed" not in e and "fixed" not in e
                         and barely_constrained(ctx.post["ecc"][:, i], flat_ecc_prior(ctx.post))
                         for e, i in zip(eccs, (p, p + 1)))
             out.append(verdict(
                 "near_resonance", prob, [q["inner"], q["outer"]],
-                criterion="period ratio within 3 resonance widths (width scaling with mu^(2/3)) of a "
-                          "first-order resonance",
+                criterion="period ratio within the near-resonance window (3 first-order widths scaling with "
+                          "mu^(2/3), divided by the order) of a resonance of order 1-3",
                 citation="Deck, Payne & Holman 2013",
                 caveats=(["prior_only_eccentricity"] if any("prior only" in e for e in eccs) else [])
                 + (["weak_eccentricity"] if loose else []),
-                mmr=spacing.mmr_label(j, 1) if j else q.get("nearest_mmr"), order=1,
-                nearest_mmr=q.get("nearest_mmr"), nearest_order=q.get("mmr_order")))
+                mmr=spacing.mmr_label(j, k) if j else q.get("nearest_mmr"), order=int(k) if j else q.get("mmr_order"),
+                nearest_mmr=q.get("nearest_mmr"), nearest_order=q.get("mmr_order"),
+                libration_fraction=q.get("libration_probability")))
         return out
 
 

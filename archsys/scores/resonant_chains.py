@@ -1,4 +1,4 @@
-"""Resonant chains: runs of two or more consecutive pairs each near a first-order resonance.
+"""Resonant chains: runs of two or more consecutive pairs each near a resonance of order 1-3.
 
 A pair counts when it is near resonance in more than half of the draws (see
 :mod:`archsys.scores.resonance`); chains are listed by planet name.
@@ -30,7 +30,7 @@ class ResonantChainScore(Score):
 
     def verdicts(self, ctx):
         return [verdict("resonant_chain", None, chain,
-                        criterion="consecutive pairs each near a first-order resonance in most draws")
+                        criterion="consecutive pairs each near a resonance of order 1-3 in most draws")
                 for chain in ctx.system.get("resonant_chains") or []]
 
 

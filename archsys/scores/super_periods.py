@@ -1,7 +1,7 @@
 """Super-periods and approximate TTV amplitudes of near-resonant pairs (Lithwick, Xie & Wu 2012).
 
 A pair whose period ratio lies within :data:`MAX_OFFSET` (fractional) of a
-first- or second-order resonance j:(j-k) gets the posterior of its
+resonance j:(j-k) of order 1-3 (the same table as the pair's nearest MMR) gets the posterior of its
 super-period 1/|j/P' - (j-k)/P|.  First-order pairs with masses also get the
 order of magnitude of the TTV amplitudes of both planets from the formulae of
 Lithwick, Xie & Wu (2012), for an assumed free eccentricity (default zero:
@@ -52,7 +52,7 @@ def super_period_block(post, free_eccentricity=0.0):
         ok = np.isfinite(p1) & np.isfinite(p2) & (p2 > p1)
         if not ok.any():
             continue
-        j, k, _ = spacing.nearest_mmr(p2[ok] / p1[ok], max_order=2)
+        j, k, _ = spacing.nearest_mmr(p2[ok] / p1[ok], max_order=3)
         (bj, bk), _ = Counter(zip(j.tolist(), k.tolist())).most_common(1)[0]
         delta = p2[ok] / p1[ok] * (bj - bk) / bj - 1.0
         if abs(np.median(delta)) > MAX_OFFSET:
@@ -77,7 +77,7 @@ def super_period_block(post, free_eccentricity=0.0):
         minimum |= any("minimum" in str(notes.get(nm, {}).get("mass", "")) for nm in names[i:i + 2])
     system = {}
     if any(pairs):
-        text = ("super-periods of pairs within 5 % of a first- or second-order resonance; second-order pairs: "
+        text = ("super-periods of pairs within 5 % of a resonance of order 1-3 (as the nearest MMR); second- and third-order pairs: "
                 "super-period only")
         if any_ttv:
             text += ("; TTV amplitudes approximate (order of magnitude) from the Lithwick, Xie & Wu 2012 "
@@ -99,7 +99,7 @@ class SuperPeriodScore(Score):
     order = 85
     columns = (
         Column("super_period_resonance", "super-period resonance", "Super-period resonance", fmt="text",
-               description="first- or second-order resonance j:(j-k) of the super-period"),
+               description="resonance j:(j-k) (order 1-3) of the super-period"),
         Column("super_period_order", "super-period resonance order", "Super-period resonance order",
                fmt="integer", show=False),
         Column("super_period_offset", "Δ (super-period resonance)", r"$\Delta_\mathrm{sup}$", show=False,

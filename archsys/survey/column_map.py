@@ -6,7 +6,10 @@ Canonical columns (no ``--columns`` file)
 ``star_mass`` are required; ``star_radius``, ``star_density`` and every planet
 field of the system-file schema (``k``, ``msini``, ``mass``, ``radius``,
 ``ror``, ``ecc``, ``omega``, ``secosw``, ``sesinw``, ``ecosw``, ``esinw``,
-``b``, ``inclination``, ``ascending_node``, ``transiting``) are optional.
+``b``, ``inclination``, ``ascending_node``, ``transiting``, and the phase fields
+``transit_time``, ``periastron_time``, ``mean_longitude``) are optional, as is
+the system column ``epoch`` (the reference time of mean longitudes, in days;
+every row of a system must agree on it).
 Uncertainties are ``<field>_err`` or ``<field>_minus`` and ``<field>_plus``
 (positive numbers); limits are ``<field>_upper`` / ``<field>_lower`` (the
 limit value).  Units are those of the system file (day, solMass, solRad,
@@ -48,6 +51,13 @@ Column-map file (``--columns MAP.toml``)
     [planet.transiting]
     value = "transiting"          # 1/0, true/false, yes/no; empty = unknown
 
+    [planet.transit_time]         # phase: transit_time, periastron_time or mean_longitude
+    value = "tmid_bjd"
+    err = "tmid_err"
+
+    [system.epoch]                # system fields: epoch (reference time of mean longitudes)
+    value = "epoch_bjd"
+
 Keys of a field table: ``value``, ``err``, ``minus``, ``plus``, ``upper``,
 ``lower`` (column names: the value, its errors, or columns holding limit
 values); ``limit`` (a flag column; a cell in ``upper_codes``, default
@@ -86,7 +96,7 @@ import astropy.units as u
 from ..limits import clip
 from ..errors import InputError
 from ..model.inputfile import read_input_bytes
-from ..model.schema import PLANET_FIELDS, STAR_FIELDS
+from ..model.schema import EPOCH_FIELD, PLANET_FIELDS, STAR_FIELDS
 from .where import SYSTEM_VARS, parse_number, parse_where
 
 __all__ = ["FieldMap", "ColumnMap", "canonical_map", "load_column_map", "system_mapping",
@@ -107,7 +117,7 @@ class FieldMap:
     """Where one archsys field comes from (column names or None)."""
 
     name: str
-    scope: str                       # "star" or "planet"
+    scope: str                       # "star", "planet" or "system"
     value: str | None = None
     err: str | None = None
     minus: str | None = None
@@ -131,6 +141,11 @@ class FieldMap:
     @property
     def label(self):
         return f"star_{self.name}" if self.scope == "star" else self.name
+
+
+#: Fields of the system as a whole (top-level keys of a system file).
+SYSTEM_FIELDS = {"epoch": EPOCH_FIELD}
+_SCOPES = ("star", "planet", "system")
 
 
 @dataclass(frozen=True)
@@ -172,6 +187,8 @@ def where_names(cmap: ColumnMap, columns) -> dict:
 
 
 def _fields_for(scope):
+    if scope == "system":
+        return SYSTEM_FIELDS
     return STAR_FIELDS if scope == "star" else {**PLANET_FIELDS, "transiting": None}
 
 
@@ -179,7 +196,7 @@ def canonical_map(columns) -> ColumnMap:
     """The default mapping onto canonical column names (see module docstring)."""
     cols = set(columns)
     out = []
-    for scope in ("star", "planet"):
+    for scope in _SCOPES:
         for name in _fields_for(scope):
             base = f"star_{name}" if scope == "star" else name
             spec = {k: f"{base}_{k}" for k in ("err", "minus", "plus", "upper", "lower")
@@ -280,8 +297,8 @@ def load_column_map(path) -> ColumnMap:
         raise InputError(f"{src}: not UTF-8 text") from None
     data = parse_toml(text, src, "column map")
     for k in data:
-        if k not in ("keys", "aliases", "star", "planet", "notes"):
-            raise _err(src, "", f"unknown table [{k}]{_suggest(k, ('keys', 'aliases', 'star', 'planet'))}")
+        if k not in ("keys", "aliases", "star", "planet", "system", "notes"):
+            raise _err(src, "", f"unknown table [{k}]{_suggest(k, ('keys', 'aliases', 'star', 'planet', 'system'))}")
     keys = data.get("keys", {})
     if not isinstance(keys, dict) or not isinstance(keys.get("system"), str):
         raise _err(src, "[keys]", "needs system = \"<column naming the system>\"")
@@ -292,7 +309,7 @@ def load_column_map(path) -> ColumnMap:
     if not isinstance(aliases, dict) or not all(isinstance(v, str) for v in aliases.values()):
         raise _err(src, "[aliases]", "must map names to column names (strings)")
     fields = []
-    for scope in ("star", "planet"):
+    for scope in _SCOPES:
         table = data.get(scope, {})
         if not isinstance(table, dict):
             raise _err(src, f"[{scope}]", "must be a table of field tables")

@@ -124,9 +124,10 @@ def system_mapping(group, cmap, cat_units=None):
     problems = []
     star = {}
     star_src = {}
+    top = {}
     first_row = group.rows[0][0]
     for f in cmap.fields:
-        if f.scope != "star":
+        if f.scope not in ("star", "system"):
             continue
         seen = None
         for rownum, cells in group.rows:
@@ -136,11 +137,14 @@ def system_mapping(group, cmap, cat_units=None):
             if seen is None:
                 seen = (q, rownum)
             elif q != seen[0]:
+                what = "the star" if f.scope == "star" else f"the system's {f.name}"
                 problems.append(_problem("", rownum, f.label, f.value,
-                                         f"rows disagree on the star: {_fmt(seen[0])} (row {seen[1]}) vs "
+                                         f"rows disagree on {what}: {_fmt(seen[0])} (row {seen[1]}) vs "
                                          f"{_fmt(q)} (row {rownum}); are these planets of different stars?"))
                 break
-        if seen is not None:
+        if seen is not None and f.scope == "system":
+            top[f.name] = seen[0]
+        elif seen is not None:
             star[f.name] = seen[0]
             star_src[f.name] = seen[1]
     planets, rows_of, seen_names = [], {}, {}
@@ -177,7 +181,7 @@ def system_mapping(group, cmap, cat_units=None):
                 continue
             pl[key] = q
         planets.append(pl)
-    data = {"name": group.system, "star": star, "planet": planets}
+    data = {"name": group.system, "star": star, "planet": planets, **top}
     rows_of[""] = first_row
     return data, problems, rows_of
 

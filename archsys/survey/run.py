@@ -118,6 +118,13 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
     base = replace(opts, quiet=True, jobs=1)          # what every system is analysed with
     groups, orphans = group_systems(cat, cmap.system)
     selected = [g for g in groups if select(g, nodes)]
+    if nodes:                    # a bare comparison that drops systems any() would keep: one line each
+        import warnings
+        from ..model.checks import InputWarning
+        from .where import any_note, kept_by_any
+        chosen = {id(g) for g in selected}
+        for expr, n in kept_by_any([g for g in groups if id(g) not in chosen], sv.where, nodes):
+            warnings.warn(any_note(expr, n), InputWarning, stacklevel=2)
     if sv.limit is not None:
         selected = selected[:sv.limit]
     ids = {g.system for g in selected}
@@ -194,6 +201,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
         "planets_analysed": sum(r["n_planets"] for r in ok_rows), "pairs_analysed": len(pairs),
         "reject_lines": len(rejects),
         "systems_with_warnings": sum(1 for r in ok_rows if r.get("warnings")),
+        "systems_unusable_posterior": sum(1 for r in ok_rows if r.get("posterior_usability_usable") is False),
     }
     if counts["systems_selected"] != counts["systems_analysed"] + counts["systems_rejected"]:  # pragma: no cover
         raise RuntimeError(f"survey counts do not reconcile: {counts}")
@@ -210,6 +218,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
     pop["predictions"] = prediction_population(ok_rows, pairs)
     ecc_samples, ecc_lp0, psi_samples, psi_lp0, ecc_info = _hier_inputs(store, ids, ok_rows)
     psi_interims = ecc_info.pop("psi_interims")
+    psi_systems = ecc_info.pop("psi_systems")
     ecc_pop = eccentricity_population(ecc_samples, ecc_lp0, seed=int(seed) + 11,
                                       interim_prior=ecc_info["interim"])
     ecc_pop.update({k: v for k, v in ecc_info.items() if k != "interim"})
@@ -218,6 +227,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
         pop["mutual_inclination_population"] = tilt_population(
             psi_samples, psi_lp0, seed=int(seed) + 13,
             interim_prior="; ".join(sorted(set(psi_interims))))
+        pop["mutual_inclination_population"]["n_systems"] = int(psi_systems)     # what sigma rests on
     else:
         pop["mutual_inclination_population"] = {
             "rayleigh": None, "n_planets": 0,
@@ -246,7 +256,7 @@ def _hier_inputs(store, ids, ok_rows):
     ok = {r["system"] for r in ok_rows}
     transiting_multi = {r["system"] for r in ok_rows if r["n_planets"] >= 2 and r["n_transiting"] == r["n_planets"]}
     ecc_s, ecc_l, psi_s, psi_l = [], [], [], []
-    interims, psi_interims, skipped = set(), [], {}
+    interims, psi_interims, skipped, psi_systems = set(), [], {}, set()
     n_exact = n_limit = 0
     cache = {}
     for sid, _planet, basis, interim, e, psi_int, psi in store.samples(ids):
@@ -280,13 +290,14 @@ def _hier_inputs(store, ids, ok_rows):
             psi_s.append(psi)
             psi_l.append(lp)
             psi_interims.append(psi_int)
+            psi_systems.add(sid)
     desc = {"ecc-uniform": "uniform on [0, 1) (direct draws of the catalogue summary truncated to [0, 1))",
             "linear-2e": "p0(e) = 2e (uniform in e cos w, e sin w)"}
     info = {"interim": "; ".join(desc.get(i, i) for i in sorted(interims)) or "none",
             "n_exact_values": int(n_exact), "n_limits": int(n_limit),
             "selection": "planets with a measured eccentricity (value, error or limit); "
                          "'assumed circular' planets and eccentricities of exactly 0 without errors excluded",
-            "psi_interims": psi_interims}
+            "psi_interims": psi_interims, "psi_systems": len(psi_systems)}
     if skipped:
         info["skipped_unknown_interim_prior"] = skipped
     return ecc_s, ecc_l, psi_s, psi_l, info

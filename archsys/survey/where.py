@@ -44,7 +44,7 @@ import re
 from ..errors import InputError
 from ..limits import MAX_EXPRESSION_CHARS, MAX_EXPRESSION_NESTING
 
-__all__ = ["parse_where", "select", "evaluate", "as_bool", "parse_number", "SYSTEM_VARS"]
+__all__ = ["parse_where", "select", "evaluate", "as_bool", "parse_number", "SYSTEM_VARS", "kept_by_any", "any_note"]
 
 
 # --------------------------------------------------------------------------
@@ -334,3 +334,41 @@ def select(group, nodes) -> bool:
     rows = [r for _, r in group.rows]
     sysvars = {"n_planets": group.n_planets, "system": group.system}
     return all(evaluate(n, rows, i, sysvars) for n in nodes for i in range(len(rows)))
+
+
+def _bare(node):
+    """Whether a parsed expression reads the current row outside any any()/all()/count()."""
+    kind = node[0]
+    if kind in ("or", "and"):
+        return _bare(node[1]) or _bare(node[2])
+    if kind == "not":
+        return _bare(node[1])
+    if kind in ("agg", "count"):
+        return False
+    return True                     # a comparison evaluated on the current row
+
+
+def kept_by_any(groups, exprs, nodes):
+    """[(expression, n)]: for each --where expression with a bare comparison, the number of systems it
+    drops although ``any(expression)`` would keep them (it holds on some rows of the system, not all)."""
+    out = []
+    for expr, node in zip(exprs, nodes):
+        if not _bare(node):
+            continue
+        n = 0
+        for g in groups:
+            rows = [r for _, r in g.rows]
+            if not rows:
+                continue
+            sysvars = {"n_planets": g.n_planets, "system": g.system}
+            hits = [evaluate(node, rows, i, sysvars) for i in range(len(rows))]
+            n += any(hits) and not all(hits)
+        if n:
+            out.append((expr, n))
+    return out
+
+
+def any_note(expr, n):
+    """The one-line note of :func:`kept_by_any`."""
+    return (f"--where {expr!r} must hold on every row of a system (README, 'Selecting systems'); it drops "
+            f"{n} system{'s' if n != 1 else ''} where it holds on some rows only: write 'any({expr})' to keep them")

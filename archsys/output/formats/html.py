@@ -138,13 +138,17 @@ def render_html(doc, figures=()) -> str:
                                   f"input {prov['input_file']}" if prov.get("input_file") else "") if x)
     L = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
          '<meta name="viewport" content="width=device-width, initial-scale=1">',
-         f"<title>{escape(name)} — system architecture</title>", f"<style>{_CSS}</style>", "</head>",
-         "<body><main>", "<header>", f"<h1>{escape(name)}</h1>",
+         f"<title>{'UNUSABLE POSTERIOR — ' if not t.usable else ''}{escape(name)} — system architecture</title>", f"<style>{_CSS}</style>", "</head>",
+         "<body><main>"]
+    if t.status:
+        L.append(f'<p class="warn" id="posterior-status">{escape(t.status)}</p>')
+    L += ["<header>", f"<h1>{escape(name)}</h1>",
          f'<p class="meta">System architecture · {escape(meta)}</p>', "</header>",
          '<p class="lede">Values are medians with the central 68.3 % interval of the posterior draws, '
          "rounded to two significant figures of the larger error; probabilities are fractions of the draws.</p>"]
-    if (doc.get("sampler") or {}).get("converged") is False:
-        L.append('<p class="warn">The chain did not reach the convergence criterion; treat intervals as rough.</p>')
+    if (doc.get("dynamics") or {}).get("verdict"):
+        head, _, rest = doc["dynamics"]["verdict"].partition(" — ")
+        L.append(f'<p class="headline"><strong>{escape(head)}</strong> — {escape(rest)}</p>')
     L += ['<section id="verdicts"><h2>Verdicts</h2><ul class="verdicts">']
     L += [f"<li>{escape(v)}</li>" for v in t.verdicts] + ["</ul></section>"]
     L += ['<section id="priors"><h2>Priors</h2><ul class="notes">']

@@ -96,10 +96,11 @@ def render_latex(doc) -> str:
     prov = doc.get("provenance") or {}
     how = escape(intro_line(doc))
     sysname = escape(name)
-    L = [f"% archsys {prov.get('package_version', '?')}: derived parameters of {name}",
+    L = [_comment(t.status)] if t.status else []
+    L += [f"% archsys {prov.get('package_version', '?')}: derived parameters of {name}",
          f"% input {prov.get('input_file', '?')} (sha256 {prov.get('input_sha256', '?')}), seed {prov.get('seed', '?')}",
          "% Plain \\hline rules: compiles with any class, no extra packages needed.", ""]
-    basis = "Medians and central 68.3\\,\\% intervals"
+    basis = "Medians and central 68.3\\,\\% intervals" if t.usable else escape(t.status) + " Summary"
     L += _tabular(t.planets, f"Planets of {sysname}. {basis} of {how}.", f"tab:{key}-planets",
                   t.notes + t.priors)
     if t.pairs is not None:
@@ -154,12 +155,14 @@ def render_aastex(doc) -> str:
     key = safe_name(name).lower()
     prov = doc.get("provenance") or {}
     sysname = escape(name)
-    L = [_comment(f"archsys {prov.get('package_version', '?')}: derived parameters of {name} (AASTeX deluxetable)"),
+    L = [_comment(t.status)] if t.status else []
+    L += [_comment(f"archsys {prov.get('package_version', '?')}: derived parameters of {name} (AASTeX deluxetable)"),
          _comment(f"input {prov.get('input_file', '?')} (sha256 {prov.get('input_sha256', '?')}), "
                   f"seed {prov.get('seed', '?')}"), ""]
     notes = [escape(n) for n in t.notes + t.priors]
-    L += _deluxetable(t.planets.columns, t.planets.rows, f"Planets of {sysname}. Medians and central "
-                      f"68.3\\,\\% intervals of {escape(intro_line(doc))}.", f"tab:{key}-planets", notes,
+    basis = "Medians and central 68.3\\,\\% intervals" if t.usable else escape(t.status) + " Summary"
+    L += _deluxetable(t.planets.columns, t.planets.rows, f"Planets of {sysname}. {basis} "
+                      f"of {escape(intro_line(doc))}.", f"tab:{key}-planets", notes,
                       t.planets.marks)
     if t.pairs is not None:
         L += [""] + _deluxetable(t.pairs.columns, t.pairs.rows, f"Adjacent pairs of {sysname}.",

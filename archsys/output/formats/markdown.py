@@ -52,16 +52,17 @@ def render_markdown(doc, figures=None) -> str:
     t = document_tables(doc)
     name = doc.get("system", "system")
     prov = doc.get("provenance") or {}
-    L = [f"# {_esc(name)} — system architecture", ""]
+    L = [f"> **{_esc(t.status)}**", ""] if t.status else []
+    L += [f"# {_esc(name)} — system architecture", ""]
     meta = [f"archsys {prov.get('package_version', '?')}", intro_line(doc)]
     if prov.get("input_file"):
         meta.append(f"input `{prov['input_file']}`")
     L += ["*" + " · ".join(m for m in meta if m) + "*", "",
           "Values are medians with the central 68.3 % interval of the posterior draws, rounded to "
           "two significant figures of the larger error.", ""]
-    smp = doc.get("sampler") or {}
-    if smp.get("converged") is False:
-        L += ["> **Warning.** The chain did not reach the convergence criterion; treat intervals as rough.", ""]
+    if (doc.get("dynamics") or {}).get("verdict"):
+        L += [f"**{_esc(doc['dynamics']['verdict'].split(' — ')[0])}** — "
+              f"{_esc(doc['dynamics']['verdict'].split(' — ', 1)[-1])}", ""]
     if t.star:
         L += ["## Star", ""] + _kv(t.star) + [""]
     L += ["## Planets", ""] + _table(t.planets) + [""]

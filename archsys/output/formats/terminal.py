@@ -76,14 +76,16 @@ def render_text(doc, colour=False) -> str:
     t = document_tables(doc)
     sysname = doc.get("system", "system")
     prov = doc.get("provenance") or {}
-    L = [st.head(f"{sysname} — system architecture") + st.dim(f"   (archsys {prov.get('package_version', '?')})"),
-         ""]
+    L = [(st.bad if not t.usable else st.warn)(t.status)] if t.status else []
+    L += [st.head(f"{sysname} — system architecture") + st.dim(f"   (archsys {prov.get('package_version', '?')})"),
+          ""]
     if t.star:
         L.append(st.head("Star    ") + "   ".join(f"{c.label} = {plain_cell(cell)}" + (f" {c.unit}" if c.unit else "")
                                                   for c, cell in t.star))
     L.append(st.head("Draws   ") + intro_line(doc))
-    if (doc.get("sampler") or {}).get("converged") is False:
-        L.append(st.warn("        warning: the chain did not reach the convergence criterion; treat intervals as rough"))
+    if (doc.get("dynamics") or {}).get("verdict"):
+        L.append(st.head("Verdict ") + _tone(doc["dynamics"]["verdict"].split(" — ")[0], st)
+                 + " — " + doc["dynamics"]["verdict"].split(" — ", 1)[-1])
     L += ["", st.head("Planets") + st.dim("   median and 68 % interval")]
     L += _grid(t.planets, st)
     L += [st.dim("  " + n) for n in t.notes]
