@@ -47,7 +47,9 @@ from .catalog import group_systems, read_catalog
 from .where import parse_where, select
 from .column_map import bind, canonical_map, load_column_map, where_names
 from .lock import SurveyLock
-from .store import STORE_NAME, SurveyStore, header_of, write_csv
+from .identity import merge_notes
+from .store import STORE_FORMAT, STORE_NAME, SurveyStore, header_of, write_csv
+from .store_check import check_and_repair, reconcile
 from .popfits import FitRunner, subsample_objects, transit_block, with_per_system_fit
 from .workers import SAMPLES_PER_PLANET, dask_client, process_system, progress_bar, run_tasks
 
@@ -80,7 +82,7 @@ def system_seed(seed: int, system_id: str) -> int:
 def _manifest(cat, cmap, opts):
     o = opts.as_dict()
     o.pop("seed", None)
-    return {"store_format": 1, "archsys_version": __version__, "catalog_sha256": cat.sha256,
+    return {"store_format": STORE_FORMAT, "archsys_version": __version__, "catalog_sha256": cat.sha256,
             "columns": cmap.source if cmap.source == "canonical columns" else "file",
             "columns_sha256": cmap.sha256, "seed": int(opts.seed), "options": o}
 
@@ -109,6 +111,8 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
         become rejects.
     """
     opts, sv = split_keywords(options, survey, **keywords)
+    from ..limits import check_output_path
+    check_output_path(out, "--out")                   # not empty, no over-long names (issue 22)
     out = pathlib.Path(out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: exists and is not a directory")
@@ -147,6 +151,8 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
             store = SurveyStore(out)
             try:
                 store.check_manifest(_manifest(cat, cmap, base), sv.resume)
+                notes = check_and_repair(store, store.missing_tables) if sv.resume else []
+                notes += merge_notes({g.system: set(g.spellings) for g in groups if g.spellings})
                 done = store.done()
                 todo = [g for g in selected if g.system not in done]
                 fast = not base.uses_mcmc           # direct draws only: short, even tasks
@@ -189,6 +195,7 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
                                   unit="step") as fbar:
                     pop = _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv, transit,
                                   fits=fits, tm=tm, step=lambda what: (fbar.set_postfix_str(what, refresh=False), fbar.update(1)))
+                pop["_notes"] = notes + pop.get("_notes", [])
                 if not opts.quiet:
                     own, kids = peak_memory_mib()
                     if own is not None:
@@ -226,6 +233,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
     ok_rows = [row for _, st, _, _, row in status if st == "ok"]
     pairs = store.rows("pairs", ids)
     planets = store.rows("planets", ids)
+    reconcile(status, planets, pairs)          # never a partial table with exit status 0
     rejects = [{"system": "", "planet": "", "row": r, "field": "system", "column": cmap.system,
                 "reason": f"row has no system id in column '{cmap.system}'"} for r in orphans]
     attached = {r for g in groups for r, _ in g.broken}      # reported with their system
@@ -321,7 +329,7 @@ def _hier_inputs(store, ids, ok_rows):
     for sid, _planet, basis, interim, e, psi_int, psi in store.samples(ids):
         if sid not in ok:
             continue
-        if basis is not None and e is not None:
+        if basis is not None and e is not None and np.all(np.isfinite(e)):
             lp = None
             if interim == "ecc-uniform":
                 lp = np.zeros_like(e)

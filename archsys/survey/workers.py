@@ -262,12 +262,9 @@ def dask_client(address):
     except ImportError:
         raise InputError("--scheduler needs Dask distributed, the optional extra 'dask' "
                          "(pip install 'archsys[dask]')") from None
-    import dask
-    try:
-        return Client(address, timeout=dask.config.get("distributed.comm.timeouts.connect", "30s"))
-    except (OSError, TimeoutError, ValueError) as exc:
-        raise InputError(f"--scheduler {address}: cannot connect to the Dask scheduler "
-                         f"({' '.join(str(exc).split())})") from None
+    del Client
+    from .remote import connect                 # deadlines on set-up and on every wait (issue 22)
+    return connect(address)
 
 
 #: Systems per Dask task: enough to amortise the scheduler's per-task cost (about a millisecond) over
@@ -281,16 +278,19 @@ def _dask_batches(tasks, n_workers, batch=None):
 
 
 def _run_dask(tasks, sink, client, batch=None):
-    from distributed import as_completed
+    from .remote import results
     try:
         n_workers = len(client.scheduler_info().get("workers", {})) or 1
         futures = client.map(process_batch, _dask_batches(tasks, n_workers, batch), pure=False)
-        for fut in as_completed(futures):
-            for r in fut.result():
+        for fut, res in results(client, futures):
+            for r in res:
                 sink(r)
             fut.release()
     finally:
-        client.close()
+        try:
+            client.close(timeout=5)             # a scheduler that is gone must not hold the exit
+        except Exception:                       # noqa: BLE001 - the run's own error is the one to report
+            pass
 
 
 def run_tasks(tasks, sink, jobs, client=None, batch=None):
