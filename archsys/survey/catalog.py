@@ -128,12 +128,12 @@ def _read_csv(path: pathlib.Path, blob: bytes, progress=None):
     old_limit = csv.field_size_limit()
     csv.field_size_limit(max(old_limit, len(text) + 1))   # an over-long cell rejects its row (identity.py)
     try:
-        return _read_csv_rows(path, reader, delim)
+        return _read_csv_rows(path, reader, delim, progress)
     finally:
         csv.field_size_limit(old_limit)
 
 
-def _read_csv_rows(path, reader, delim):
+def _read_csv_rows(path, reader, delim, progress=None):
     try:
         header = next(reader)
     except StopIteration:
