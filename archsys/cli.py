@@ -4,13 +4,23 @@
 Exit status: 0 success, 2 bad input, a bad argument or an output that cannot be
 written (one clear line per problem on stderr, no traceback unless --debug),
 3 ``report --strict`` with an unusable posterior (README, "Usable posteriors"; the
-reports are still written), 1 internal error, 130 interrupted.
+reports are still written), 1 internal error, 130 interrupted, 143 terminated (SIGTERM).
+
+:func:`main` is the one boundary where every failure of the outside world
+becomes one line and exit status 2: ``OSError`` (a full disk, a read-only or
+vanished folder, a name too long), ``sqlite3.Error`` (the survey store) and the
+errors of a Dask cluster (a scheduler that went away or never answered).
+SIGTERM is turned into an interruption, so staging folders are removed and a
+survey's store is kept for ``--resume`` just as with Ctrl-C.
 """
 from __future__ import annotations
 
 import argparse
+import io
 import json
+import errno
 import os
+import signal
 import sys
 import warnings
 
@@ -104,11 +114,22 @@ def _note(msg):
     sys.stderr.write(f"archsys: {printable(msg)}\n")
 
 
+def _check_out_args(args, *names):
+    """Refuse output-folder arguments that can never be written (empty, NUL, over-long names)."""
+    from .limits import check_output_path
+    for n in names:
+        check_output_path(getattr(args, n, None), f"--{n}")
+
+
 def _cmd_report(args):
     from . import read_system
     from .pipeline import analyze
     files = args.files or _demo_files()
+    _check_out_args(args, "out", "figures")
     opts = options_from_args(args)                # refuse bad arguments before reading anything
+    from .survey.lock import refuse_survey_folder
+    for d in (args.out, args.figures):
+        refuse_survey_folder(d, "report")
     if args.out or args.figures:
         from .output.style import get_preset
         get_preset(args.preset)
@@ -160,7 +181,8 @@ def _write_report_files(results, args):
     from .output.formats import write_outputs
     names = [r.document.get("system", "system") for r in results]
     stems, renamed = unique_stems(names)
-    with StagedOutput(args.out, args.figures) as st:
+    from .survey.lock import ReportLock
+    with ReportLock(args.out, args.figures), StagedOutput(args.out, args.figures) as st:
         for r, stem in zip(results, stems):
             write_outputs(r, out_dir=args.out, fig_dir=args.figures, preset=args.preset, stem=stem,
                           corner_params=args.corner_params)
@@ -180,6 +202,8 @@ def _write_report_files(results, args):
 
 def _write_stdout(text):
     """Write the report to standard output; a write error is an InputError-style exit (2)."""
+    if sys.stdout is None:
+        raise InputError("standard output is closed; nothing was printed (redirect it to a file)")
     try:
         sys.stdout.write(text)
         sys.stdout.flush()
@@ -196,7 +220,7 @@ def _silence_stdout():
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())
         os.close(devnull)
-    except (OSError, ValueError, AttributeError):
+    except (OSError, ValueError, AttributeError, io.UnsupportedOperation):
         pass
 
 
@@ -214,11 +238,16 @@ def _cmd_priors(args):
 def _cmd_survey(args):
     from .options import SurveyOptions
     from .survey.run import run_survey
+    _check_out_args(args, "out")
     opts = options_from_args(args)
     sopts = SurveyOptions(columns=args.columns, where=tuple(args.where or ()), resume=args.resume,
                           scheduler=args.scheduler, limit=args.limit, figures=not args.no_figures,
                           preset=args.preset)
     _warn_unused(opts)
+    if args.scheduler and not getattr(args, "debug", False):
+        import logging                      # Dask logs tracebacks of a lost scheduler: the one line is ours
+        logging.disable(logging.CRITICAL)   # (back on when main() returns to a Python caller, see main)
+        _STATE["logging_off"] = True
     from .survey.multiplicity_block import MultiplicitySettings, summary_lines
     transit = MultiplicitySettings.from_cli(args.transit_planets, args.transit_period, args.transit_radius,
                                             args.transit_second)
@@ -289,6 +318,18 @@ def _cmd_cite(args):
         docs += d if isinstance(d, list) else [d]
     out = [render_bib(d) if args.bib else render_citations(d) for d in docs]
     _write_stdout("\n".join(out))
+
+
+def _cmd_simulate(args):
+    from .survey.synthetic import PopulationLaws, write_population
+    laws = PopulationLaws(planets=args.planets, mean_planets=args.mean_planets, max_planets=args.max_planets,
+                          ecc_sigma=args.ecc_sigma, incl_sigma_deg=args.incl_sigma_deg,
+                          ecc_measured=args.ecc_measured, mass_measured=args.mass_measured,
+                          only_transiting=args.only_transiting)
+    res = write_population(args.out, args.systems, laws, seed=args.seed, truth=args.truth)
+    if not args.quiet:
+        _note(f"simulate: wrote {res['rows']} planets of {res['systems']} invented systems "
+              f"({res['planets_transiting']} transiting) to {res['path']}")
     return 0
 
 
@@ -297,6 +338,7 @@ def _cmd_plot(args):
     from .output.figures import plot_saved
     from .output.files import StagedOutput
     from .output.style import get_preset
+    _check_out_args(args, "figures")
     get_preset(args.preset)
     check_regular_file(args.result, "chains file (.npz)", max_bytes=4 << 30)
     with StagedOutput(args.figures) as st:
@@ -306,15 +348,20 @@ def _cmd_plot(args):
 
 
 def _cmd_stack(args):
+    from .output.files import StagedOutput
     from .output.figures.stack import collect_documents, sort_documents, write_stacked_figure
+    _check_out_args(args, "figures")
+    if args.limit is not None and args.limit < 1:
+        raise InputError(f"--limit: must be at least 1; got {args.limit}", field="limit")
     has_files = any(str(f).lower().endswith(".toml") for f in args.inputs)
     docs = collect_documents(args.inputs, options=options_from_args(args) if has_files else None, where=args.where)
     key = args.sort_by
     if key and args.descending and not key.startswith("-"):
         key = "-" + key
     docs = sort_documents(docs, key)
-    for path in write_stacked_figure(docs, args.figures, stem=args.name, preset=args.preset, limit=args.limit):
-        sys.stdout.write(f"{path}\n")
+    with StagedOutput(args.figures):               # every page or none
+        paths = write_stacked_figure(docs, args.figures, stem=args.name, preset=args.preset, limit=args.limit)
+    _write_stdout("".join(f"{path}\n" for path in paths))
     return 0
 
 
@@ -385,6 +432,29 @@ def build_parser():
     _add_analysis_options(c)
     c.set_defaults(func=_cmd_cite)
 
+    m = sub.add_parser("simulate", help="write a catalogue of invented systems drawn from population laws")
+    m.add_argument("out", metavar="OUT", help="catalogue to write (.csv or .parquet; canonical survey columns)")
+    m.add_argument("--systems", type=int, required=True, metavar="N", help="number of systems")
+    m.add_argument("--seed", type=int, default=0)
+    m.add_argument("--planets", type=int, default=None, metavar="K",
+                   help="exactly K planets per system (default: truncated Poisson, see --mean-planets)")
+    m.add_argument("--mean-planets", type=float, default=2.5, metavar="X",
+                   help="Poisson mean of the number of planets (before truncation to 1..--max-planets)")
+    m.add_argument("--max-planets", type=int, default=8, metavar="K")
+    m.add_argument("--ecc-sigma", type=float, default=0.04, metavar="S",
+                   help="Rayleigh sigma of eccentricities (default 0.04)")
+    m.add_argument("--incl-sigma-deg", type=float, default=2.0, metavar="DEG",
+                   help="Rayleigh sigma of planet tilts about each system's plane (default 2 deg)")
+    m.add_argument("--ecc-measured", type=float, default=0.2, metavar="F",
+                   help="fraction of planets whose eccentricity is listed (default 0.2)")
+    m.add_argument("--mass-measured", type=float, default=0.5, metavar="F",
+                   help="fraction of planets whose mass is listed (default 0.5)")
+    m.add_argument("--only-transiting", action="store_true",
+                   help="list only the planets that transit an observer on the z axis")
+    m.add_argument("--truth", action="store_true", help="add the true values as true_* columns")
+    m.add_argument("--quiet", action="store_true")
+    m.set_defaults(func=_cmd_simulate)
+
     q = sub.add_parser("plot", help="redraw figures from a saved result (no resampling)")
     q.add_argument("result", help="chains file (.npz) written by `archsys report --out`")
     q.add_argument("--figures", required=True, metavar="DIR")
@@ -416,19 +486,107 @@ def build_parser():
 
 def _one_line_warnings(message, category, filename, lineno, file=None, line=None):
     from .output.files import printable
-    sys.stderr.write(f"archsys: warning: {printable(' '.join(str(message).split()))}\n")
+    from .limits import clip
+    sys.stderr.write(f"archsys: warning: {printable(clip(' '.join(str(message).split()), 300))}\n")
+
+
+_STATE = {"logging_off": False}
+
+
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, raised in the main thread so that every cleanup of an interruption runs."""
+
+
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
+class _WriteRecorder:
+    """Standard output for argparse: it swallows write errors of --help/--version, this remembers them."""
+
+    def __init__(self, real):
+        self.real = real
+        self.error = None
+
+    def write(self, text):
+        try:
+            n = self.real.write(text)
+            self.real.flush()
+            return n
+        except OSError as exc:
+            self.error = exc
+            raise
+
+    def __getattr__(self, name):
+        return getattr(self.real, name)
+
+
+def _parse(parser, argv):
+    """Parsed arguments; ``--help``/``--version`` output that cannot be written is one line, exit 2."""
+    real = sys.stdout
+    rec = _WriteRecorder(real) if real is not None else None
+    if rec is not None:
+        sys.stdout = rec
+    try:
+        return parser.parse_args(argv)
+    except SystemExit as exc:
+        if exc.code in (0, None):
+            try:
+                if real is None:
+                    raise OSError(errno.EBADF, "standard output is closed")
+                if rec.error is not None:
+                    raise rec.error
+                real.flush()
+            except OSError as err:
+                _silence_stdout()
+                sys.stderr.write(f"archsys: error: cannot write to standard output: {err.strerror or err}\n")
+                raise SystemExit(2) from None
+        raise
+    finally:
+        if sys.stdout is rec and rec is not None:
+            sys.stdout = real
+
+
+def _outside_error(exc):
+    """One line for a failure of the outside world (file system, store, cluster), or None."""
+    import sqlite3
+    if isinstance(exc, sqlite3.Error):
+        what = " ".join(str(exc).split()) or type(exc).__name__
+        hint = ("; free some space, then rerun with --resume (the stored systems are kept)"
+                if "full" in what else "; the stored systems are kept for --resume where the store is whole")
+        return f"survey store: {what}{hint}"
+    mod = type(exc).__module__ or ""
+    if mod.startswith(("distributed", "tornado")) or type(exc).__name__ in ("CancelledError", "FutureCancelledError"):
+        what = " ".join(str(exc).split())[:160] or type(exc).__name__
+        return (f"the Dask cluster failed ({type(exc).__name__}: {what}); the systems stored so far are kept: "
+                f"rerun with --resume")
+    if isinstance(exc, OSError):
+        name = exc.filename
+        what = exc.strerror or " ".join(str(exc).split()) or type(exc).__name__
+        if isinstance(exc, TimeoutError) and not exc.strerror:
+            what = f"timed out ({what})"
+        return f"{what}: {name}" if name else what
+    return None
 
 
 def main(argv=None):
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = _parse(parser, argv)
     debug = getattr(args, "debug", False)
+    old_term = None
+    try:
+        old_term = signal.signal(signal.SIGTERM, _on_sigterm)
+    except (ValueError, OSError, AttributeError):      # not the main thread, or no SIGTERM
+        pass
     try:
         with warnings.catch_warnings():
             if not debug:
                 warnings.simplefilter("ignore", RuntimeWarning)
                 warnings.showwarning = _one_line_warnings
             return args.func(args)
+    except Terminated:
+        sys.stderr.write("archsys: terminated\n")
+        return 143
     except InputError as exc:
         if debug:
             raise
@@ -448,6 +606,28 @@ def main(argv=None):
             raise
         sys.stderr.write("archsys: error: out of memory; use fewer --draws or fewer systems at once\n")
         return 2
+    except RecursionError:
+        if debug:
+            raise
+        sys.stderr.write("archsys: error: an input is nested too deeply to process\n")
+        return 2
+    except Exception as exc:
+        line = None if debug else _outside_error(exc)
+        if line is None:
+            raise
+        from .output.files import printable
+        sys.stderr.write(f"archsys: error: {printable(line)}\n")
+        return 2
+    finally:
+        if argv is not None and _STATE["logging_off"]:     # called from Python: give logging back
+            import logging
+            logging.disable(logging.NOTSET)
+            _STATE["logging_off"] = False
+        if old_term is not None:
+            try:
+                signal.signal(signal.SIGTERM, old_term)
+            except (ValueError, OSError):
+                pass
 
 
 if __name__ == "__main__":  # pragma: no cover

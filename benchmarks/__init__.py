@@ -28,6 +28,10 @@ multiplicity_systems_per_s, multiplicity_systems_per_s_2_cores, multiplicity_vs_
 stability_analytic_vs_nbody_cost
     cost of one N-body MEGNO integration per draw over the cost of the analytic verdicts per draw
     (needs rebound).
+fast_synthetic_*, oec_fast_*, full_transit_multis_*, full_rv_*, dask_*
+    surveys at scale, each in a fresh process through the command line, side by side with v0.1.0 (and
+    the main branch before issue 23) exported from git: ``benchmarks/survey_scale.py`` (quick sizes
+    here; ``python -m benchmarks.survey_scale`` for the full run).
 
 The open catalogue is the extract in ``tests/data/oec/`` (Rein 2012; licence and provenance there).
 """

@@ -15,13 +15,14 @@ from .kernels import bench_kepler, bench_scores, bench_stability  # noqa: E402
 from .multiplicity import bench_multiplicity  # noqa: E402
 from .posterior import bench_posterior  # noqa: E402
 from .survey import bench_survey, bench_survey_full  # noqa: E402
+from .survey_scale import bench_survey_scale  # noqa: E402
 
 __all__ = ["BENCHES", "run", "main"]
 
 BENCHES = {"kepler": bench_kepler, "scores": bench_scores, "posterior": bench_posterior,
            "survey": bench_survey, "survey_full": bench_survey_full, "stability": bench_stability,
-           "multiplicity": bench_multiplicity}
-SLOW = ("posterior", "survey", "survey_full")
+           "multiplicity": bench_multiplicity, "survey_scale": bench_survey_scale}
+SLOW = ("posterior", "survey", "survey_full", "survey_scale")
 
 
 def run(skip=(), quick=False, log=None):

@@ -42,11 +42,6 @@ from archsys.errors import InputError
 
 from .priors import DEFAULT_PRIORS, Prior
 
-try:  # Python >= 3.11
-    import tomllib
-except ModuleNotFoundError:  # pragma: no cover - Python 3.10
-    import tomli as tomllib
-
 __all__ = ["load_prior", "list_priors", "default_prior"]
 
 _TOP_KEYS = {"name", "quantity", "family", "description", "parameters",
@@ -120,13 +115,16 @@ def _check_applies(app, src):
 def _parse_file(path, bundled=False):
     path = pathlib.Path(path)
     src = str(path)
+    from archsys.limits import parse_toml
+    from archsys.model.inputfile import read_input_bytes
+    if not path.exists():
+        raise InputError("prior file not found", source=src)
+    blob = read_input_bytes(path, "prior file (.toml)")
     try:
-        with open(path, "rb") as fh:
-            doc = tomllib.load(fh)
-    except FileNotFoundError:
-        raise InputError("prior file not found", source=src) from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML: {exc}", source=src) from None
+        text = blob.decode("utf-8")
+    except UnicodeDecodeError:
+        raise InputError("not valid TOML: not UTF-8 text", source=src) from None
+    doc = parse_toml(text, src, "prior file")
     _check_unknown(doc, _TOP_KEYS, src)
     name = _require(doc, "name", str, src)
     if bundled and name != path.stem:

@@ -5,10 +5,43 @@ import math
 
 import numpy as np
 
-__all__ = ["summarize", "summarize_angle", "angle_branch", "wrap_angle", "ANGLE_BRANCHES", "QUANTILES", "probability"]
+__all__ = ["summarize", "summarize_angle", "angle_branch", "wrap_angle", "ANGLE_BRANCHES", "quantiles", "QUANTILES",
+           "probability"]
 
 #: Central 68.27 % interval, i.e. +/- 1 sigma for a Gaussian.
 QUANTILES = (0.158655, 0.5, 0.841345)
+
+
+_Q = np.asarray(QUANTILES, dtype=float)
+
+
+def quantiles(x, q=_Q):
+    """``np.quantile(x, q)`` (default "linear" method) of finite 1-D float draws, the same bytes, faster.
+
+    The same steps as numpy's implementation (virtual index ``(n - 1) q``, one
+    partition at the same k-th positions, numpy's two-sided linear
+    interpolation), without its generic axis/method dispatch, which dominates
+    the cost on the ~1000 draws of a survey system.  ``x`` is partitioned in
+    place (pass a copy you own).  ``tests/test_summary_quantiles.py`` checks the
+    bytes against ``np.quantile``.
+    """
+    n = x.shape[0]
+    vi = (n - 1) * q
+    prev = np.floor(vi)
+    nxt = prev + 1
+    above = vi >= n - 1
+    if above.any():
+        prev[above] = -1
+        nxt[above] = -1
+    prev = prev.astype(np.intp)
+    nxt = nxt.astype(np.intp)
+    x.partition(np.unique(np.concatenate(([0, -1], prev, nxt))))
+    a, b = x[prev], x[nxt]
+    t = vi - prev
+    d = b - a
+    out = a + d * t
+    np.subtract(b, d * (1 - t), out=out, where=t >= 0.5)
+    return out
 
 
 def _clean(x):
@@ -26,7 +59,10 @@ def summarize(x, scale=1.0, digits=None):
     ok = np.isfinite(x)
     if not ok.any():
         return None
-    lo, med, hi = np.quantile(x[ok] * scale, QUANTILES)
+    y = x.copy() if ok.all() else x[ok]                 # our own copy: quantiles() partitions it
+    if scale != 1.0:                                    # x * 1.0 is x, bit for bit
+        y = np.asarray(y * scale, dtype=float)
+    lo, med, hi = quantiles(y)
     out = {"median": _clean(med), "lo": _clean(lo), "hi": _clean(hi)}
     if digits is not None:
         out = {k: round(v, digits) for k, v in out.items()}

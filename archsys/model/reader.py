@@ -13,7 +13,7 @@ import math
 import astropy.units as u
 import numpy as np
 
-from ..compat import tomllib
+from ..limits import MAX_NAME_CHARS, clip
 from ..errors import InputError
 from .inputfile import read_input_bytes
 from .quantity import Measurement
@@ -109,7 +109,7 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
             _convert(1.0, unit_str, fld)
         except (ValueError, u.UnitsError, TypeError, ArithmeticError):
             want = fld.unit or "a dimensionless unit"
-            problems.add(loc, f"unit '{unit_str}' does not convert to {want}")
+            problems.add(loc, f"unit '{clip(unit_str)}' does not convert to {want}")
             return None
     for k, v in spec.items():
         if not _is_number(v):
@@ -176,7 +176,7 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
         if kind != "exact" and minus == 0 and plus == 0:
             kind = "exact"
         if not all(math.isfinite(x) for x in (value, minus, plus)):
-            problems.add(loc, f"value or error overflows when converted from '{unit_str}' to {fld.unit}")
+            problems.add(loc, f"value or error overflows when converted from '{clip(unit_str)}' to {fld.unit}")
             return None
         if not _in_support(value, fld, problems, loc, "value"):
             return None
@@ -189,7 +189,7 @@ def parse_quantity(raw, fld: Field, where: str, problems: _Problems):
     kind = lims[0]
     limit = conv(spec[kind])
     if not math.isfinite(limit):
-        problems.add(loc, f"limit overflows when converted from '{unit_str}' to {fld.unit}")
+        problems.add(loc, f"limit overflows when converted from '{clip(unit_str)}' to {fld.unit}")
         return None
     if not _in_support(limit, fld, problems, loc, kind):
         return None
@@ -243,6 +243,8 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
     elif _has_control(name):
         P.add("field 'name'", "contains control characters (NUL, escape sequences, line breaks); "
                               "names must be printable text")
+    elif len(name) > MAX_NAME_CHARS:
+        P.add("field 'name'", f"has {len(name)} characters; a name may have at most {MAX_NAME_CHARS}")
     rp = data.get("reference_plane")
     if rp is not None and rp not in REFERENCE_PLANES:
         P.add("field 'reference_plane'", f"must be one of {', '.join(repr(x) for x in REFERENCE_PLANES)} "
@@ -324,6 +326,10 @@ def build_system(data: dict, source: str = "<memory>", sha256: str = "") -> Syst
         elif _has_control(pname):
             P.add(f"planet #{idx}", "field 'name' contains control characters (NUL, escape sequences, "
                                     "line breaks); names must be printable text")
+            pname = f"#{idx}"
+        elif len(pname) > MAX_NAME_CHARS:
+            P.add(f"planet #{idx}", f"field 'name' has {len(pname)} characters; a name may have at most "
+                                    f"{MAX_NAME_CHARS}")
             pname = f"#{idx}"
         elif pname in seen:
             P.add(f"planet '{pname}'", f"duplicate planet name (also planet #{seen[pname]})")
@@ -408,8 +414,6 @@ def read_system(path) -> System:
         raise InputError(f"{src}: not UTF-8 text (byte {exc.start}); save the file as UTF-8") from None
     if "\x00" in text:
         raise InputError(f"{src}: contains NUL bytes; not a text system file")
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{src}: not valid TOML: {exc}") from None
+    from ..limits import parse_toml
+    data = parse_toml(text, src, "system file")
     return build_system(data, source=src, sha256=hashlib.sha256(blob).hexdigest())

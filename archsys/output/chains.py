@@ -11,7 +11,10 @@ Layout of the file (format ``archsys-chains``, version 1):
     the full report document.
 
 Reading uses ``np.load(..., allow_pickle=False)``, so a file cannot run code;
-anything malformed is rejected with a one-line :class:`InputError`.
+anything malformed is rejected with a one-line :class:`InputError`: the
+metadata JSON within the depth limit of :mod:`archsys.limits` (and at most
+256 MiB), names and the document as :mod:`archsys.output.doc_check` wants
+them, draws finite where known and within their physical ranges.
 """
 from __future__ import annotations
 
@@ -32,6 +35,7 @@ __all__ = ["save_posterior", "load_posterior", "posterior_bytes", "FORMAT", "FOR
 FORMAT = "archsys-chains"
 FORMAT_VERSION = 1
 _PREFIX = "draws."
+_MAX_META_BYTES = 256 << 20
 
 
 def _jsonable(obj):
@@ -123,10 +127,15 @@ def load_posterior(path):
         raise _bad(path, "no 'meta' entry")
     if raw.dtype != np.uint8 or raw.ndim != 1:
         raise _bad(path, "'meta' is not a UTF-8 byte array")
+    if raw.size > _MAX_META_BYTES:
+        raise _bad(path, f"'meta' has {raw.size} bytes; at most {_MAX_META_BYTES}")
+    from ..limits import parse_json
     try:
-        meta = json.loads(raw.tobytes().decode("utf-8"))
-    except (UnicodeDecodeError, json.JSONDecodeError):
+        meta = parse_json(raw.tobytes().decode("utf-8"), f"{path}: 'meta'", "chains metadata", allow_nan=True)
+    except UnicodeDecodeError:
         raise _bad(path, "'meta' is not valid JSON") from None
+    except InputError as exc:
+        raise _bad(path, str(exc).split(": ", 2)[-1]) from None
     if not isinstance(meta, dict) or meta.get("format") != FORMAT:
         raise _bad(path, f"'meta.format' is not {FORMAT!r}")
     if meta.get("format_version") != FORMAT_VERSION:
@@ -136,6 +145,18 @@ def load_posterior(path):
         raise _bad(path, "'meta.planet_names' must be a list of names")
     if not isinstance(meta.get("document", {}), dict):
         raise _bad(path, "'meta.document' must be an object")
+    from .doc_check import check_document, check_draws, check_name
+    for i, nm in enumerate(names):
+        check_name(nm, str(path), f"'meta.planet_names[{i}]'")
+    if meta.get("system") is not None:
+        check_name(meta["system"], str(path), "'meta.system'")
+    if not names:
+        raise _bad(path, "'meta.planet_names' is empty")
+    if meta.get("document"):
+        check_document(meta["document"], f"{path}: 'meta.document'", strict=False)
+        if len(meta["document"]["planets"]) != len(names):
+            raise _bad(path, f"'meta.document' has {len(meta['document']['planets'])} planets for "
+                             f"{len(names)} planet names")
     draws = {}
     n = None
     for key, arr in content.items():
@@ -155,6 +176,7 @@ def load_posterior(path):
         raise _bad(path, "no 'period' draws")
     if not n:
         raise _bad(path, "no draws")
+    check_draws(draws, str(path))
     meta_n = meta.get("n_draws")
     if isinstance(meta_n, (int, float)) and not (isinstance(meta_n, float) and math.isnan(meta_n)) and meta_n != n:
         raise _bad(path, f"'meta.n_draws' is {meta_n} but the arrays have {n} rows")

@@ -6,7 +6,14 @@
   inside the output folder, and the files are moved into place only when the
   block ends without an error (targets that are folders are found before any
   file moves).  On an error the staging folder is removed, and so is an output
-  folder the run created, when it is empty.
+  folder the run created, when it is empty.  The final moves are a
+  transaction too: a move that fails part-way (a read-only target, a full
+  disk) puts back every file already moved (old files are kept as hard links
+  until the last move succeeds).  A target on another file system (``figures/``
+  a symbolic link to another disk) is copied beside the target and renamed
+  there (EXDEV).  Each staging folder is locked (``flock``) by its run; the next
+  run into the folder removes staging folders whose run is dead (kill -9,
+  power loss).
 * :func:`safe_name` turns a system or planet name into a file-name stem;
   :func:`unique_stems` makes the stems of one run distinct, deterministically.
 * :func:`printable` escapes control characters (NUL, terminal escape
@@ -17,6 +24,7 @@ from __future__ import annotations
 import errno
 import hashlib
 import os
+import time
 import pathlib
 import re
 import shutil
@@ -24,9 +32,102 @@ import tempfile
 
 from ..errors import InputError
 
-__all__ = ["atomic_write", "safe_name", "unique_stems", "printable", "StagedOutput", "staged"]
+__all__ = ["atomic_write", "safe_name", "unique_stems", "printable", "StagedOutput", "staged",
+           "remove_stale_staging", "STAGING_PREFIX"]
 
 _ACTIVE = []        # the StagedOutput blocks in force (innermost last)
+STAGING_PREFIX = ".archsys-staging-"
+
+try:
+    import fcntl
+except ImportError:  # pragma: no cover - not POSIX
+    fcntl = None
+
+
+def _lock_dir(path):
+    """An fd holding an exclusive flock on folder ``path`` (None where locks do not exist or are held)."""
+    if fcntl is None:  # pragma: no cover
+        return None
+    fd = os.open(path, os.O_RDONLY | getattr(os, "O_DIRECTORY", 0))
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        os.close(fd)
+        return None
+    return fd
+
+
+def _pid_alive(pid):
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except (PermissionError, OverflowError, ValueError):
+        return True
+    return True
+
+
+def remove_stale_staging(root):
+    """Remove staging folders in ``root`` left by runs that died.
+
+    A folder is removed when nobody holds its lock and either the process named in it is gone or it
+    is over an hour old (a process id reused by another program does not keep it for ever).
+
+    Returns the number removed.  A folder whose run is alive holds its lock and is left alone.
+    """
+    n = 0
+    try:
+        entries = [e for e in os.scandir(root) if e.name.startswith(STAGING_PREFIX)
+                   and e.is_dir(follow_symlinks=False)]
+    except OSError:
+        return 0
+    for e in entries:
+        m = re.match(re.escape(STAGING_PREFIX) + r"(\d+)-", e.name)
+        try:
+            young = time.time() - e.stat(follow_symlinks=False).st_mtime < 3600
+            if young and (not m or (_pid_alive(int(m.group(1))) and int(m.group(1)) != os.getpid())):
+                continue                        # its run may be starting (not locked yet): never race it
+            fd = _lock_dir(e.path)
+        except OSError:
+            continue
+        if fcntl is not None and fd is None:
+            continue                            # a live run holds it
+        try:
+            shutil.rmtree(e.path, ignore_errors=True)
+            n += 1
+        finally:
+            if fd is not None:
+                os.close(fd)
+    return n
+
+
+def _copy_then_rename(src, final):
+    """Move ``src`` to ``final`` across file systems: a copy beside ``final``, fsynced, then a rename."""
+    final = pathlib.Path(final)
+    tmp = final.parent / f".{final.name[:60]}.{os.getpid()}.archsys-move"
+    try:
+        with open(src, "rb") as fi, open(tmp, "wb") as fo:
+            shutil.copyfileobj(fi, fo, 1 << 20)
+            fo.flush()
+            os.fsync(fo.fileno())
+        os.replace(tmp, final)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+    os.unlink(src)
+
+
+def _move(src, final):
+    """``os.replace``, or a copy and a rename when ``final`` is on another file system (EXDEV)."""
+    try:
+        os.replace(src, final)
+    except OSError as exc:
+        if exc.errno != errno.EXDEV:
+            raise
+        _copy_then_rename(src, final)
 
 
 def _write_file(path, data, mode):
@@ -94,6 +195,7 @@ class StagedOutput:
         self.stages = {}        # root -> staging folder
         self.files = []         # (staged path, final path)
         self.moved = []
+        self.locks = []         # fds holding the flocks of the staging folders
 
     # -- context ------------------------------------------------------------
     def __enter__(self):
@@ -126,10 +228,18 @@ class StagedOutput:
             except OSError as exc:
                 raise InputError(f"cannot create the folder {root}: {exc.strerror or exc}") from None
             self.created += [m for m in made if m not in self.created]
+            remove_stale_staging(root)
             try:
-                self.stages[root] = pathlib.Path(tempfile.mkdtemp(prefix=".archsys-staging-", dir=root))
+                stage = pathlib.Path(tempfile.mkdtemp(prefix=f"{STAGING_PREFIX}{os.getpid()}-", dir=root))
             except OSError as exc:
                 raise InputError(f"cannot write into {root}: {exc.strerror or exc}") from None
+            self.stages[root] = stage
+            try:
+                fd = _lock_dir(stage)
+            except OSError:
+                fd = None
+            if fd is not None:
+                self.locks.append(fd)
         return self.stages[root]
 
     def _root_of(self, path):
@@ -167,16 +277,56 @@ class StagedOutput:
                     if not parent.is_dir():
                         raise InputError(f"cannot write {final}: {parent} is not a folder; nothing was written")
                     break
-        for tmp, final in self.files:
-            made = _missing_parents(final.parent)
-            final.parent.mkdir(parents=True, exist_ok=True)
-            self.created += [m for m in made if m not in self.created]
-            os.replace(tmp, final)
-            self.moved.append(final)
+        journal = []            # (final, hard link or copy of the old file, or None)
+        try:
+            for tmp, final in self.files:
+                made = _missing_parents(final.parent)
+                final.parent.mkdir(parents=True, exist_ok=True)
+                self.created += [m for m in made if m not in self.created]
+                old = None
+                if os.path.lexists(final):
+                    old = final.parent / f".{final.name[:60]}.{os.getpid()}.archsys-old"
+                    try:
+                        os.link(final, old, follow_symlinks=False)
+                    except OSError:
+                        shutil.copy2(final, old, follow_symlinks=False)
+                journal.append((final, old, False))
+                _move(tmp, final)
+                journal[-1] = (final, old, True)
+                self.moved.append(final)
+        except BaseException:
+            self._roll_back(journal)
+            raise
+        for _, old, _ in journal:
+            if old is not None:
+                try:
+                    os.unlink(old)
+                except OSError:
+                    pass
+
+    def _roll_back(self, journal):
+        """Undo the moves of a commit that failed part-way: new files out, old files back."""
+        for final, old, moved in reversed(journal):
+            try:
+                if old is not None and moved:
+                    os.replace(old, final)
+                elif old is not None:
+                    os.unlink(old)          # the target was never replaced (a hard link of it: rename would not undo)
+                elif moved:
+                    os.unlink(final)
+            except OSError:
+                pass
+        self.moved = []
 
     def _cleanup(self, failed):
         for d in self.stages.values():
             shutil.rmtree(d, ignore_errors=True)
+        for fd in self.locks:
+            try:
+                os.close(fd)
+            except OSError:
+                pass
+        self.locks = []
         if failed:
             for d in sorted(self.created, key=lambda p: len(p.parts), reverse=True):
                 try:
@@ -215,7 +365,9 @@ def unique_stems(names, fallback="system", reserved=()):
     A name whose stem is already unique keeps :func:`safe_name`'s stem.  When
     stems collide (compared without case, for case-insensitive file systems),
     every name that sanitising changed gets ``-`` and the first 8 hex digits of
-    the SHA-256 of the name ("Col/X" -> "Col_X-1c2d...", "Col_X" stays); stems
+    the SHA-256 of the name ("Col/X" -> "Col_X-1c2d...", "Col_X" stays), and so
+    does every unchanged name but the first in code-point order ("korrin" gets
+    a hash beside "Korrin", in whatever order they come); stems
     still equal after that (the same name twice) get ``-2``, ``-3``, ... in
     order.  ``reserved``: stems taken already (e.g. ``"system"``).
 
@@ -231,9 +383,15 @@ def unique_stems(names, fallback="system", reserved=()):
     counts = {}
     for b in base:
         counts[b.lower()] = counts.get(b.lower(), 0) + 1
+    # among distinct names whose stems collide, only the first in code-point order of those that
+    # sanitising left unchanged keeps the plain stem ("Korrin" vs "korrin"): the same in any argument order
+    keeper = {}
+    for n, b in zip(names, base):
+        if b == n and b.lower() not in taken:
+            keeper[b.lower()] = min(keeper.get(b.lower(), n), n)
     stems = []
     for n, b in zip(names, base):
-        if (counts[b.lower()] > 1 or b.lower() in taken) and b != n:
+        if (counts[b.lower()] > 1 and keeper.get(b.lower()) != n) or (b.lower() in taken and b != n):
             b = f"{b[:71]}-{_short_hash(n)}"
         stems.append(b)
     seen, out = set(taken), []

@@ -113,6 +113,48 @@ def system_amd(m, a, e, inc, m_star):
     return amd(m, a, e, inc, m_star).sum(axis=-1)
 
 
+
+def _collision_root(alpha, gamma):
+    """Root in (0, 1) of F (see :func:`critical_amd`), element by element.
+
+    Safeguarded Newton (F' = alpha + gamma alpha / D^{3/2} > 0): each element
+    keeps a bracket [lo, hi] with F(lo) < 0 < F(hi); a Newton step that leaves
+    the bracket is replaced by bisection.  An element stops as soon as its own
+    step falls below 4 ulp of 1, and converged elements are never touched
+    again, so each result depends on that element's inputs only (the same
+    bytes whether it is solved alone or in a batch of other systems).  About 5
+    iterations instead of 64 bisections; common practice (Press et al. 2007,
+    Numerical Recipes section 9.4, "rtsafe").
+    """
+    shape = alpha.shape
+    a = np.array(alpha, dtype=float).ravel()
+    g = np.array(gamma, dtype=float).ravel()
+    lo = np.zeros(a.shape)
+    hi = np.ones(a.shape)
+    # start from the small-e root of F (alpha e + gamma e / sqrt(alpha) = 1 - alpha): about 5 steps, not 7
+    e = np.clip((1.0 - a) / (a + g / np.sqrt(a)), 1e-3, 0.999)
+    idx = np.arange(a.size)
+    tol = 4.0 * np.finfo(float).eps
+    for _ in range(_BISECT_ITER):
+        if idx.size == 0:
+            break
+        ai, gi, ei = a[idx], g[idx], e[idx]
+        d = ai * (1.0 - ei * ei) + gi * gi * ei * ei
+        sd = np.sqrt(d)
+        f = ai * ei + gi * ei / sd - 1.0 + ai
+        fp = ai + gi * ai / (d * sd)
+        above = f > 0.0
+        lo_i = np.where(above, lo[idx], ei)
+        hi_i = np.where(above, ei, hi[idx])
+        new = ei - f / fp
+        bad = ~((new > lo_i) & (new < hi_i))
+        new = np.where(bad, 0.5 * (lo_i + hi_i), new)
+        new = np.where(f == 0.0, ei, new)                 # an exact root stays
+        lo[idx], hi[idx], e[idx] = lo_i, hi_i, new
+        done = (np.abs(new - ei) <= tol) | (hi_i - lo_i <= tol)
+        idx = idx[~done]
+    return e.reshape(shape)
+
 def critical_amd(alpha, gamma):
     """Critical relative AMD :math:`C_c(\\alpha, \\gamma)` of a pair (Laskar & Petit 2017).
 
@@ -142,7 +184,8 @@ def critical_amd(alpha, gamma):
 
     :math:`F` rises strictly on (0, 1) (:math:`F' = \\alpha + \\gamma\\alpha/D^{3/2}`),
     from :math:`\\alpha - 1 < 0` to :math:`2\\alpha > 0`, so the root is unique;
-    it is found by vectorised bisection over the whole array at once.
+    it is found by bracketed Newton iterations over the whole array at once
+    (:func:`_collision_root`).
     Formula from memory ([LaskarPetit2017]), re-derived (docs/references.md) as the
     Lagrange-multiplier minimum of the pair AMD on the collision line.
 
@@ -154,17 +197,7 @@ def critical_amd(alpha, gamma):
     gamma = _check("gamma", gamma, 0.0, np.inf, lo_open=True)
     alpha, gamma = np.broadcast_arrays(alpha, gamma)
 
-    def F(e):
-        return alpha * e + gamma * e / np.sqrt(alpha * (1.0 - e**2) + gamma**2 * e**2) - 1.0 + alpha
-
-    lo = np.zeros(alpha.shape)
-    hi = np.ones(alpha.shape)
-    for _ in range(_BISECT_ITER):
-        mid = 0.5 * (lo + hi)
-        above = F(mid) > 0.0
-        hi = np.where(above, mid, hi)
-        lo = np.where(above, lo, mid)
-    e0 = 0.5 * (lo + hi)
+    e0 = _collision_root(alpha, gamma)
     e0p = 1.0 - alpha - alpha * e0
     return (gamma * np.sqrt(alpha) * _one_minus_sqrt_one_minus(e0**2)
             + _one_minus_sqrt_one_minus(e0p**2))

@@ -129,11 +129,16 @@ def _gladman_sides(a1, a2, m1, m2, m_star, e1, e2):
     m1, m2 = _positive("m1", m1), _positive("m2", m2)
     m_star = _positive("m_star", m_star)
     e1, e2 = _eccentricity("e1", e1), _eccentricity("e2", e2)
-    a1, a2, m1, m2, e1, e2 = np.broadcast_arrays(a1, a2, m1, m2, e1, e2)
     swap = a2 < a1  # the criterion is written for planet 1 inside planet 2
-    a_in, a_out = np.where(swap, a2, a1), np.where(swap, a1, a2)
-    m_in, m_out = np.where(swap, m2, m1), np.where(swap, m1, m2)
-    e_in, e_out = np.where(swap, e2, e1), np.where(swap, e1, e2)
+    if np.any(swap):
+        a1, a2, m1, m2, e1, e2 = np.broadcast_arrays(a1, a2, m1, m2, e1, e2)
+        a_in, a_out = np.where(swap, a2, a1), np.where(swap, a1, a2)
+        m_in, m_out = np.where(swap, m2, m1), np.where(swap, m1, m2)
+        e_in, e_out = np.where(swap, e2, e1), np.where(swap, e1, e2)
+    else:
+        # already in order: every term keeps its own shape, so the mass and eccentricity terms of a
+        # (draws, 1) x (draws, trials) call are computed once per draw (same values, element by element)
+        a_in, a_out, m_in, m_out, e_in, e_out = a1, a2, m1, m2, e1, e2
     mu1, mu2 = m_in / m_star, m_out / m_star
     mu = mu1 + mu2
     gamma1, gamma2 = np.sqrt(1.0 - e_in**2), np.sqrt(1.0 - e_out**2)

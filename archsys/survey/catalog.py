@@ -30,6 +30,8 @@ from dataclasses import dataclass, field
 
 from ..errors import InputError
 from ..model.inputfile import MAX_TABLE_BYTES, read_input_bytes
+from ..limits import MAX_CELL_CHARS
+from .identity import bad_text, decode_cell, screen_rows, system_key
 
 __all__ = ["Catalog", "SystemRows", "read_catalog", "group_systems", "parse_where",
            "select", "evaluate", "parse_number", "as_bool", "SYSTEM_VARS", "MISSING_TOKENS"]
@@ -68,6 +70,7 @@ class SystemRows:
     system: str
     rows: list
     broken: list = field(default_factory=list)   # (row, reason): rows of this system that could not be read
+    spellings: tuple = ()    # the id's Unicode spellings in the table when there were several (NFC merged)
 
     @property
     def n_planets(self) -> int:
@@ -86,8 +89,8 @@ def _clean(x):
             x = x.item()
     except ImportError:  # pragma: no cover
         pass
-    if isinstance(x, bytes):
-        x = x.decode("utf-8", "replace")
+    if isinstance(x, (bytes, bytearray, memoryview)):
+        x = decode_cell(x)          # bytes that are not UTF-8 stay marked: their row is rejected
     if isinstance(x, str):
         s = x.strip()
         return None if s in MISSING_TOKENS else s
@@ -99,7 +102,11 @@ def _clean(x):
 _NOT_UTF8 = re.compile("[\udc80-\udcff]")
 
 
-def _read_csv(path: pathlib.Path, blob: bytes):
+#: Rows between two progress reports while a table is read.
+PROGRESS_ROWS = 20_000
+
+
+def _read_csv(path: pathlib.Path, blob: bytes, progress=None):
     """Header, columns, units and malformed rows of a CSV/TSV file.
 
     A line with a byte that is not UTF-8, or with fewer or more cells than the
@@ -118,6 +125,15 @@ def _read_csv(path: pathlib.Path, blob: bytes):
     if path.suffix.lower() == ".txt" and "\t" in first and "," not in first:
         delim = "\t"
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delim)
+    old_limit = csv.field_size_limit()
+    csv.field_size_limit(max(old_limit, len(text) + 1))   # an over-long cell rejects its row (identity.py)
+    try:
+        return _read_csv_rows(path, reader, delim, progress)
+    finally:
+        csv.field_size_limit(old_limit)
+
+
+def _read_csv_rows(path, reader, delim, progress=None):
     try:
         header = next(reader)
     except StopIteration:
@@ -143,10 +159,16 @@ def _read_csv(path: pathlib.Path, blob: bytes):
             continue
         row = len(rows) + 1
         why = None
-        m = _NOT_UTF8.search(",".join(rec))
+        joined = ",".join(rec)
+        m = _NOT_UTF8.search(joined)
         if m:
             why = (f"line {lineno} is not UTF-8 text (byte 0x{ord(m.group(0)) - 0xdc00:02x}); the row is "
                    f"skipped, save the table as UTF-8")
+        elif len(joined) > MAX_CELL_CHARS and max(map(len, rec)) > MAX_CELL_CHARS:
+            j = max(range(len(rec)), key=lambda k: len(rec[k]))
+            col = header[j][:60] if j < len(header) else f"#{j + 1}"
+            why = (f"line {lineno}: column '{col}': {len(rec[j])} characters; a cell may have at most "
+                   f"{MAX_CELL_CHARS}; the row is skipped")
         elif len(rec) > len(header):      # a bad row is reported, never guessed at
             why = (f"line {lineno} has {len(rec)} cells but the header has {len(header)} columns; "
                    f"check the quoting of that line")
@@ -158,7 +180,12 @@ def _read_csv(path: pathlib.Path, blob: bytes):
             raw[row] = rec
             rec = [""] * len(header)
         rows.append(rec)
-    cols = {h: [_clean(r[j]) for r in rows] for j, h in enumerate(header)}
+        if progress is not None and row % PROGRESS_ROWS == 0:
+            progress(PROGRESS_ROWS)
+    # CSV cells are always text: _clean's string branch, column by column (the hot loop of a large table)
+    missing = MISSING_TOKENS
+    cols = {h: [None if (c := v.strip()) in missing else c for v in col]
+            for h, col in zip(header, zip(*rows) if rows else [() for _ in header])}
     return header, cols, {}, (malformed, raw)
 
 
@@ -196,8 +223,12 @@ def _read_parquet(path: pathlib.Path):
     return header, cols, {}, []
 
 
-def read_catalog(path) -> Catalog:
+def read_catalog(path, progress=None) -> Catalog:
     """Read a catalogue file (CSV, ECSV, Parquet or VOTable; see module docstring).
+
+    ``progress(n)``, when given, is called with the number of rows read since
+    its last call (every few thousand rows of a CSV file; once for the other
+    formats).
 
     Raises
     ------
@@ -213,11 +244,16 @@ def read_catalog(path) -> Catalog:
     blob = read_input_bytes(path, "catalogue table", max_bytes=MAX_TABLE_BYTES)
     raw = {}
     if fmt == "csv":
-        header, cols, units, (malformed, raw) = _read_csv(p, blob)
+        header, cols, units, (malformed, raw) = _read_csv(p, blob, progress)
     elif fmt == "parquet":
         header, cols, units, malformed = _read_parquet(p)
     else:
         header, cols, units, malformed = _read_astropy(p, fmt)
+    if fmt != "csv":        # (CSV rows are screened as they are read, in _read_csv_rows)
+        malformed, raw = screen_rows(header, cols, list(malformed), raw)   # not UTF-8, over-long cells
+    if progress is not None:
+        n = len(cols[header[0]]) if header else 0
+        progress(n % PROGRESS_ROWS if fmt == "csv" else n)
     seen = set()
     for j, h in enumerate(header, start=1):
         if not h:
@@ -237,17 +273,20 @@ def group_systems(cat: Catalog, system_col: str):
     systems : list of SystemRows, sorted by system id (rows in table order)
     orphans : list of int, 1-based rows whose system cell is empty (malformed rows excluded)
     """
-    groups, orphans, broken = {}, [], {}
+    groups, orphans, broken, spellings = {}, [], {}, {}
     ids = cat.cells[system_col]
     bad = dict(cat.malformed)
     col = cat.columns.index(system_col) if system_col in cat.columns else None
-    for i, sid in enumerate(ids):
+    names = cat.columns
+    cells_of_row = zip(*(cat.cells[c] for c in names))       # row dicts built once, column by column
+    for i, (sid, vals) in enumerate(zip(ids, cells_of_row)):
         if i + 1 in bad:
             # a row that could not be read still names its system when that cell is clean:
             # the system is then rejected as a whole instead of being analysed without the row
             cells = cat.malformed_cells.get(i + 1) or []
             sid = _clean(cells[col]) if col is not None and col < len(cells) else None
-            if isinstance(sid, str) and not _NOT_UTF8.search(sid):
+            if isinstance(sid, str) and not bad_text(sid):
+                sid = system_key(sid)
                 broken.setdefault(sid, []).append((i + 1, bad[i + 1]))
                 groups.setdefault(sid, [])
             continue
@@ -255,8 +294,12 @@ def group_systems(cat: Catalog, system_col: str):
             orphans.append(i + 1)
             continue
         sid = str(sid) if not isinstance(sid, float) or not sid.is_integer() else str(int(sid))
-        groups.setdefault(sid, []).append((i + 1, cat.row(i)))
-    return [SystemRows(s, groups[s], broken.get(s, [])) for s in sorted(groups)], orphans
+        key = system_key(sid)
+        spellings.setdefault(key, set()).add(sid)
+        groups.setdefault(key, []).append((i + 1, dict(zip(names, vals))))
+    return [SystemRows(s, groups[s], broken.get(s, []),
+                       tuple(sorted(spellings[s])) if len(spellings.get(s, ())) > 1 else ())
+            for s in sorted(groups)], orphans
 
 
 # the selection language lives in .where; re-exported here for older imports

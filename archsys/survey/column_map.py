@@ -93,7 +93,7 @@ from dataclasses import dataclass, field
 
 import astropy.units as u
 
-from ..compat import tomllib
+from ..limits import clip
 from ..errors import InputError
 from ..model.inputfile import read_input_bytes
 from ..model.schema import EPOCH_FIELD, PLANET_FIELDS, STAR_FIELDS
@@ -280,22 +280,22 @@ def _check_unit(src, where, unit, fld):
     try:
         q = u.Unit(unit)
     except (ValueError, TypeError):
-        raise _err(src, f"{where} unit", f"'{unit}' is not a unit astropy understands") from None
+        raise _err(src, f"{where} unit", f"'{clip(unit)}' is not a unit astropy understands") from None
     want = u.Unit(fld.unit) if fld is not None and fld.unit else u.dimensionless_unscaled
     if fld is None or not q.is_equivalent(want):
-        raise _err(src, f"{where} unit", f"'{unit}' does not convert to {fld.unit if fld and fld.unit else 'a dimensionless unit'}")
+        raise _err(src, f"{where} unit", f"'{clip(unit)}' does not convert to {fld.unit if fld and fld.unit else 'a dimensionless unit'}")
 
 
 def load_column_map(path) -> ColumnMap:
     """Read and validate a column-map TOML file (format in the module docstring)."""
     src = str(path)
     blob = read_input_bytes(path, "column map (.toml)", allow_empty=True)
+    from ..limits import parse_toml
     try:
-        data = tomllib.loads(blob.decode("utf-8"))
+        text = blob.decode("utf-8")
     except UnicodeDecodeError:
         raise InputError(f"{src}: not UTF-8 text") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{src}: not valid TOML: {exc}") from None
+    data = parse_toml(text, src, "column map")
     for k in data:
         if k not in ("keys", "aliases", "star", "planet", "system", "notes"):
             raise _err(src, "", f"unknown table [{k}]{_suggest(k, ('keys', 'aliases', 'star', 'planet', 'system'))}")

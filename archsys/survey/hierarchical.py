@@ -36,7 +36,8 @@ import math
 import numpy as np
 from scipy import optimize, special
 
-__all__ = ["HMBData", "fit_beta", "fit_rayleigh", "eccentricity_population", "tilt_population",
+__all__ = ["HMBData", "fit_beta", "fit_rayleigh", "eccentricity_population", "start_eccentricity_population",
+           "tilt_population",
            "interval"]
 
 #: Percentiles of the reported intervals: lo/hi = 68.27 % (archsys convention), lo95/hi95 = 95 %.
@@ -215,8 +216,16 @@ def fit_rayleigh(data: HMBData, seed=0, n_walkers=12, n_steps=1000, n_burn=300, 
             "diagnostics": diag}
 
 
+def _ecc_fit(kind, samples, log_p0, seed, n_steps, n_burn):
+    """One eccentricity fit from the samples (a top-level function, so a worker process can run it)."""
+    data = HMBData(samples, log_p0, upper=1.0)
+    if kind == "beta":
+        return fit_beta(data, seed=seed, n_steps=n_steps, n_burn=n_burn)
+    return fit_rayleigh(data, seed=seed + 1, n_steps=n_steps, n_burn=n_burn)
+
+
 def eccentricity_population(samples, log_p0, seed=0, interim_prior="", n_steps=1000, n_burn=300,
-                            min_objects=5):
+                            min_objects=5, submit=None):
     """Beta and Rayleigh eccentricity populations from per-planet samples.
 
     Parameters
@@ -228,6 +237,9 @@ def eccentricity_population(samples, log_p0, seed=0, interim_prior="", n_steps=1
         Interim log prior density at each sample.
     interim_prior : str
         Description of the interim prior, recorded in the result.
+    submit : callable, optional
+        ``submit(fn, *args) -> future``: runs the Beta and Rayleigh fits side by
+        side (e.g. in two processes); each fit is seeded as in a serial run.
 
     Returns
     -------
@@ -236,18 +248,34 @@ def eccentricity_population(samples, log_p0, seed=0, interim_prior="", n_steps=1
         "method"}``; ``beta``/``rayleigh`` are None (with ``"reason"``) when
         fewer than ``min_objects`` planets are available.
     """
+    return start_eccentricity_population(samples, log_p0, seed, interim_prior, n_steps, n_burn, min_objects,
+                                         submit)()
+
+
+def start_eccentricity_population(samples, log_p0, seed=0, interim_prior="", n_steps=1000, n_burn=300,
+                                  min_objects=5, submit=None):
+    """Start the fits of :func:`eccentricity_population`; returns a function that waits and assembles them."""
     out = {"n_planets": len(samples), "interim_prior": interim_prior,
            "method": "Hogg, Myers & Bovy 2010 importance-sampling likelihood, sampled with emcee"}
     if len(samples) < min_objects:
         out.update(beta=None, rayleigh=None,
                    reason=f"only {len(samples)} planets with a measured eccentricity (need {min_objects})")
+        return lambda: out
+    if submit is None:
+        data = HMBData(samples, log_p0, upper=1.0)
+        out["beta"] = fit_beta(data, seed=seed, n_steps=n_steps, n_burn=n_burn)
+        out["rayleigh"] = fit_rayleigh(data, seed=seed + 1, n_steps=n_steps, n_burn=n_burn)
+        parts = None
+    else:
+        parts = [submit(_ecc_fit, kind, samples, log_p0, seed, n_steps, n_burn) for kind in ("beta", "rayleigh")]
+
+    def finish():
+        if parts is not None:
+            out["beta"], out["rayleigh"] = (f.result() for f in parts)
+        out["ess_min"] = min(out["beta"]["diagnostics"]["ess_min"], out["rayleigh"]["diagnostics"]["ess_min"])
+        _flag_ess(out)
         return out
-    data = HMBData(samples, log_p0, upper=1.0)
-    out["beta"] = fit_beta(data, seed=seed, n_steps=n_steps, n_burn=n_burn)
-    out["rayleigh"] = fit_rayleigh(data, seed=seed + 1, n_steps=n_steps, n_burn=n_burn)
-    out["ess_min"] = min(out["beta"]["diagnostics"]["ess_min"], out["rayleigh"]["diagnostics"]["ess_min"])
-    _flag_ess(out)
-    return out
+    return finish
 
 
 def _flag_ess(out):

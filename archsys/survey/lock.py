@@ -23,7 +23,7 @@ try:
 except ImportError:  # pragma: no cover - not POSIX
     fcntl = None
 
-__all__ = ["SurveyLock"]
+__all__ = ["SurveyLock", "ReportLock", "refuse_survey_folder"]
 
 
 class SurveyLock:
@@ -84,3 +84,65 @@ class SurveyLock:
                 (self.out / f"{name}{suffix}").unlink()
             except FileNotFoundError:
                 pass
+
+
+def _is_survey_folder(d):
+    return (d / "survey.sqlite").exists() or ((d / "population.json").exists() and (d / "systems.csv").exists())
+
+
+def refuse_survey_folder(path, command):
+    """Refuse to write the files of ``command`` into a survey's output folder (or its figures/)."""
+    if not path:
+        return
+    d = pathlib.Path(path)
+    for cand in (d, d.parent if d.name == "figures" else None):
+        if cand is not None and cand.is_dir() and _is_survey_folder(cand):
+            raise InputError(f"{path}: is the output folder of a survey; `archsys {command}` does not write "
+                             f"into it (its files would replace the survey's); choose another folder")
+
+
+class ReportLock:
+    """``with ReportLock(out, figures): ...`` -- the survey lock on existing output folders of a report.
+
+    A report waits for nobody: when a survey holds the lock on one of the
+    folders, the report is refused with one line.  Folders that do not exist
+    yet are not locked (no survey can be running into them).
+    """
+
+    def __init__(self, *dirs):
+        self.dirs = []
+        for d in dirs:
+            if d and pathlib.Path(d).is_dir() and pathlib.Path(d).absolute() not in self.dirs:
+                self.dirs.append(pathlib.Path(d).absolute())
+        self.fds = []
+
+    def __enter__(self):
+        if fcntl is None:  # pragma: no cover
+            return self
+        try:
+            for d in self.dirs:
+                try:
+                    fd = os.open(d, os.O_RDONLY | getattr(os, "O_DIRECTORY", 0))
+                except OSError:
+                    continue
+                self.fds.append(fd)
+                try:
+                    fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+                except OSError as exc:
+                    if exc.errno in (errno.EWOULDBLOCK, errno.EAGAIN, errno.EACCES):
+                        raise InputError(f"{d}: an archsys survey is running into this folder; "
+                                         f"choose another folder for the report") from None
+                    raise
+        except BaseException:
+            self.__exit__(None, None, None)
+            raise
+        return self
+
+    def __exit__(self, et, ev, tb):
+        for fd in self.fds:
+            try:
+                fcntl.flock(fd, fcntl.LOCK_UN)
+            finally:
+                os.close(fd)
+        self.fds = []
+        return False

@@ -32,19 +32,25 @@ import json
 import math
 import os
 import pathlib
+import sys
+import time
 import zlib
 from dataclasses import replace
 
 import numpy as np
 
 from ..version import __version__
+from ..progress import peak_memory_mib
 from ..errors import InputError
 from ..options import FAST_DRAWS, AnalysisOptions, SurveyOptions, split_keywords
 from .catalog import group_systems, read_catalog
 from .where import parse_where, select
 from .column_map import bind, canonical_map, load_column_map, where_names
 from .lock import SurveyLock
-from .store import STORE_NAME, SurveyStore, header_of, write_csv
+from .identity import merge_notes
+from .store import STORE_FORMAT, STORE_NAME, SurveyStore, header_of, write_csv
+from .store_check import check_and_repair, reconcile
+from .popfits import FitRunner, subsample_objects, transit_block, with_per_system_fit
 from .workers import SAMPLES_PER_PLANET, dask_client, process_system, progress_bar, run_tasks
 
 __all__ = ["run_survey", "system_seed", "process_system",
@@ -57,6 +63,10 @@ _FIRST_PAIR_COLS = ("system", "inner", "outer", "period_ratio_median", "period_r
                     "hill_stable_probability", "near_resonance_probability", "amd_stable_probability",
                     "mutual_inclination_deg_median", "mutual_inclination_deg_lo", "mutual_inclination_deg_hi")
 REJECT_COLS = ("system", "planet", "row", "field", "column", "reason")
+
+
+#: Finished systems stored per transaction (at most half a second's worth are held back).
+STORE_GROUP = 64
 
 
 def system_seed(seed: int, system_id: str) -> int:
@@ -72,7 +82,7 @@ def system_seed(seed: int, system_id: str) -> int:
 def _manifest(cat, cmap, opts):
     o = opts.as_dict()
     o.pop("seed", None)
-    return {"store_format": 1, "archsys_version": __version__, "catalog_sha256": cat.sha256,
+    return {"store_format": STORE_FORMAT, "archsys_version": __version__, "catalog_sha256": cat.sha256,
             "columns": cmap.source if cmap.source == "canonical columns" else "file",
             "columns_sha256": cmap.sha256, "seed": int(opts.seed), "options": o}
 
@@ -101,19 +111,27 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
         become rejects.
     """
     opts, sv = split_keywords(options, survey, **keywords)
+    from ..limits import check_output_path
+    check_output_path(out, "--out")                   # not empty, no over-long names (issue 22)
     out = pathlib.Path(out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {out}: exists and is not a directory")
     jobs = (os.cpu_count() or 1) if not opts.jobs else int(opts.jobs)
-    cat = read_catalog(catalog)
+    # progress from the first second: rows read, then systems grouped, analysed, the population steps
+    with progress_bar(None, quiet=opts.quiet, stream=stream, desc="reading", unit="row", delay=0.5) as rbar:
+        cat = read_catalog(catalog, progress=rbar.update)
     cmap = bind(load_column_map(sv.columns) if sv.columns else canonical_map(cat.columns), cat)
     names = where_names(cmap, cat.columns)
     nodes = [parse_where(w, names) for w in sv.where]
     from .multiplicity_block import check_settings          # transit multiplicity (issue 14)
     transit = check_settings(transit, cmap, cat.columns)
     base = replace(opts, quiet=True, jobs=1)          # what every system is analysed with
-    groups, orphans = group_systems(cat, cmap.system)
-    selected = [g for g in groups if select(g, nodes)]
+    with progress_bar(None, quiet=opts.quiet, stream=stream, desc="grouping", unit="system",
+                      delay=0.5) as gbar:
+        groups, orphans = group_systems(cat, cmap.system)
+        gbar.update(len(groups))
+        selected = [g for g in groups if select(g, nodes)]
+        gbar.set_postfix_str(f"{len(selected)} selected", refresh=False)
     if nodes:                    # a bare comparison that drops systems any() would keep: one line each
         import warnings
         from ..model.checks import InputWarning
@@ -125,33 +143,66 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
         selected = selected[:sv.limit]
     ids = {g.system for g in selected}
     client = dask_client(sv.scheduler) if sv.scheduler else None    # before any file is made
+    # population fits beside the per-system work when other processes do that work (popfits.py)
+    fits = FitRunner(min(2, jobs) if (jobs > 1 or client is not None) else 0)
 
     try:
-        with SurveyLock(out) as lock:
+        with SurveyLock(out) as lock, fits:
             store = SurveyStore(out)
             try:
                 store.check_manifest(_manifest(cat, cmap, base), sv.resume)
+                notes = check_and_repair(store, store.missing_tables) if sv.resume else []
+                notes += merge_notes({g.system: set(g.spellings) for g in groups if g.spellings})
                 done = store.done()
                 todo = [g for g in selected if g.system not in done]
+                fast = not base.uses_mcmc           # direct draws only: short, even tasks
+                if not fast:
+                    # largest systems first (longest-processing-time-first scheduling, Graham 1969): the slow
+                    # joint-engine systems do not end the run alone; results do not depend on the order
+                    todo = sorted(todo, key=lambda g: -g.n_planets)
                 tasks = [(g, cmap, cat.units, replace(base, seed=system_seed(opts.seed, g.system)), cat.name,
                           debug) for g in todo]
+                tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(opts.seed))
                 bar = progress_bar(len(tasks), quiet=opts.quiet, stream=stream,
                                    skipped=len(selected) - len(todo))
                 failed = [0]
+                pending, last = [], [time.monotonic()]
+
+                def flush():
+                    if pending:
+                        store.put_many(pending)       # one transaction per group of finished systems
+                        bar.update(len(pending))
+                        pending.clear()
+                    last[0] = time.monotonic()
 
                 def sink(res):
-                    store.put(res)
+                    pending.append(res)
                     if res["status"] != "ok":
                         failed[0] += 1
                         bar.set_postfix_str(f"{failed[0]} rejected", refresh=False)
-                    bar.update(1)
+                    if len(pending) >= STORE_GROUP or time.monotonic() - last[0] > 0.5:
+                        flush()
 
                 try:
-                    run_tasks(tasks, sink, jobs, client=client)
+                    run_tasks(tasks, sink, jobs, client=client, batch=None if fast else 1)
                     client = None                     # closed by run_tasks
                 finally:
-                    bar.close()
-                return _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv, transit)
+                    try:
+                        flush()                       # whatever finished is kept, also on an interrupt
+                    finally:
+                        bar.close()
+                with progress_bar(len(_FINISH_STEPS), quiet=opts.quiet, stream=stream, desc="population",
+                                  unit="step") as fbar:
+                    pop = _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv, transit,
+                                  fits=fits, tm=tm, step=lambda what: (fbar.set_postfix_str(what, refresh=False), fbar.update(1)))
+                pop["_notes"] = notes + pop.get("_notes", [])
+                if not opts.quiet:
+                    own, kids = peak_memory_mib()
+                    if own is not None:
+                        (stream or sys.stderr).write(
+                            f"archsys: survey: peak memory {own:.0f} MiB in this process"
+                            + (f", {kids:.0f} MiB in the largest worker" if kids else "") + "\n")
+                return pop
             except BaseException:
                 if store.count() == 0:                # nothing stored: leave no empty store behind
                     store.close()
@@ -164,9 +215,16 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
             client.close()
 
 
-def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, transit=None):
+#: The steps of _finish shown on the progress line.
+_FINISH_STEPS = ("tables read back", "statistics", "eccentricity fits", "tilt fit", "transit multiplicity",
+                 "files written")
+
+
+def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, transit=None, fits=None, tm=None,
+            step=None):
+    step = step or (lambda what: None)
     from ..output.files import atomic_write, staged
-    from .hierarchical import eccentricity_population, tilt_population
+    from .hierarchical import start_eccentricity_population, tilt_population
     from .population import population_statistics
     from .predictions import prediction_population
     status = store.systems(ids)
@@ -175,6 +233,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
     ok_rows = [row for _, st, _, _, row in status if st == "ok"]
     pairs = store.rows("pairs", ids)
     planets = store.rows("planets", ids)
+    reconcile(status, planets, pairs)          # never a partial table with exit status 0
     rejects = [{"system": "", "planet": "", "row": r, "field": "system", "column": cmap.system,
                 "reason": f"row has no system id in column '{cmap.system}'"} for r in orphans]
     attached = {r for g in groups for r, _ in g.broken}      # reported with their system
@@ -205,28 +264,44 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
            "selection": {"where": where, "limit": limit}, "seed": int(seed),
            "options": {k: v for k, v in opts.as_dict().items() if k != "seed"},
            "seeds": "per system: SeedSequence([seed, crc32(system id)])", "counts": counts}
-    pop.update(population_statistics(ok_rows, pairs, seed=seed))
-    pop["predictions"] = prediction_population(ok_rows, pairs)
     ecc_samples, ecc_lp0, psi_samples, psi_lp0, ecc_info = _hier_inputs(store, ids, ok_rows)
+    step(_FINISH_STEPS[0])
     psi_interims = ecc_info.pop("psi_interims")
     psi_systems = ecc_info.pop("psi_systems")
-    ecc_pop = eccentricity_population(ecc_samples, ecc_lp0, seed=int(seed) + 11,
-                                      interim_prior=ecc_info["interim"])
-    ecc_pop.update({k: v for k, v in ecc_info.items() if k != "interim"})
-    pop["eccentricity_population"] = ecc_pop
+    fits = fits or FitRunner(0)
+    ecc_samples, ecc_lp0, ecc_sub = subsample_objects(ecc_samples, ecc_lp0, int(seed) + 11)
+    ecc_done = start_eccentricity_population(ecc_samples, ecc_lp0, seed=int(seed) + 11,    # in the background
+                                             interim_prior=ecc_info["interim"],
+                                             submit=fits.submit if fits.processes else None)
+    pop.update(population_statistics(ok_rows, pairs, seed=seed))
+    pop["predictions"] = prediction_population(ok_rows, pairs)
+    step(_FINISH_STEPS[1])
     if psi_samples:
+        psi_samples, psi_lp0, psi_sub = subsample_objects(psi_samples, psi_lp0, int(seed) + 13)
         pop["mutual_inclination_population"] = tilt_population(
             psi_samples, psi_lp0, seed=int(seed) + 13,
             interim_prior="; ".join(sorted(set(psi_interims))))
         pop["mutual_inclination_population"]["n_systems"] = int(psi_systems)     # what sigma rests on
+        if psi_sub:
+            pop["mutual_inclination_population"]["subsample"] = psi_sub
     else:
         pop["mutual_inclination_population"] = {
             "rayleigh": None, "n_planets": 0,
             "reason": "no analysed posterior provides planet tilts 'psi' (direct Monte Carlo draws do not "
                       "sample mutual inclinations); the MCMC mode of transiting multis would"}
-    from .multiplicity_block import transit_multiplicity    # population answer beside the per-system fit
-    pop["transit_multiplicity"] = transit_multiplicity(selected, cmap, cat.columns, cat.units, transit, int(seed),
-                                                       pop["mutual_inclination_population"])
+    step(_FINISH_STEPS[3])                  # the tilt fit ran here while the eccentricity fits ran beside
+    ecc_pop = ecc_done()
+    step(_FINISH_STEPS[2])
+    ecc_pop.update({k: v for k, v in ecc_info.items() if k != "interim"})
+    if ecc_sub:
+        ecc_pop["subsample"] = ecc_sub
+    pop["eccentricity_population"] = ecc_pop
+    # population.json keeps its key order whichever fit finished first
+    pop["mutual_inclination_population"] = pop.pop("mutual_inclination_population")
+    if tm is None:
+        tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(seed))
+    pop["transit_multiplicity"] = with_per_system_fit(tm.result(), pop["mutual_inclination_population"])
+    step(_FINISH_STEPS[4])
 
     with staged(out):           # every file of the run, or none
         write_csv(out / "systems.csv", header_of(ok_rows, _FIRST_SYSTEM_COLS), ok_rows)
@@ -237,6 +312,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
             from ..output.figures.survey_set import survey_figures
             survey_figures(pop, ok_rows, pairs, planets, out / "figures", preset=sv.preset)
         atomic_write(out / "population.json", json.dumps(pop, indent=2, allow_nan=False) + "\n")
+    step(_FINISH_STEPS[5])
     return pop
 
 
@@ -253,7 +329,7 @@ def _hier_inputs(store, ids, ok_rows):
     for sid, _planet, basis, interim, e, psi_int, psi in store.samples(ids):
         if sid not in ok:
             continue
-        if basis is not None and e is not None:
+        if basis is not None and e is not None and np.all(np.isfinite(e)):
             lp = None
             if interim == "ecc-uniform":
                 lp = np.zeros_like(e)

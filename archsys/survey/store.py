@@ -29,11 +29,12 @@ import numpy as np
 
 from ..errors import InputError
 from ..output.files import atomic_write, printable
+from . import store_check
 
 __all__ = ["SurveyStore", "escape_cell", "csv_text", "write_csv", "pack_samples", "unpack_samples"]
 
 STORE_NAME = "survey.sqlite"
-STORE_FORMAT = 1
+STORE_FORMAT = 2         # 2: a checksum per system (store_check.py)
 
 _SCHEMA = """
 CREATE TABLE IF NOT EXISTS manifest (key TEXT PRIMARY KEY, value TEXT NOT NULL);
@@ -49,7 +50,7 @@ CREATE TABLE IF NOT EXISTS pairs (
 CREATE TABLE IF NOT EXISTS rejects (
     system TEXT NOT NULL, idx INTEGER NOT NULL, planet TEXT, row TEXT, field TEXT, col TEXT,
     reason TEXT NOT NULL, PRIMARY KEY (system, idx));
-"""
+""" + store_check.CHECKS_SCHEMA
 
 
 def pack_samples(x):
@@ -60,6 +61,8 @@ def pack_samples(x):
 
 
 def unpack_samples(b):
+    if b is not None and (not isinstance(b, bytes) or len(b) % 8):
+        raise InputError("survey store: a posterior-sample blob is damaged; rerun with --resume to repair it")
     return None if b is None else np.frombuffer(b, dtype="<f8")
 
 
@@ -81,18 +84,39 @@ class SurveyStore:
     def __init__(self, out_dir):
         self.path = pathlib.Path(out_dir) / STORE_NAME
         self.path.parent.mkdir(parents=True, exist_ok=True)
+        store_check.check_file(self.path)              # random bytes, a foreign file: refused, untouched
+        self.db = None
+        existed = self.path.exists()
         try:
             self.db = sqlite3.connect(str(self.path), isolation_level=None)
+            self.missing_tables = store_check.check_schema(self.db, self.path, _SCHEMA)
             self.db.execute("PRAGMA journal_mode=WAL")
             self.db.execute("PRAGMA synchronous=NORMAL")
             self.db.executescript(_SCHEMA)
+        except InputError:
+            self.close()
+            raise
         except sqlite3.DatabaseError as exc:
+            self.close()
+            if not existed:                            # a store this run began: leave nothing behind
+                for suffix in ("", "-wal", "-shm", "-journal"):
+                    try:
+                        pathlib.Path(f"{self.path}{suffix}").unlink()
+                    except OSError:
+                        pass
+            if "full" in str(exc):
+                raise InputError(f"{self.path}: no room for the survey store ({exc}); free some space or "
+                                 f"choose another --out") from None
             raise InputError(f"{self.path}: not a usable survey store ({exc}); choose another --out") from None
 
     # -- manifest -----------------------------------------------------------
     def manifest(self):
         rows = self.db.execute("SELECT key, value FROM manifest").fetchall()
-        return {k: json.loads(v) for k, v in rows} if rows else None
+        try:
+            return {k: json.loads(v) for k, v in rows} if rows else None
+        except (ValueError, TypeError):
+            raise InputError(f"{self.path}: the store's manifest is damaged (malformed JSON); it cannot be "
+                             f"matched to its inputs; move {self.path.name} away to start afresh") from None
 
     def set_manifest(self, manifest: dict):
         with self._tx():
@@ -110,7 +134,9 @@ class SurveyStore:
         if not resume:
             raise InputError(f"{self.path.parent}: already holds a survey ({n_done} systems stored); "
                              f"pass --resume to continue it, or choose another --out")
-        old = old or {}
+        if old is None:
+            raise InputError(f"{self.path}: the store's manifest is missing ({n_done} systems stored); it "
+                             f"cannot be matched to its inputs; move {self.path.name} away to start afresh")
         diff = [k for k in sorted(set(old) | set(manifest)) if old.get(k) != manifest.get(k)]
         if diff:
             what = "; ".join(f"{k}: stored {_short(old.get(k))}, now {_short(manifest.get(k))}" for k in diff)
@@ -129,25 +155,34 @@ class SurveyStore:
 
     def put(self, res: dict):
         """Store one system's result (one transaction; replaces an older entry)."""
-        sid = res["system"]
+        self.put_many([res])
+
+    def put_many(self, results):
+        """Store several systems' results in one transaction (whole systems only, as :meth:`put`)."""
         with self._tx():
-            for t in ("systems", "planets", "pairs", "rejects"):
-                self.db.execute(f"DELETE FROM {t} WHERE system = ?", (sid,))
-            self.db.execute("INSERT INTO systems VALUES (?, ?, ?, ?, ?, ?)",
-                            (sid, res["status"], int(res["n_planets"]), res.get("error_kind"),
-                             _dumps(res["system_row"]) if res.get("system_row") is not None else None,
-                             _dumps(res["document"]) if res.get("document") is not None else None))
-            for i, p in enumerate(res.get("planets", [])):
-                self.db.execute("INSERT INTO planets VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
-                                (sid, i, p["row"]["planet"], _dumps(p["row"]), p.get("ecc_basis"),
-                                 p.get("ecc_interim"), pack_samples(p.get("ecc_samples")),
-                                 p.get("psi_interim"), pack_samples(p.get("psi_samples"))))
-            for i, row in enumerate(res.get("pairs", [])):
-                self.db.execute("INSERT INTO pairs VALUES (?, ?, ?)", (sid, i, _dumps(row)))
-            for i, r in enumerate(res.get("rejects", [])):
-                self.db.execute("INSERT INTO rejects VALUES (?, ?, ?, ?, ?, ?, ?)",
-                                (sid, i, r.get("planet", ""), str(r.get("row", "")), r.get("field", ""),
-                                 r.get("column", ""), r["reason"]))
+            for res in results:
+                self._put(res)
+
+    def _put(self, res):
+        sid = res["system"]
+        for t in ("systems", "planets", "pairs", "rejects", "checks"):
+            self.db.execute(f"DELETE FROM {t} WHERE system = ?", (sid,))
+        self.db.execute("INSERT INTO systems VALUES (?, ?, ?, ?, ?, ?)",
+                        (sid, res["status"], int(res["n_planets"]), res.get("error_kind"),
+                         _dumps(res["system_row"]) if res.get("system_row") is not None else None,
+                         _dumps(res["document"]) if res.get("document") is not None else None))
+        for i, p in enumerate(res.get("planets", [])):
+            self.db.execute("INSERT INTO planets VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                            (sid, i, p["row"]["planet"], _dumps(p["row"]), p.get("ecc_basis"),
+                             p.get("ecc_interim"), pack_samples(p.get("ecc_samples")),
+                             p.get("psi_interim"), pack_samples(p.get("psi_samples"))))
+        for i, row in enumerate(res.get("pairs", [])):
+            self.db.execute("INSERT INTO pairs VALUES (?, ?, ?)", (sid, i, _dumps(row)))
+        for i, r in enumerate(res.get("rejects", [])):
+            self.db.execute("INSERT INTO rejects VALUES (?, ?, ?, ?, ?, ?, ?)",
+                            (sid, i, r.get("planet", ""), str(r.get("row", "")), r.get("field", ""),
+                             r.get("column", ""), r["reason"]))
+        store_check.seal(self.db, sid)
 
     def systems(self, ids=None):
         """(system, status, n_planets, error_kind, row) sorted by system id."""
@@ -190,6 +225,8 @@ class SurveyStore:
         return out
 
     def close(self):
+        if self.db is None:
+            return
         try:
             self.db.close()
         except sqlite3.Error:  # pragma: no cover

@@ -29,6 +29,11 @@ Several ``--where`` options must all hold.
 
 Numbers in cells are plain decimal notation with ASCII digits
 (:func:`parse_number`): ``1_0``, ``0x10`` and non-ASCII digits are text.
+
+Limits (:mod:`archsys.limits`): an expression has at most 100 000 characters
+and 100 levels of parentheses, ``not`` and ``any(``/``all(``/``count(``;
+``and``/``or`` chains are stored flat (``("or", [a, b, c, ...])``), so a long
+chain is neither parsed nor evaluated recursively.
 """
 from __future__ import annotations
 
@@ -37,6 +42,7 @@ import math
 import re
 
 from ..errors import InputError
+from ..limits import MAX_EXPRESSION_CHARS, MAX_EXPRESSION_NESTING
 
 __all__ = ["parse_where", "select", "evaluate", "as_bool", "parse_number", "SYSTEM_VARS", "kept_by_any", "any_note"]
 
@@ -77,10 +83,20 @@ def _tokenize(expr, where):
 
 class _Parser:
     def __init__(self, expr, names, where):
-        self.where = where
+        self.where = where = where if len(where) <= 100 else where[:96] + "...'"
+        if len(expr) > MAX_EXPRESSION_CHARS:
+            raise InputError(f"{where}: {len(expr)} characters; an expression may have at most "
+                             f"{MAX_EXPRESSION_CHARS}")
         self.toks = _tokenize(expr, where)
         self.i = 0
+        self.depth = 0
         self.names = names       # name -> resolved key
+
+    def _enter(self):
+        self.depth += 1
+        if self.depth > MAX_EXPRESSION_NESTING:
+            raise InputError(f"{self.where}: nested more than {MAX_EXPRESSION_NESTING} levels "
+                             f"(parentheses, not, any/all/count)")
 
     def peek(self):
         return self.toks[self.i] if self.i < len(self.toks) else (None, None)
@@ -106,18 +122,25 @@ class _Parser:
         return node
 
     def expr(self):
-        node = self.term()
+        parts = [self.term()]
         while self.take("or", "||"):
-            node = ("or", node, self.term())
-        return node
+            parts.append(self.term())
+        return parts[0] if len(parts) == 1 else ("or", parts)
 
     def term(self):
-        node = self.factor()
+        parts = [self.factor()]
         while self.take("and", "&&"):
-            node = ("and", node, self.factor())
-        return node
+            parts.append(self.factor())
+        return parts[0] if len(parts) == 1 else ("and", parts)
 
     def factor(self):
+        self._enter()
+        try:
+            return self._factor()
+        finally:
+            self.depth -= 1
+
+    def _factor(self):
         if self.take("not", "!"):
             return ("not", self.factor())
         if self.take("("):
@@ -291,9 +314,9 @@ def evaluate(node, rows, i, sysvars):
     """Truth of ``node`` for row ``i`` of ``rows`` (list of cell dicts)."""
     kind = node[0]
     if kind == "or":
-        return evaluate(node[1], rows, i, sysvars) or evaluate(node[2], rows, i, sysvars)
+        return any(evaluate(n, rows, i, sysvars) for n in node[1])
     if kind == "and":
-        return evaluate(node[1], rows, i, sysvars) and evaluate(node[2], rows, i, sysvars)
+        return all(evaluate(n, rows, i, sysvars) for n in node[1])
     if kind == "not":
         return not evaluate(node[1], rows, i, sysvars)
     if kind == "agg":

@@ -25,7 +25,7 @@ from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
 __all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "dask_client",
-           "run_tasks", "SAMPLES_PER_PLANET", "MAX_BATCH"]
+           "run_tasks", "SAMPLES_PER_PLANET", "MAX_BATCH", "DASK_BATCH"]
 
 #: Posterior samples per planet kept for the hierarchical inference.
 SAMPLES_PER_PLANET = 100
@@ -102,8 +102,7 @@ def _finite_json(x):
 
 
 def _summarise(sid, res):
-    doc = _finite_json(res.document)
-    res.document = doc
+    doc = res.document          # build_document already replaced NaN/inf by None
     post = res.posterior
     extra, pair_extra = _survey_extras(res)
     planets = []
@@ -217,13 +216,13 @@ def process_batch(batch):
 MAX_BATCH = 16
 
 
-def _run_local(tasks, sink, jobs):
+def _run_local(tasks, sink, jobs, batch=None):
     import multiprocessing
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
     ctx = multiprocessing.get_context("spawn")     # no inherited sqlite handle, same as Dask workers
     # small batches: few enough per call that every worker stays busy to the end and a crash
     # loses little; results are still stored system by system
-    size = max(1, min(MAX_BATCH, len(tasks) // (8 * jobs)))
+    size = batch or max(1, min(MAX_BATCH, len(tasks) // (8 * jobs)))
     it = iter([tasks[i:i + size] for i in range(0, len(tasks), size)])
     # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
     saved = {k: os.environ.get(k) for k in _THREAD_VARS}
@@ -263,30 +262,46 @@ def dask_client(address):
     except ImportError:
         raise InputError("--scheduler needs Dask distributed, the optional extra 'dask' "
                          "(pip install 'archsys[dask]')") from None
-    import dask
-    try:
-        return Client(address, timeout=dask.config.get("distributed.comm.timeouts.connect", "30s"))
-    except (OSError, TimeoutError, ValueError) as exc:
-        raise InputError(f"--scheduler {address}: cannot connect to the Dask scheduler "
-                         f"({' '.join(str(exc).split())})") from None
+    del Client
+    from .remote import connect                 # deadlines on set-up and on every wait (issue 22)
+    return connect(address)
 
 
-def _run_dask(tasks, sink, client):
-    from distributed import as_completed
+#: Systems per Dask task: enough to amortise the scheduler's per-task cost (about a millisecond) over
+#: fast-mode systems, few enough that every worker stays busy to the end.
+DASK_BATCH = 64
+
+
+def _dask_batches(tasks, n_workers, batch=None):
+    size = batch or max(1, min(DASK_BATCH, len(tasks) // (8 * max(1, n_workers))))
+    return [tasks[i:i + size] for i in range(0, len(tasks), size)]
+
+
+def _run_dask(tasks, sink, client, batch=None):
+    from .remote import results
     try:
-        futures = client.map(process_system, tasks, pure=False)
-        for fut in as_completed(futures):
-            sink(fut.result())
+        n_workers = len(client.scheduler_info().get("workers", {})) or 1
+        futures = client.map(process_batch, _dask_batches(tasks, n_workers, batch), pure=False)
+        for fut, res in results(client, futures):
+            for r in res:
+                sink(r)
             fut.release()
     finally:
-        client.close()
+        try:
+            client.close(timeout=5)             # a scheduler that is gone must not hold the exit
+        except Exception:                       # noqa: BLE001 - the run's own error is the one to report
+            pass
 
 
-def run_tasks(tasks, sink, jobs, client=None):
-    """Run every task: on Dask when ``client``, serially for one job or task, else on local processes."""
+def run_tasks(tasks, sink, jobs, client=None, batch=None):
+    """Run every task: on Dask when ``client``, serially for one job or task, else on local processes.
+
+    ``batch``: systems per worker call (None: sized from the number of tasks,
+    for short even tasks; 1 for the joint engine's long uneven ones).
+    """
     if client is not None:
-        _run_dask(tasks, sink, client)
+        _run_dask(tasks, sink, client, batch)
     elif jobs == 1 or len(tasks) <= 1:
         _run_serial(tasks, sink)
     else:
-        _run_local(tasks, sink, jobs)
+        _run_local(tasks, sink, jobs, batch)

@@ -189,7 +189,7 @@ def architecture_figure(results, preset=None, fig=None, shade_periods=None, shad
         ax.set_xlim(x0, x1)
         ax.set_ylim(-0.5, n - 0.5 + (0.12 if n <= 12 else 0.0))
         ax.set_yticks(range(n))
-        ax.set_yticklabels([d.get("system", "?") for d in docs][::-1])
+        ax.set_yticklabels([row_label(d.get("system", "?")) for d in docs][::-1])
         ax.tick_params(axis="y", which="both", length=0, right=False)
         ax.yaxis.set_minor_locator(matplotlib.ticker.NullLocator())
         log_axis_ticks(ax.xaxis, x0, x1, max_labels=7 if p.width_in > 5 else 5)
@@ -210,6 +210,20 @@ def architecture_figure(results, preset=None, fig=None, shade_periods=None, shad
             ax.plot([x0_, x1_], [ys, ys], color=st["color"], ls=st["linestyle"], lw=1.4 * p.line_width,
                     solid_capstyle="butt", zorder=3)
     return fig
+
+
+#: Longest system name drawn in full as a row label; longer names keep their start and end.
+MAX_ROW_LABEL = 24
+
+
+def row_label(name, limit=MAX_ROW_LABEL):
+    """A row label of at most ``limit`` characters ('Aaaaaaaaaa…zzzzzzzzz'), control characters escaped."""
+    from ..files import printable
+    s = printable(str(name))
+    if len(s) <= limit:
+        return s
+    head = (limit - 1) // 2 + (limit - 1) % 2
+    return s[:head] + "\u2026" + s[len(s) - (limit - 1 - head):]
 
 
 def _drop_colliding(fig, labels):
@@ -282,7 +296,7 @@ def _legend_and_margins(fig, ax, p, used, height, masses, resize, shade_label):
     axis_in = 0.36 * s                            # tick labels and the axis label
     fig.canvas.draw()
     ytl = [t.get_window_extent(renderer).width for t in ax.get_yticklabels() if t.get_text()]
-    left_in = (max(ytl) / fig.dpi if ytl else 0.2) + 0.12
+    left_in = min((max(ytl) / fig.dpi if ytl else 0.2) + 0.12, 0.45 * W)   # a long name never eats the axes
     if resize:
         height = height + leg_in
         fig.set_size_inches(W, height)

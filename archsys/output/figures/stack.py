@@ -17,7 +17,6 @@ any numeric column of a survey's ``systems.csv``.
 """
 from __future__ import annotations
 
-import json
 import math
 import pathlib
 
@@ -57,6 +56,11 @@ def _survey_documents(folder, where=()):
     systems = read_catalog(folder / "systems.csv")
     planets = read_catalog(folder / "planets.csv")
     pairs = read_catalog(folder / "pairs.csv")
+    for tab, need in ((systems, ("system",)), (planets, ("system", "planet")), (pairs, ("system", "inner", "outer"))):
+        missing = [c for c in need if c not in tab.columns]
+        if missing:
+            raise InputError(f"{folder / tab.name}: not a survey table (no column '{missing[0]}'); "
+                             f"rerun `archsys survey --out {folder}`")
     sysrow = {str(systems.cells["system"][i]): systems.row(i) for i in range(systems.n_rows)}
     extra = [c for c in systems.columns if c not in planets.columns]
     for c in extra:                        # each planet row carries its system's columns for --where
@@ -119,14 +123,15 @@ def collect_documents(sources, options=None, where=()):
             docs.append(doc)
         elif path.suffix.lower() == ".json":
             from ...model.inputfile import read_input_bytes
+            from ...limits import parse_json
+            from ..doc_check import check_document
             try:
-                data = json.loads(read_input_bytes(path, "report document").decode("utf-8"))
-            except (ValueError, UnicodeDecodeError) as exc:
+                text = read_input_bytes(path, "report document").decode("utf-8")
+            except UnicodeDecodeError as exc:
                 raise InputError(f"{path}: not a JSON report document ({exc})") from None
+            data = parse_json(text, str(path), "report document")
             for d in (data if isinstance(data, list) else [data]):
-                if not isinstance(d, dict) or "planets" not in d:
-                    raise InputError(f"{path}: not an archsys report document (no 'planets')")
-                docs.append(d)
+                docs.append(check_document(d, str(path)))
         else:
             files.append(path)
     if files:

@@ -1,0 +1,147 @@
+"""Surveys at scale: the same bytes however the work is split, bounded population fits, progress.
+
+References beside each check: the collision condition of Laskar & Petit (2017, A&A 605, A72, the
+critical AMD's defining equation) solved by plain bisection; the Gladman (1993) criterion in the
+orbital-elements form documented in archsys.physics.hill; byte-identical outputs between runs are
+common practice for reproducible pipelines.
+"""
+import io
+import math
+import pathlib
+
+import numpy as np
+import pytest
+
+from archsys.physics import amd, hill
+from archsys.survey import popfits
+from archsys.survey.run import run_survey
+from archsys.survey.store import SurveyStore
+from archsys.survey.synthetic import PopulationLaws, write_population
+
+OUTPUTS = ("systems.csv", "planets.csv", "pairs.csv", "rejects.csv", "population.json")
+
+
+def _bisect_root(alpha, gamma, n=200):
+    lo, hi = np.zeros_like(alpha), np.ones_like(alpha)
+    for _ in range(n):
+        mid = 0.5 * (lo + hi)
+        f = alpha * mid + gamma * mid / np.sqrt(alpha * (1 - mid ** 2) + gamma ** 2 * mid ** 2) - 1 + alpha
+        hi, lo = np.where(f > 0, mid, hi), np.where(f > 0, lo, mid)
+    return 0.5 * (lo + hi)
+
+
+def test_collision_root_matches_bisection_and_is_batch_invariant():
+    rng = np.random.default_rng(3)
+    alpha = rng.uniform(0.05, 0.995, 5000)
+    gamma = 10 ** rng.uniform(-4, 4, 5000)
+    e = amd._collision_root(alpha, gamma)
+    np.testing.assert_allclose(e, _bisect_root(alpha, gamma), rtol=0, atol=1e-13)
+    # each element depends on its own inputs only: alone, in other batches, in another order
+    alone = np.array([amd._collision_root(alpha[i:i + 1], gamma[i:i + 1])[0] for i in range(0, 5000, 97)])
+    assert alone.tobytes() == e[::97].tobytes()
+    perm = rng.permutation(5000)
+    assert amd._collision_root(alpha[perm], gamma[perm]).tobytes() == e[perm].tobytes()
+
+
+def test_gladman_margin_same_bytes_with_broadcast_shapes():
+    rng = np.random.default_rng(4)
+    n, k = 50, 16
+    a1, m1, m2, ms, e1 = (rng.uniform(lo, hi, (n, 1)) for lo, hi in
+                          ((0.05, 0.1), (1e-6, 1e-4), (1e-6, 1e-4), (0.8, 1.2), (0.0, 0.3)))
+    a2 = rng.uniform(0.11, 0.3, (n, k))
+    got = hill.gladman_margin(a1, a2, m1, m2, ms, e1, 0.0)
+    full = [np.broadcast_to(x, (n, k)).copy() for x in (a1, m1, m2, ms, e1)]
+    A1, M1, M2, MS, E1 = full
+    # the orbital-elements form of Gladman (1993) on full arrays (see hill.gladman_margin)
+    mu1, mu2 = M1 / MS, M2 / MS
+    mu = mu1 + mu2
+    g1, g2 = np.sqrt(1.0 - E1 ** 2), np.sqrt(1.0 - np.zeros((n, k)) ** 2)
+    d = np.sqrt(a2 / A1)
+    lhs = mu ** -3 * (mu1 + mu2 / d ** 2) * (mu1 * g1 + mu2 * g2 * d) ** 2
+    rhs = 1.0 + 3.0 ** (4.0 / 3.0) * mu1 * mu2 / mu ** (4.0 / 3.0)
+    assert got.tobytes() == (lhs / rhs - 1.0).tobytes()
+    # swapped order gives the same margins
+    assert np.array_equal(hill.gladman_margin(a2, a1, m2, m1, ms, 0.0, e1), got)
+
+
+def test_subsample_objects_is_seeded_and_states_its_effect():
+    samples = [np.full(4, float(i)) for i in range(50)]
+    lps = [np.zeros(4) for _ in range(50)]
+    same = popfits.subsample_objects(samples, lps, seed=1, max_objects=50)
+    assert same[0] is samples and same[2] is None
+    s1, l1, info = popfits.subsample_objects(samples, lps, seed=1, max_objects=20)
+    s2, _, _ = popfits.subsample_objects(samples, lps, seed=1, max_objects=20)
+    s3, _, _ = popfits.subsample_objects(samples, lps, seed=2, max_objects=20)
+    kept = [int(s[0]) for s in s1]
+    assert len(s1) == len(l1) == 20 and kept == sorted(set(kept))
+    assert kept == [int(s[0]) for s in s2] and kept != [int(s[0]) for s in s3]
+    assert info["objects_available"] == 50 and info["objects_used"] == 20
+    assert f"{math.sqrt(50 / 20):.2f}x wider" in info["effect"]
+
+
+@pytest.fixture(scope="module")
+def catalogue(tmp_path_factory):
+    path = tmp_path_factory.mktemp("cat") / "pop.csv"
+    write_population(path, 14, PopulationLaws(mean_planets=2.5, ecc_measured=1.0), seed=11)
+    return path
+
+
+def _outputs(out):
+    return {name: (out / name).read_bytes() for name in OUTPUTS}
+
+
+@pytest.mark.slow
+def test_background_fits_and_workers_give_the_same_bytes(catalogue, tmp_path, monkeypatch):
+    # every population fit runs: eccentricities of every planet, subsampled to 12 planets
+    monkeypatch.setattr(popfits, "MAX_FIT_OBJECTS", 12)
+    kw = dict(mode="fast", figures=False, quiet=True, seed=3)
+    serial = run_survey(catalogue, tmp_path / "serial", jobs=1, **kw)
+    assert serial["eccentricity_population"]["subsample"]["objects_used"] == 12
+    assert serial["eccentricity_population"]["beta"] is not None
+    run_survey(catalogue, tmp_path / "two", jobs=2, **kw)
+    assert _outputs(tmp_path / "two") == _outputs(tmp_path / "serial")
+
+
+def test_progress_from_the_first_step(catalogue, tmp_path):
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+    err = Tty()
+    run_survey(catalogue, tmp_path / "o", mode="fast", jobs=1, figures=False, quiet=False, stream=err,
+               limit=3)
+    text = err.getvalue()
+    for what in ("survey:", "population:", "files written", "peak memory"):
+        assert what in text, what
+    quiet = Tty()
+    run_survey(catalogue, tmp_path / "q", mode="fast", jobs=1, figures=False, quiet=True, stream=quiet, limit=3)
+    assert quiet.getvalue() == ""
+
+
+def test_grouped_store_writes_whole_systems_only(tmp_path):
+    store = SurveyStore(tmp_path)
+    ok = {"system": "A", "status": "rejected", "n_planets": 1, "error_kind": "input",
+          "rejects": [{"planet": "", "row": 1, "field": "", "column": "", "reason": "x"}]}
+    broken = {"system": "B", "status": "rejected", "n_planets": 1}       # no reject lines: 'rejects' missing
+    broken["rejects"] = [{"planet": ""}]                                  # a line without its reason
+    with pytest.raises(KeyError):
+        store.put_many([ok, broken])
+    assert store.count() == 0                                             # the group is one transaction
+    store.put_many([ok])
+    assert store.done() == {"A"}
+    store.close()
+
+
+OEC = pathlib.Path(__file__).parent / "data" / "oec" / "open_exoplanet_catalogue_planets.csv"
+OEC_COLUMNS = pathlib.Path(__file__).parent / "data" / "oec_columns.toml"
+
+
+@pytest.mark.slow
+def test_open_catalogue_batched_workers_equal_one_at_a_time(tmp_path):
+    # the open catalogue extract (Rein 2012, arXiv:1211.7121; tests/data/oec): one system at a time in
+    # this process against batches of systems on two worker processes with the population fits beside
+    kw = dict(columns=str(OEC_COLUMNS), where=["n_planets>=2"], limit=24, mode="fast", figures=False,
+              quiet=True, seed=9)
+    run_survey(OEC, tmp_path / "one", jobs=1, **kw)
+    run_survey(OEC, tmp_path / "batched", jobs=2, **kw)
+    assert _outputs(tmp_path / "batched") == _outputs(tmp_path / "one")
