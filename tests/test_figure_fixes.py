@@ -134,6 +134,6 @@ def test_survey_preset_option(tmp_path):
     assert SurveyOptions(preset="slide").preset == "slide"
     with pytest.raises(InputError, match="preset"):
         SurveyOptions(preset="poster")
-    from archsys.cli import build_parser
+    from archsys.cli_parser import build_parser
     args = build_parser().parse_args(["survey", "x.csv", "--out", str(tmp_path), "--preset", "two-column"])
     assert args.preset == "two-column"

@@ -3,7 +3,8 @@
 import pytest
 
 import archsys
-from archsys.cli import build_parser, main
+from archsys.cli_parser import build_parser
+from archsys.cli import main
 from archsys.errors import InputError
 from archsys.output.formats import (RenderContext, ReportFormat, format_names, registered_format, render,
                                     write_outputs)

@@ -8,6 +8,7 @@ import numpy as np
 from ..inference.summary import summarize
 from ..options import AUTO_NBODY_DRAWS
 from ..physics import instability_time, nbody, spacing
+from ..physics import nbody_runs
 from ..physics import mmr_chains
 from .common import effective_mass
 
@@ -171,7 +172,7 @@ def run_nbody(post, n_draws, options, resonances=(), laplace=(), seed=0):
         M0 = np.asarray(M0, dtype=float)[idx]
         M0 = np.where(np.isfinite(M0), M0, uniform)
     jobs = int(getattr(options, "jobs", 1) or 0) or _cores()
-    res = nbody.integrate_draws(np.asarray(d["m_star"], dtype=float)[idx], m[idx], np.asarray(d["a"])[idx],
+    res = nbody_runs.integrate_draws(np.asarray(d["m_star"], dtype=float)[idx], m[idx], np.asarray(d["a"])[idx],
                                 np.clip(np.asarray(d["ecc"], dtype=float)[idx], 0.0, 0.999), inc, omega, node, M0,
                                 n_inner_orbits=horizon, jobs=jobs, seed=seed, resonances=resonances,
                                 laplace=laplace, n_snapshots=N_SNAPSHOTS)

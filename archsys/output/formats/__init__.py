@@ -81,7 +81,8 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, co
         file name -> :class:`pathlib.Path` of every file written.
     """
     from ..figures import figure_files, make_figures
-    from ..files import atomic_write, safe_name
+    from ..files import atomic_write
+    from ..file_names import safe_name
     from ..provenance import build_provenance, provenance_json
     from ..style import get_preset
 

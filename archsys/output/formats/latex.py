@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import re
 
-from ..files import safe_name
+from ..file_names import safe_name
 from ..latex_escape import escape
 from ..references import LATEX_FALLBACK, cite_latex
 from ..table_model import document_tables, split_table
