@@ -186,6 +186,7 @@ def test_sqlite_error_inside_a_run_is_one_line(tmp_path, capsys, monkeypatch):
     def full(self, res):
         raise sqlite3.OperationalError("database or disk is full")
     monkeypatch.setattr(SurveyStore, "put", full)
+    monkeypatch.setattr(SurveyStore, "put_many", full)      # batched writes (issue 23) fail the same way
     rc, _, err = _run(["survey", str(_cat(tmp_path)), "--out", str(tmp_path / "out"), *SURVEY], capsys)
     _one_line_exit_2(rc, err, "survey store", "disk is full", "--resume")
 
@@ -863,20 +864,21 @@ def test_sigterm_during_survey_keeps_the_store_and_resume_is_identical(tmp_path,
     ref = tmp_path / "ref"
     rc, _, err = _run(["survey", str(cat), "--out", str(ref), *SURVEY], capsys)
     assert rc == 0, err
-    real, calls = SurveyStore.put, []
+    real, calls = SurveyStore.put_many, []
 
-    def put_then_term(self, res):
-        real(self, res)
-        calls.append(res["system"])
-        if len(calls) == 2:
+    def put_then_term(self, results):
+        results = list(results)
+        real(self, results)
+        calls.extend(r["system"] for r in results)
+        if len(calls) >= 2:
             os.kill(os.getpid(), signal.SIGTERM)
             time.sleep(1.0)
-    monkeypatch.setattr(SurveyStore, "put", put_then_term)
+    monkeypatch.setattr(SurveyStore, "put_many", put_then_term)
     out = tmp_path / "out"
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY], capsys)
     assert rc == 143 and err.strip() == "archsys: terminated", err
     assert sorted(p.name for p in out.iterdir() if not p.name.startswith("survey.sqlite")) == []
-    monkeypatch.setattr(SurveyStore, "put", real)
+    monkeypatch.setattr(SurveyStore, "put_many", real)
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY, "--resume"], capsys)
     assert rc == 0, err
     for f in ("systems.csv", "planets.csv", "pairs.csv", "rejects.csv", "population.json"):
