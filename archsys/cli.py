@@ -318,6 +318,7 @@ def _cmd_cite(args):
         docs += d if isinstance(d, list) else [d]
     out = [render_bib(d) if args.bib else render_citations(d) for d in docs]
     _write_stdout("\n".join(out))
+    return 0
 
 
 def _cmd_simulate(args):
