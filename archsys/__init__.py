@@ -14,11 +14,10 @@ Python API (see the README's "Python API" section)::
 Internal units everywhere inside the physics kernels: day, M_sun, au, rad, m/s.
 Public functions in :mod:`archsys.physics.kepler` take astropy Quantities.
 """
-__version__ = "0.2.0"
-
 from .errors import InputError  # noqa: E402
 from .demos import demo_path  # noqa: E402
 from .model.reader import read_system  # noqa: E402
+from .version import __version__  # noqa: E402
 
 __all__ = ["InputError", "read_system", "analyze", "AnalysisOptions", "planet_table", "pair_table",
            "posterior_draws", "corner_plot", "render", "write_outputs", "demo_path", "__version__"]

@@ -6,6 +6,8 @@ prints that line to stderr and exits with status 2 (no traceback unless
 ``--debug``).
 """
 
+__all__ = ["InputError", "ConvergenceWarning"]
+
 
 class InputError(ValueError):
     """A problem with user input, reported as one clear line."""

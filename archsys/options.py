@@ -115,7 +115,7 @@ def check_prior(opt, name, quantity):
 
     Returns the loaded prior.  Every failure is one InputError line naming the option.
     """
-    from .inference.priors import load_prior
+    from .inference.prior_files import load_prior
     label = _name(opt)
     if not isinstance(name, (str, os.PathLike)) or not str(name).strip():
         raise InputError(f"{label}: expected a prior name or a .toml file; got {name!r:.40}", field=opt)

@@ -11,7 +11,7 @@ import numpy as np
 
 from .inference.draws import direct_draws
 from .inference.posterior import Posterior
-from .options import AnalysisOptions, Mode
+from .options import AnalysisOptions
 from .output.json_document import build_document
 
 __all__ = ["AnalysisOptions", "Analysis", "analyze"]
@@ -27,11 +27,11 @@ class Analysis:
 
 
 def _posterior(system, opts: AnalysisOptions) -> Posterior:
-    from .inference import route
+    from .inference.joint import sample_joint
+    from .inference.route import choose_path
     # "fast" trades depth for speed in large surveys: direct draws only, never the joint engine
-    if opts.uses_mcmc:
-        if opts.mode is Mode.MCMC or route.needs_mcmc(system, opts):
-            return route.sample_system(system, opts)
+    if opts.uses_mcmc and choose_path(system, opts).joint:
+        return sample_joint(system, opts)
     return direct_draws(system, n=opts.n_draws, seed=opts.seed)
 
 
@@ -61,7 +61,7 @@ def _condition_on_survival(post, opts: AnalysisOptions) -> Posterior:
     from .errors import InputError
     from .options import AUTO_NBODY_DRAWS
     from .physics import nbody
-    from .scores.dynamics import run_nbody
+    from .scores.dynamics_assess import run_nbody
     if post.system.n_planets < 2:
         return post
     if not nbody.nbody_available():

@@ -25,6 +25,8 @@ if __package__ in (None, ""):             # python benchmarks/nbody.py: make the
     sys.path.insert(0, str(pathlib.Path(__file__).resolve().parents[1]))
 
 from archsys.physics import kepler, nbody  # noqa: E402
+from archsys.physics import nbody_runs
+from archsys.physics import nbody_setup
 from archsys.physics.constants import GM_SUN, MEARTH_MSUN, TWO_PI  # noqa: E402
 
 PERIODS = np.array([1.51, 2.42, 4.05, 6.10, 9.21, 12.35, 18.77])
@@ -82,19 +84,19 @@ def main(argv=None):
     ap.add_argument("--jobs", type=int, default=2)
     ap.add_argument("--no-bare", action="store_true", help="skip the bare rebound loop")
     ap.add_argument("--steps", type=int, default=nbody.STEPS_PER_ORBIT, help="WHFast steps per inner orbit")
-    ap.add_argument("--corrector", type=int, default=nbody.WHFAST_CORRECTOR, help="WHFast corrector order")
-    ap.add_argument("--megno", default=nbody.MEGNO_METHOD, choices=["shadow", "variational"])
+    ap.add_argument("--corrector", type=int, default=nbody_setup.WHFAST_CORRECTOR, help="WHFast corrector order")
+    ap.add_argument("--megno", default=nbody_setup.MEGNO_METHOD, choices=["shadow", "variational"])
     args = ap.parse_args(argv)
     d = draws(args.draws)
     # start the persistent pool outside the timing (it is reused across calls in a session)
-    nbody.integrate_draws(**{k: (v[:1] if k != "m_star" else v) for k, v in d.items()}, n_inner_orbits=1,
+    nbody_runs.integrate_draws(**{k: (v[:1] if k != "m_star" else v) for k, v in d.items()}, n_inner_orbits=1,
                           jobs=args.jobs)
     t0 = time.perf_counter()
-    res = nbody.integrate_draws(**d, n_inner_orbits=args.orbits, jobs=args.jobs, seed=1,
+    res = nbody_runs.integrate_draws(**d, n_inner_orbits=args.orbits, jobs=args.jobs, seed=1,
                                 resonances=RESONANCES, laplace=LAPLACE, steps_per_orbit=args.steps,
                                 corrector=args.corrector, megno=args.megno)
     t_ours = time.perf_counter() - t0
-    h = nbody.horizon_summary(args.orbits, PERIODS)
+    h = nbody_setup.horizon_summary(args.orbits, PERIODS)
     print(f"system: seven-planet chain, {args.draws} draws, {args.orbits:.0f} inner orbits "
           f"({h['outer_orbits']:.0f} outer orbits, {h['years']:.1f} yr), {args.jobs} processes; "
           f"MEGNO {args.megno}, {args.steps} steps per inner orbit, corrector {args.corrector}")
@@ -111,7 +113,7 @@ def main(argv=None):
         t_bare = time.perf_counter() - t0
         print(f"bare_rebound_seconds {t_bare:.2f}")
         print(f"nbody_integrate_vs_bare_rebound {t_ours / t_bare:.2f}  (time ratio; < 1 is faster than the bare loop)")
-    nbody.shutdown_pool()
+    nbody_runs.shutdown_pool()
 
 
 if __name__ == "__main__":

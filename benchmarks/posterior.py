@@ -39,7 +39,7 @@ def neff(post):
 
 def bench_posterior():
     import archsys
-    from archsys.inference.route import sample_system
+    from archsys.inference.joint import sample_joint as sample_system
     path = archsys.demo_path("velmora")
     s = archsys.read_system(path)
     opts = archsys.AnalysisOptions(seed=0, quiet=True)

@@ -18,7 +18,7 @@ from archsys.cli import main
 from archsys.inference import joint
 from archsys.inference.dataprior import measure, width_ratio
 from archsys.inference.orient_proposal import pareto_khat
-from archsys.inference.priors import load_prior
+from archsys.inference.prior_files import load_prior
 from archsys.inference.usability import USABLE_ESS, assess, required_ess
 from archsys.model.reader import build_system, read_system
 from archsys.output.formats import render

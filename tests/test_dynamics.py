@@ -9,7 +9,8 @@ import numpy as np
 import pytest
 
 from archsys.model.reader import build_system, read_system
-from archsys.physics import instability_time, spacing
+from archsys.physics import instability_time
+from archsys.physics import mmr_chains
 from archsys.physics.constants import MEARTH_MSUN
 from archsys.pipeline import AnalysisOptions, analyze
 from archsys.scores.common import effective_mass
@@ -161,11 +162,11 @@ def test_instability_time_against_independent_integration_of_equal_spacing():
 def test_laplace_relations_of_the_galilean_satellites_and_a_seven_planet_chain():
     # Io, Europa, Ganymede (handbook periods 1.769, 3.551, 7.155 d): n1 - 3 n2 + 2 n3 = 0, the Laplace
     # relation (Murray & Dermott 1999, ch. 8).
-    rel = spacing.laplace_relations([1.769138, 3.551181, 7.154553])
+    rel = mmr_chains.laplace_relations([1.769138, 3.551181, 7.154553])
     assert [(r["p"], r["q"]) for r in rel] == [(1, 2)]
     # TRAPPIST-1 (periods of Agol et al. 2021, from memory): the relations (p, q) = (2, 3), (1, 2),
     # (2, 3), (1, 2), (1, 1) of Luger et al. 2017 (from memory).
-    rel = spacing.laplace_relations([1.51088, 2.42180, 4.04978, 6.09963, 9.20668, 12.35294, 18.7729])
+    rel = mmr_chains.laplace_relations([1.51088, 2.42180, 4.04978, 6.09963, 9.20668, 12.35294, 18.7729])
     assert [(r["p"], r["q"]) for r in rel] == [(2, 3), (1, 2), (2, 3), (1, 2), (1, 1)]
 
 

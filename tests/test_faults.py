@@ -251,7 +251,7 @@ def test_colliding_planet_names_get_distinct_corner_plots(tmp_path, capsys):
 
 
 def test_colliding_planet_stems_in_corner_plots(tmp_path, capsys):
-    from archsys.output.files import unique_stems
+    from archsys.output.file_names import unique_stems
     stems, renamed = unique_stems(["b/1", "b_1"], fallback="planet", reserved=("system",))
     assert stems[1] == "b_1" and stems[0].startswith("b_1-") and renamed == [("b/1", stems[0])]
     stems, _ = unique_stems(["\U0001F600", "\U0001F601"], fallback="planet", reserved=("system",))

@@ -110,7 +110,7 @@ def test_mass_radius_masses_drawn_as_estimates():
 
 
 def test_sigma_density_not_drawn_below_the_prior_support():
-    from archsys.inference.priors import load_prior
+    from archsys.inference.prior_files import load_prior
     from archsys.output.figures import CornerParam, corner_figure
     prior = load_prior("incl-loguniform")                       # support 0.1-60 deg
     rng = np.random.default_rng(4)
@@ -134,6 +134,6 @@ def test_survey_preset_option(tmp_path):
     assert SurveyOptions(preset="slide").preset == "slide"
     with pytest.raises(InputError, match="preset"):
         SurveyOptions(preset="poster")
-    from archsys.cli import build_parser
+    from archsys.cli_parser import build_parser
     args = build_parser().parse_args(["survey", "x.csv", "--out", str(tmp_path), "--preset", "two-column"])
     assert args.preset == "two-column"

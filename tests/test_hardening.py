@@ -590,7 +590,7 @@ def test_nfc_and_nfd_spellings_are_one_system_with_a_note(tmp_path, capsys):
 
 
 def test_output_names_independent_of_argument_order():
-    from archsys.output.files import unique_stems
+    from archsys.output.file_names import unique_stems
     names = ["vela", "Vela", "VELA", "Col/X", "Col_X"]
     want = dict(zip(names, unique_stems(names)[0]))
     for k in range(len(names)):                                # every rotation of the arguments
@@ -599,7 +599,7 @@ def test_output_names_independent_of_argument_order():
     assert want["VELA"] == "VELA" and want["Col_X"] == "Col_X"         # first in code-point order keeps it
     assert want["Vela"].startswith("Vela-") and want["vela"].startswith("vela-")
     assert want["Col/X"].startswith("Col_X-")
-    # the report's file stems are these (cli._write_report_files: unique_stems of the system names;
+    # the report's file stems are these (cli_commands._write_report_files: unique_stems of the system names;
     # test_faults.test_colliding_system_stems_are_unique_and_said runs the CLI in both orders)
 
 

@@ -53,7 +53,7 @@ def test_coplanar_orbits_tilted_together_have_zero_amd_inclination():
 
 
 def test_handbook_solar_system_amd_beta_uses_invariable_plane():
-    # REFERENCES (derived from LP17 C_c with Table 1 e and invariable-plane inclinations): beta = 112, 64,
+    # [Standish1992] derived values of docs/references.md (from LP17 C_c with Table 1 e and invariable-plane inclinations): beta = 112, 64,
     # 187 for Mercury-Venus, Venus-Earth, Earth-Mars; the whole system is AMD-unstable (Laskar & Petit
     # 2017 say so qualitatively -- from memory).  Exact elements: every draw has one value, no spread.
     doc = analyze(_handbook_system(), AnalysisOptions(n_draws=400, seed=5, quiet=True, nbody=0)).document

@@ -322,7 +322,7 @@ def test_orientation_coverage_on_the_mcmc_path():
 
 
 def test_crossing_orbits_in_every_draw_are_refused_naming_the_pair():
-    # Open catalogue (../shared/data): GJ 1061 lists e = 0.31, 0.29, 0.53 without errors (upper limits in
+    # Open catalogue (tests/data/oec): GJ 1061 lists e = 0.31, 0.29, 0.53 without errors (upper limits in
     # the discovery paper, from memory); read as exact values the orbits of b and c cross in every draw
     # (a_c / a_b = (6.689 / 3.204)^(2/3) = 1.634 and 1.31 > 1.634 x 0.71 = 1.16, hand calculation).
     from archsys.errors import InputError

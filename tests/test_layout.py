@@ -44,10 +44,22 @@ def _panels(fig):
     return [ax for ax in fig.axes if ax.get_frame_on()]
 
 
+class _LazySets(dict):
+    """Figures of one preset drawn on first use, so xdist workers share the presets out."""
+
+    def __init__(self, velmora):
+        super().__init__()
+        self._velmora = velmora
+
+    def __missing__(self, preset):
+        draws, doc = self._velmora
+        self[preset] = F.make_figures(draws, doc, preset=preset)
+        return self[preset]
+
+
 @pytest.fixture(scope="module")
 def figure_sets(velmora):
-    draws, doc = velmora
-    return {p: F.make_figures(draws, doc, preset=p) for p in PRESET_NAMES}
+    return _LazySets(velmora)
 
 
 @pytest.mark.parametrize("preset", PRESET_NAMES)

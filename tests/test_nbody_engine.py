@@ -1,4 +1,4 @@
-"""archsys.physics.nbody.integrate_draws: survival, chaos, resonances, horizon, budget.
+"""archsys.physics.nbody_runs.integrate_draws: survival, chaos, resonances, horizon, budget.
 
 Outside references: independent rebound set-ups written here ([ReinLiu2012]; IAS15, Rein & Spiegel
 2015), [Gladman1993] (two-planet Hill stability), [Chambers1996] and [Obertas2017] (instability times of
@@ -12,7 +12,9 @@ import pytest
 
 rebound = pytest.importorskip("rebound")
 
-from archsys.physics import kepler, nbody  # noqa: E402
+from archsys.physics import kepler
+from archsys.physics import nbody_runs
+from archsys.physics import nbody_setup
 from archsys.physics.constants import GM_SUN, MEARTH_MSUN, MJUP_MSUN, TWO_PI  # noqa: E402
 
 
@@ -30,7 +32,7 @@ def test_libration_test_synthetic_signals():
     fast = TWO_PI * t / 1.37                                                           # aliased circulation
     slow = TWO_PI * t / 400.0 + 0.3 * np.sin(TWO_PI * t / 9.0)                         # 2.5 slow turns
     part = 1.2 * np.pi * t / 1000.0                                              # 0.6 turn: confined, drifting
-    ok, amp, centre = nbody.libration_test(np.stack([lib, lib_pi, fast, slow, part]), t)
+    ok, amp, centre = nbody_setup.libration_test(np.stack([lib, lib_pi, fast, slow, part]), t)
     assert ok.tolist() == [True, True, False, False, False]
     assert amp[0] == pytest.approx(0.6, abs=0.15) and amp[1] == pytest.approx(2.0, abs=0.1)
     assert min(centre[0], TWO_PI - centre[0]) < 0.1 and centre[1] == pytest.approx(np.pi, abs=0.1)
@@ -54,14 +56,14 @@ def _gj876_like(ratio, n, rng):
 
 def test_gj876_like_pair_librates_and_survives_off_resonance_circulates():
     rng = np.random.default_rng(1)
-    res = nbody.integrate_draws(**_gj876_like(2.03, 2, rng), n_inner_orbits=2000, seed=1,
+    res = nbody_runs.integrate_draws(**_gj876_like(2.03, 2, rng), n_inner_orbits=2000, seed=1,
                                 resonances=[(0, 1, 1, 1)])
     spec = (0, 1, 1, 1)
     assert res.survived.all() and not res.chaotic.any() and not res.crossing.any()
     assert res.librating[spec].all()
     assert np.all(res.libration_amplitude[spec] < 1.5)
     assert np.all(res.energy_error < 1e-3)
-    off = nbody.integrate_draws(**_gj876_like(2.3, 2, rng), n_inner_orbits=2000, seed=1,
+    off = nbody_runs.integrate_draws(**_gj876_like(2.3, 2, rng), n_inner_orbits=2000, seed=1,
                                 resonances=[spec])
     assert not off.librating[spec].any() and np.isnan(off.libration_amplitude[spec]).all()
 
@@ -73,7 +75,7 @@ def test_wide_pair_is_regular():
     shape = (3, 2)
     P = np.array([10.0, 27.0])
     a = kepler.a_au(P, 1.0)
-    res = nbody.integrate_draws(1.0, np.full(shape, MEARTH_MSUN), np.broadcast_to(a, shape),
+    res = nbody_runs.integrate_draws(1.0, np.full(shape, MEARTH_MSUN), np.broadcast_to(a, shape),
                                 rng.uniform(0, 0.02, shape), np.full(shape, np.pi / 2), rng.uniform(0, TWO_PI, shape),
                                 np.zeros(shape), rng.uniform(0, TWO_PI, shape), n_inner_orbits=3000, seed=4)
     assert res.survived.all() and not res.chaotic.any() and not res.encounter.any()
@@ -90,7 +92,7 @@ def test_encounter_distance_matches_an_independent_integration():
     k = 0.5 * 2.0 * np.cbrt(2 * mu / 3)
     a = np.array([1.0, (1 + k) / (1 - k)])
     M0 = np.array([0.0, 2.0])
-    res = nbody.integrate_draws(1.0, [[mu, mu]], [a], [[0.0, 0.0]], [[0.0, 0.0]], [[0.0, 0.0]], [[0.0, 0.0]],
+    res = nbody_runs.integrate_draws(1.0, [[mu, mu]], [a], [[0.0, 0.0]], [[0.0, 0.0]], [[0.0, 0.0]], [[0.0, 0.0]],
                                 [M0], n_inner_orbits=200, seed=0, megno=False)
     assert res.encounter[0] and not res.survived[0]
     t_stop = res.t_stop_inner_orbits[0] * TWO_PI * math.sqrt(1.0 / (GM_SUN * (1 + mu)))
@@ -117,8 +119,8 @@ def test_encounter_distance_matches_an_independent_integration():
 def test_results_do_not_depend_on_jobs_and_are_seeded():
     rng = np.random.default_rng(3)
     args = _gj876_like(2.2, 3, rng)
-    one = nbody.integrate_draws(**args, n_inner_orbits=300, seed=5, resonances=[(0, 1, 1, 1)], n_snapshots=40)
-    two = nbody.integrate_draws(**args, n_inner_orbits=300, seed=5, resonances=[(0, 1, 1, 1)], n_snapshots=40,
+    one = nbody_runs.integrate_draws(**args, n_inner_orbits=300, seed=5, resonances=[(0, 1, 1, 1)], n_snapshots=40)
+    two = nbody_runs.integrate_draws(**args, n_inner_orbits=300, seed=5, resonances=[(0, 1, 1, 1)], n_snapshots=40,
                                 jobs=2)
     for f in ("megno", "chaotic", "encounter", "survived", "t_stop_inner_orbits", "energy_error", "crossing"):
         np.testing.assert_array_equal(getattr(one, f), getattr(two, f))
@@ -127,7 +129,7 @@ def test_results_do_not_depend_on_jobs_and_are_seeded():
 
 def test_time_budget_leaves_draws_out_and_says_so():
     rng = np.random.default_rng(4)
-    res = nbody.integrate_draws(**_gj876_like(2.03, 6, rng), n_inner_orbits=2e5, seed=1, time_budget=0.5,
+    res = nbody_runs.integrate_draws(**_gj876_like(2.03, 6, rng), n_inner_orbits=2e5, seed=1, time_budget=0.5,
                                 n_snapshots=50)
     assert res.truncated and res.n_draws_integrated < 6
     assert not res.survived[~res.completed].any()
@@ -139,15 +141,15 @@ def test_energy_switch_to_ias15():
     rng = np.random.default_rng(5)
     args = _gj876_like(2.5, 1, rng)
     args["e"] = np.array([[0.6, 0.0]])
-    res = nbody.integrate_draws(**args, n_inner_orbits=50, seed=1, steps_per_orbit=3, n_snapshots=20)
+    res = nbody_runs.integrate_draws(**args, n_inner_orbits=50, seed=1, steps_per_orbit=3, n_snapshots=20)
     assert res.integrator[0] == "whfast+ias15" and np.isfinite(res.energy_error[0])
 
 
 def test_horizon():
     # >= 1e4 inner orbits and >= 100 outer orbits (module documentation)
-    assert nbody.default_horizon([1.51, 2.42, 4.05, 6.10, 9.21, 12.35, 18.77]) == 1e4
-    assert nbody.default_horizon([[10.0, 3000.0], [10.0, 5000.0]]) == pytest.approx(100 * 400)
-    h = nbody.horizon_summary(1e4, [1.5, 15.0])
+    assert nbody_setup.default_horizon([1.51, 2.42, 4.05, 6.10, 9.21, 12.35, 18.77]) == 1e4
+    assert nbody_setup.default_horizon([[10.0, 3000.0], [10.0, 5000.0]]) == pytest.approx(100 * 400)
+    h = nbody_setup.horizon_summary(1e4, [1.5, 15.0])
     assert h["outer_orbits"] == pytest.approx(1e3) and h["years"] == pytest.approx(1.5e4 / 365.25)
 
 
@@ -159,7 +161,7 @@ def test_bad_arguments(kw, match):
     args = dict(n_inner_orbits=10)
     args.update(kw)
     with pytest.raises(ValueError, match=match):
-        nbody.integrate_draws(1.0, [[1e-5, 1e-5]], [[1.0, 2.0]], [[0.0, 0.0]], [[0.0, 0.0]], [[0.0, 0.0]],
+        nbody_runs.integrate_draws(1.0, [[1e-5, 1e-5]], [[1.0, 2.0]], [[0.0, 0.0]], [[0.0, 0.0]], [[0.0, 0.0]],
                               [[0.0, 0.0]], [[0.0, 0.0]], **args)
 
 
@@ -180,7 +182,7 @@ def _chain(n, rng):
 @pytest.mark.slow
 def test_seven_planet_chain_with_random_phases_is_mostly_chaotic():
     # issue 18: independent integrations found 0 of 30 draws regular (MEGNO 3-15) at 2e4 inner orbits
-    res = nbody.integrate_draws(**_chain(6, np.random.default_rng(6)), n_inner_orbits=1e4, seed=3, jobs=2)
+    res = nbody_runs.integrate_draws(**_chain(6, np.random.default_rng(6)), n_inner_orbits=1e4, seed=3, jobs=2)
     assert res.chaotic.mean() >= 0.5
     assert np.all(res.energy_error < 1e-4)
 
@@ -195,7 +197,7 @@ def test_four_planets_at_five_hill_radii_have_encounters():
     a = 0.1 * ((1 + k) / (1 - k)) ** np.arange(4)
     n = 6
     shape = (n, 4)
-    res = nbody.integrate_draws(1.0, np.full(shape, mu), np.broadcast_to(a, shape), np.zeros(shape),
+    res = nbody_runs.integrate_draws(1.0, np.full(shape, mu), np.broadcast_to(a, shape), np.zeros(shape),
                                 np.full(shape, np.pi / 2), np.zeros(shape), np.zeros(shape),
                                 rng.uniform(0, TWO_PI, shape), n_inner_orbits=2e4, seed=8, jobs=2, megno=False)
     assert (~res.survived).mean() >= 0.5
@@ -222,7 +224,7 @@ def test_posterior_with_phases_to_a_librating_gj876_like_pair():
     el, info = initial_conditions(post, 3)
     assert info["uniform_phases"] == [] and info["epoch"] == 2450602.093 and el["M0"].shape == (3, 2)
     assert info["mass_basis"] == {"c": "minimum (m sin i)", "b": "minimum (m sin i)"}
-    res = nbody.integrate_draws(**el, n_inner_orbits=2000, seed=3, resonances=[(0, 1, 1, 1)])
+    res = nbody_runs.integrate_draws(**el, n_inner_orbits=2000, seed=3, resonances=[(0, 1, 1, 1)])
     assert res.survived.all() and res.librating[(0, 1, 1, 1)].all()
 
 
@@ -242,12 +244,12 @@ def test_gj876_like_laplace_angle_librates():
     args = dict(m=[m], a=[a], e=[[0.256, 0.032, 0.055]], inc=[[np.pi / 2] * 3], omega=[omega],
                 Omega=[[0.0] * 3], M0=[M0])
     spec = (0, 1, 2, 1, -3, 2)
-    res = nbody.integrate_draws(ms, **args, n_inner_orbits=3000, seed=1, laplace=[spec], resonances=[(0, 1, 1, 1)])
+    res = nbody_runs.integrate_draws(ms, **args, n_inner_orbits=3000, seed=1, laplace=[spec], resonances=[(0, 1, 1, 1)])
     assert res.survived[0] and res.laplace_librating[spec][0] and res.librating[(0, 1, 1, 1)][0]
     assert res.laplace_amplitude[spec][0] < 1.5
     lam[2] += 0.5 * np.pi
     args["M0"] = [np.mod(lam - omega, TWO_PI)]
-    off = nbody.integrate_draws(ms, **args, n_inner_orbits=3000, seed=1, laplace=[spec])
+    off = nbody_runs.integrate_draws(ms, **args, n_inner_orbits=3000, seed=1, laplace=[spec])
     assert not off.laplace_librating[spec][0]
 
 
@@ -264,8 +266,8 @@ def test_shadow_megno_agrees_with_rebound_variational_megno():
     a = 0.1 * ((1 + k) / (1 - k)) ** np.arange(3)
     args = dict(m=np.full((n, 3), mu), a=a, e=rng.uniform(0, 0.05, (n, 3)), inc=np.full((n, 3), np.pi / 2),
                 omega=rng.uniform(0, TWO_PI, (n, 3)), Omega=np.zeros((n, 3)), M0=rng.uniform(0, TWO_PI, (n, 3)))
-    var = nbody.integrate_draws(1.0, **args, n_inner_orbits=1500, seed=1, megno="variational", megno_drop=1e9)
-    sha = nbody.integrate_draws(1.0, **args, n_inner_orbits=1500, seed=1, megno="shadow", megno_drop=1e9)
+    var = nbody_runs.integrate_draws(1.0, **args, n_inner_orbits=1500, seed=1, megno="variational", megno_drop=1e9)
+    sha = nbody_runs.integrate_draws(1.0, **args, n_inner_orbits=1500, seed=1, megno="shadow", megno_drop=1e9)
     np.testing.assert_array_equal(var.chaotic, sha.chaotic)
     regular = ~var.chaotic
     assert regular.any() and var.chaotic.any()

@@ -22,14 +22,14 @@ CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 def outputs(tmp_path_factory):
     """Every report format of the invented demo system Korrin, written by ``write_outputs``."""
     import archsys
-    from archsys.output.formats import FORMATS, render, write_outputs
+    from archsys.output.formats import format_names, render, write_outputs
     from archsys.pipeline import AnalysisOptions, analyze
     out = tmp_path_factory.mktemp("paper")
     res = analyze(archsys.read_system(ROOT / "demo_systems" / "korrin.toml"),
                   AnalysisOptions(mode="direct", n_draws=600, quiet=True))
     write_outputs(res, out_dir=out)
     extra = {}
-    for fmt in FORMATS:                       # every LaTeX-like format the renderer offers (plain, AASTeX, ...)
+    for fmt in format_names():                       # every LaTeX-like format the renderer offers (plain, AASTeX, ...)
         if "latex" in fmt or "aastex" in fmt or "deluxe" in fmt:
             extra[fmt] = render(res, fmt)
     return out, extra

@@ -1,4 +1,4 @@
-"""Tests for archsys.inference.priors: bundled files, densities, sampling, errors.
+"""Tests for archsys.inference.priors and prior_files: bundled files, densities, sampling, errors.
 
 Sources: Kipping 2013 (MNRAS 434, L51); Van Eylen & Albrecht 2015 (ApJ 808,
 126); Van Eylen et al. 2019 (AJ 157, 61); Fang & Margot 2012 (ApJ 761, 92);
@@ -15,6 +15,7 @@ import pytest
 from scipy import integrate, stats
 
 from archsys.errors import InputError
+from archsys.inference import prior_files as PF
 from archsys.inference import priors as P
 
 PRIOR_DIR = pathlib.Path(__file__).resolve().parents[1] / "priors"
@@ -47,7 +48,7 @@ from_memory = false
 
 # ---- bundled files ----------------------------------------------------------
 def test_bundled_ids_and_sorting():
-    got = P.list_priors()
+    got = PF.list_priors()
     assert {p.name for p in got} == EXPECTED_IDS
     keys = [(p.quantity, p.name) for p in got]
     assert keys == sorted(keys)
@@ -55,7 +56,7 @@ def test_bundled_ids_and_sorting():
 
 @pytest.mark.parametrize("name", ALL)
 def test_each_bundled_file_loads_with_provenance(name):
-    prior = P.load_prior(name)
+    prior = PF.load_prior(name)
     assert prior.name == name == pathlib.Path(prior.path).stem
     assert prior.quantity in P.QUANTITIES and prior.family in P.FAMILIES
     assert prior.citation.strip()
@@ -64,37 +65,37 @@ def test_each_bundled_file_loads_with_provenance(name):
     text = (PRIOR_DIR / f"{name}.toml").read_text()
     assert "citation =" in text and "from_memory =" in text
     # also loadable by path, giving the same prior
-    assert P.load_prior(PRIOR_DIR / f"{name}.toml").parameters == prior.parameters
+    assert PF.load_prior(PRIOR_DIR / f"{name}.toml").parameters == prior.parameters
 
 
 def test_from_memory_flags_follow_references():
     # [Kipping2013], [FangMargot2012]: Kipping 2013 short/long splits and Fang & Margot 2012 sigma
     # are from memory; the others verified (or common practice).
-    flagged = {p.name for p in P.list_priors() if p.from_memory}
+    flagged = {p.name for p in PF.list_priors() if p.from_memory}
     assert flagged == {"ecc-kipping2013-short", "ecc-kipping2013-long", "incl-fangmargot2012"}
 
 
 def test_published_values_in_files():
     # Kipping 2013: Beta(0.867 +- 0.044, 3.03 +0.17/-0.16) (verified)
-    k = P.load_prior("ecc-kipping2013-rv")
+    k = PF.load_prior("ecc-kipping2013-rv")
     assert (k.family, k.parameters["alpha"], k.parameters["beta"]) == ("beta", 0.867, 3.03)
     assert k.uncertainty["beta"]["err_minus"] == 0.16
     # Kipping 2013 split at P = 382.3 d (from memory)
-    assert P.load_prior("ecc-kipping2013-short").applies["period_max_days"] == 382.3
-    assert P.load_prior("ecc-kipping2013-long").applies["period_min_days"] == 382.3
+    assert PF.load_prior("ecc-kipping2013-short").applies["period_max_days"] == 382.3
+    assert PF.load_prior("ecc-kipping2013-long").applies["period_min_days"] == 382.3
     # Van Eylen et al. 2019: half-Gaussian 0.083 (multis), 0.32 (singles) (verified)
-    assert P.load_prior("ecc-vaneylen2019-multis").family == "halfnormal"
-    assert P.load_prior("ecc-vaneylen2019-multis").parameters["sigma"] == 0.083
-    assert P.load_prior("ecc-vaneylen2019-singles").parameters["sigma"] == 0.32
+    assert PF.load_prior("ecc-vaneylen2019-multis").family == "halfnormal"
+    assert PF.load_prior("ecc-vaneylen2019-multis").parameters["sigma"] == 0.083
+    assert PF.load_prior("ecc-vaneylen2019-singles").parameters["sigma"] == 0.32
     # Van Eylen & Albrecht 2015: Rayleigh 0.049 (verified)
-    ve15 = P.load_prior("ecc-vaneylen2015-multis")
+    ve15 = PF.load_prior("ecc-vaneylen2015-multis")
     assert (ve15.family, ve15.parameters["sigma"]) == ("rayleigh", 0.049)
 
 
 # ---- moments against published / derived numbers ------------------------------
 def test_kipping2013_mean_and_median():
     # [Kipping2013] (derived from Kipping 2013): mean alpha/(alpha+beta) = 0.2225, median 0.173
-    k = P.load_prior("ecc-kipping2013-rv")
+    k = PF.load_prior("ecc-kipping2013-rv")
     assert k.mean() == pytest.approx(0.867 / (0.867 + 3.03), rel=1e-12)
     assert k.mean() == pytest.approx(0.2225, abs=5e-5)
     assert k.median() == pytest.approx(0.173, abs=5e-4)
@@ -102,8 +103,8 @@ def test_kipping2013_mean_and_median():
 
 def test_kipping2013_split_means():
     # [Kipping2013] (derived, inputs from memory): short mean 0.176, long mean 0.266
-    assert P.load_prior("ecc-kipping2013-short").mean() == pytest.approx(0.176, abs=5e-4)
-    assert P.load_prior("ecc-kipping2013-long").mean() == pytest.approx(0.266, abs=5e-4)
+    assert PF.load_prior("ecc-kipping2013-short").mean() == pytest.approx(0.176, abs=5e-4)
+    assert PF.load_prior("ecc-kipping2013-long").mean() == pytest.approx(0.266, abs=5e-4)
 
 
 def test_halfnormal_vs_rayleigh_identities():
@@ -123,7 +124,7 @@ def test_vaneylen2019_singles_truncated_at_e_one():
     # Truncation at e = 1 removes 2*(1 - Phi(1/0.32)) = 0.18 % of the half-normal mass, so the
     # mean falls slightly below the untruncated 0.255 ([VanEylen2019]).  Reference: scipy truncnorm.
     s = 0.32
-    ve = P.load_prior("ecc-vaneylen2019-singles")
+    ve = PF.load_prior("ecc-vaneylen2019-singles")
     ref = stats.truncnorm(0.0, 1.0 / s, scale=s)
     assert ve.mean() == pytest.approx(ref.mean(), rel=1e-7)
     assert 0.2530 < ve.mean() < 0.2553
@@ -134,7 +135,7 @@ def test_vaneylen2019_singles_truncated_at_e_one():
 @pytest.mark.parametrize("name", ALL)
 def test_logpdf_integrates_to_one(name):
     # scipy.integrate.quad as the reference; breakpoints at the bulk of the mass
-    prior = P.load_prior(name)
+    prior = PF.load_prior(name)
     lo, hi = prior._bounds
     hi = min(hi, float(prior.ppf(1 - 1e-13)))
     inner = [float(prior.ppf(q)) for q in (0.01, 0.5, 0.99)]
@@ -145,7 +146,7 @@ def test_logpdf_integrates_to_one(name):
 
 @pytest.mark.parametrize("name", [n for n in ALL if n.startswith("ecc-")])
 def test_eccentricity_support(name):
-    prior = P.load_prior(name)
+    prior = PF.load_prior(name)
     e = np.array([-0.1, 0.3, 0.999, 1.0, 1.5, np.nan])
     out = prior.logpdf_e(e)
     assert out.shape == e.shape
@@ -157,21 +158,21 @@ def test_logpdf_matches_scipy_and_vectorises():
     # reference: scipy.stats densities; untruncated inside the support
     rng = np.random.default_rng(1)
     e = rng.uniform(0.001, 0.999, size=(50, 3))  # (n_draws, n_planets)
-    k = P.load_prior("ecc-kipping2013-rv")
+    k = PF.load_prior("ecc-kipping2013-rv")
     np.testing.assert_allclose(k.logpdf(e), stats.beta(0.867, 3.03).logpdf(e), rtol=1e-12)
     s = np.array([0.05, 0.5, 5.0, 59.0])
-    np.testing.assert_allclose(P.load_prior("incl-loguniform").logpdf(s),
+    np.testing.assert_allclose(PF.load_prior("incl-loguniform").logpdf(s),
                                stats.loguniform(0.1, 60).logpdf(s), rtol=1e-12)
-    np.testing.assert_allclose(P.load_prior("incl-fabrycky2014").logpdf(s),
+    np.testing.assert_allclose(PF.load_prior("incl-fabrycky2014").logpdf(s),
                                stats.lognorm(0.2, scale=1.5).logpdf(s), rtol=1e-12)
-    assert P.load_prior("incl-loguniform").logpdf(0.05) == -np.inf
+    assert PF.load_prior("incl-loguniform").logpdf(0.05) == -np.inf
     assert isinstance(k.logpdf(0.2), float)
 
 
 def test_fabrycky_prior_concentrated_on_published_mode():
     # Fabrycky et al. 2014: mode of mutual inclinations 1.0-2.2 deg (= Rayleigh sigma);
     # our lognormal puts ~95 % of the sigma prior in that range.
-    f = P.load_prior("incl-fabrycky2014")
+    f = PF.load_prior("incl-fabrycky2014")
     assert f.unit == "deg"
     assert f.median() == pytest.approx(1.5)
     mass = stats.lognorm(0.2, scale=1.5).cdf(2.2) - stats.lognorm(0.2, scale=1.5).cdf(1.0)
@@ -185,7 +186,7 @@ def test_fang_margot_headline_bound():
     frac = lambda sig: stats.rayleigh(scale=sig).cdf(3.0)
     assert frac(1.4) == pytest.approx(0.90, abs=0.005)
     assert frac(2.0) == pytest.approx(0.68, abs=0.01)
-    fm = P.load_prior("incl-fangmargot2012")
+    fm = PF.load_prior("incl-fangmargot2012")
     assert fm.parameters["low"] < 1.54 < fm.parameters["high"]
 
 
@@ -199,13 +200,13 @@ def test_fang_margot_headline_bound():
     ("incl-fabrycky2014", stats.lognorm(0.2, scale=1.5)),
 ])
 def test_samples_match_scipy(name, reference):
-    x = P.load_prior(name).sample(np.random.default_rng(42), size=4000)
+    x = PF.load_prior(name).sample(np.random.default_rng(42), size=4000)
     assert x.shape == (4000,)
     assert stats.kstest(x, reference.cdf).pvalue > 1e-3
 
 
 def test_sample_reproducible_and_in_support():
-    prior = P.load_prior("ecc-vaneylen2019-singles")
+    prior = PF.load_prior("ecc-vaneylen2019-singles")
     a = prior.sample(np.random.default_rng(7), size=(100, 4))
     b = prior.sample(np.random.default_rng(7), size=(100, 4))
     np.testing.assert_array_equal(a, b)
@@ -215,26 +216,26 @@ def test_sample_reproducible_and_in_support():
 
 # ---- defaults and helpers -----------------------------------------------------------
 def test_default_priors():
-    assert P.default_prior("eccentricity").name == "ecc-uniform"
-    assert P.default_prior("mutual_inclination_sigma", n_planets=3).name == "incl-loguniform"
+    assert PF.default_prior("eccentricity").name == "ecc-uniform"
+    assert PF.default_prior("mutual_inclination_sigma", n_planets=3).name == "incl-loguniform"
     with pytest.raises(ValueError, match="2 planets"):
-        P.default_prior("mutual_inclination_sigma", n_planets=1)
+        PF.default_prior("mutual_inclination_sigma", n_planets=1)
     with pytest.raises(ValueError, match="quantity"):
-        P.default_prior("obliquity")
+        PF.default_prior("obliquity")
 
 
 def test_with_parameters_and_logpdf_e_guard():
-    ve = P.load_prior("ecc-vaneylen2015-multis").with_parameters(sigma=0.1)
+    ve = PF.load_prior("ecc-vaneylen2015-multis").with_parameters(sigma=0.1)
     assert ve.mean() == pytest.approx(0.1 * math.sqrt(math.pi / 2), rel=1e-9)
     with pytest.raises(InputError, match="parameters.sigma"):
         ve.with_parameters(sigma=-1.0)
     with pytest.raises(ValueError, match="not eccentricity"):
-        P.load_prior("incl-loguniform").logpdf_e(0.1)
+        PF.load_prior("incl-loguniform").logpdf_e(0.1)
 
 
 # ---- user files and errors --------------------------------------------------------------
 def test_user_file_loads(tmp_path):
-    prior = P.load_prior(str(write(tmp_path, GOOD_USER)))
+    prior = PF.load_prior(str(write(tmp_path, GOOD_USER)))
     assert prior.name == "my-beta" and prior.path.endswith("user.toml")
     assert prior.mean() == pytest.approx(2 / 7)
 
@@ -253,7 +254,7 @@ def test_user_file_loads(tmp_path):
 def test_bad_user_file_names_file_and_field(tmp_path, old, new, field):
     path = write(tmp_path, GOOD_USER.replace(old, new))
     with pytest.raises(InputError, match=rf"user\.toml.*'{field}'") as info:
-        P.load_prior(path)
+        PF.load_prior(path)
     assert "\n" not in str(info.value)
     assert info.value.field == field
 
@@ -262,13 +263,13 @@ def test_support_outside_quantity_range(tmp_path):
     text = GOOD_USER.replace('family = "beta"', 'family = "uniform"').replace(
         "alpha = 2.0\nbeta = 5.0", "low = 1.5\nhigh = 3.0")
     with pytest.raises(InputError, match="user.toml.*'parameters'.*does not overlap"):
-        P.load_prior(write(tmp_path, text))
+        PF.load_prior(write(tmp_path, text))
 
 
 def test_unknown_name_and_bad_toml(tmp_path):
     with pytest.raises(InputError, match="unknown prior 'kipping'.*ecc-kipping2013-rv"):
-        P.load_prior("kipping")
+        PF.load_prior("kipping")
     with pytest.raises(InputError, match="broken.toml.*not valid TOML"):
-        P.load_prior(write(tmp_path, "name = [", name="broken.toml"))
+        PF.load_prior(write(tmp_path, "name = [", name="broken.toml"))
     with pytest.raises(InputError, match="missing.toml.*not found"):
-        P.load_prior(tmp_path / "missing.toml")
+        PF.load_prior(tmp_path / "missing.toml")

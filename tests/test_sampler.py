@@ -9,7 +9,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from archsys.inference.route import needs_mcmc, sample_system
+from archsys.inference.joint import sample_joint as sample_system
+from archsys.inference.route import needs_mcmc
 from archsys.model.reader import build_system
 from archsys.pipeline import AnalysisOptions, analyze
 from archsys.physics import kepler, transit

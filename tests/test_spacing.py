@@ -10,6 +10,9 @@ from hypothesis.extra.numpy import arrays
 from scipy.optimize import minimize
 
 from archsys.physics import spacing as sp
+from archsys.physics import gap_complexity
+from archsys.physics import mmr_chains
+from archsys.physics import resonance_overlap
 from archsys.physics.constants import JULIAN_YEAR_DAY, MEARTH_MSUN
 
 # Sidereal periods, NASA/NSSDC Planetary Fact Sheet ([NSSDC], verified):
@@ -150,17 +153,17 @@ def test_nearest_mmr_rejects_unsorted_ratio():
 # ------------------------------------------------------ widths and flags
 def test_first_order_width_scales_as_mu_two_thirds():
     # Near-circular first-order width ∝ mu^(2/3) (Murray & Dermott 1999 ch. 8; common practice).
-    w1 = sp.resonance_width(2, 1, 1e-5)
-    w2 = sp.resonance_width(2, 1, 8e-5)
+    w1 = resonance_overlap.resonance_width(2, 1, 1e-5)
+    w2 = resonance_overlap.resonance_width(2, 1, 8e-5)
     assert w2 / w1 == pytest.approx(4.0, rel=1e-12)
 
 
 def test_higher_order_width_pendulum_scaling():
     # Pendulum width ∝ sqrt(mu e^k) for order k (common practice, order of magnitude).
-    w = sp.resonance_width(5, 2, [1e-4, 4e-4, 1e-4], e=[0.05, 0.05, 0.10])
+    w = resonance_overlap.resonance_width(5, 2, [1e-4, 4e-4, 1e-4], e=[0.05, 0.05, 0.10])
     assert w[1] / w[0] == pytest.approx(2.0) and w[2] / w[0] == pytest.approx(2.0)
-    assert sp.resonance_width(5, 3, 1e-4, e=0.0) == 0.0
-    w3 = sp.resonance_width(5, 3, 1e-4, e=[0.05, 0.10])
+    assert resonance_overlap.resonance_width(5, 3, 1e-4, e=0.0) == 0.0
+    w3 = resonance_overlap.resonance_width(5, 3, 1e-4, e=[0.05, 0.10])
     assert w3[1] / w3[0] == pytest.approx(2.0**1.5)
 
 
@@ -168,7 +171,7 @@ def test_first_order_width_is_continuous_at_pendulum_transition():
     # Branches meet at e = (mu/j)^(1/3) (derived from the two scalings).
     mu, j = 1e-4, 3
     e_c = (mu / j) ** (1 / 3)
-    w = sp.resonance_width(j, 1, mu, e=[0.0, 0.5 * e_c, e_c, 4 * e_c])
+    w = resonance_overlap.resonance_width(j, 1, mu, e=[0.0, 0.5 * e_c, e_c, 4 * e_c])
     assert w[0] == w[1] == pytest.approx(w[2], rel=1e-9)
     assert w[3] / w[2] == pytest.approx(2.0, rel=1e-9)
 
@@ -178,10 +181,10 @@ def test_width_coefficient_reproduces_deck2013_overlap():
     # first-order resonances just touch at the Deck et al. 2013 overlap ratio
     # (large-j limit; tiny mu so that j ~ 1000 and corrections ~ 1/j).
     mu = 1e-12
-    x_c = float(sp.overlap_zone(mu, 0.0)) - 1.0
+    x_c = float(resonance_overlap.overlap_zone(mu, 0.0)) - 1.0
     j = round(1.0 / x_c)
     r_j, r_j1 = j / (j - 1), (j + 1) / j
-    touching = (r_j * sp.resonance_width(j, 1, mu) + r_j1 * sp.resonance_width(j + 1, 1, mu))
+    touching = (r_j * resonance_overlap.resonance_width(j, 1, mu) + r_j1 * resonance_overlap.resonance_width(j + 1, 1, mu))
     assert touching / (r_j - r_j1) == pytest.approx(1.0, abs=0.01)
 
 
@@ -190,20 +193,20 @@ def test_near_resonance_neptune_pair_at_1p5_percent():
     # 2014; Lithwick & Wu 2012).  Two Neptune masses (fact sheet 17.147 M_E,
     # [NSSDC]) around 1 M_sun, Delta = +1.5 %, must be flagged.
     for ratio_res in (2.0, 1.5, 4 / 3):
-        assert sp.near_resonance(1.015 * ratio_res, MU_NEPTUNE_PAIR)
+        assert resonance_overlap.near_resonance(1.015 * ratio_res, MU_NEPTUNE_PAIR)
     # Earth-mass pair at the same offset: window ~0.4 %, not flagged (mu^(2/3) scaling).
-    assert not sp.near_resonance(1.015 * 1.5, 2 * MEARTH_MSUN)
-    assert sp.near_resonance(1.5, 2 * MEARTH_MSUN)  # exact commensurability
+    assert not resonance_overlap.near_resonance(1.015 * 1.5, 2 * MEARTH_MSUN)
+    assert resonance_overlap.near_resonance(1.5, 2 * MEARTH_MSUN)  # exact commensurability
     # Far from any first-order resonance (between 2:1 and 3:2) -> not near.
-    assert not sp.near_resonance(1.75, MU_NEPTUNE_PAIR)
+    assert not resonance_overlap.near_resonance(1.75, MU_NEPTUNE_PAIR)
 
 
 def test_near_resonance_higher_orders_need_eccentricity():
     # 5:3 (second order) has zero width at e = 0 (pendulum scaling sqrt(mu e^2)).
     r = 5 / 3 * 1.003
-    assert not sp.near_resonance(r, MU_NEPTUNE_PAIR, e_pair=0.0, max_order=2)
-    assert sp.near_resonance(r, MU_NEPTUNE_PAIR, e_pair=0.1, max_order=2)
-    assert not sp.near_resonance(r, MU_NEPTUNE_PAIR, e_pair=0.1, max_order=1)
+    assert not resonance_overlap.near_resonance(r, MU_NEPTUNE_PAIR, e_pair=0.0, max_order=2)
+    assert resonance_overlap.near_resonance(r, MU_NEPTUNE_PAIR, e_pair=0.1, max_order=2)
+    assert not resonance_overlap.near_resonance(r, MU_NEPTUNE_PAIR, e_pair=0.1, max_order=1)
 
 
 def test_near_resonance_vectorised_matches_loop():
@@ -211,10 +214,10 @@ def test_near_resonance_vectorised_matches_loop():
     r = 1 + rng.uniform(0.05, 1.5, size=(40, 3))
     mu = 10 ** rng.uniform(-6, -3, size=(40, 3))
     e = rng.uniform(0, 0.2, size=(40, 3))
-    flag = sp.near_resonance(r, mu, e, max_order=3)
+    flag = resonance_overlap.near_resonance(r, mu, e, max_order=3)
     for idx in np.ndindex(r.shape):
         ref = any(abs(r[idx] * (jj - kk) / jj - 1)
-                  < sp.NEAR_WINDOW_MULTIPLE * float(sp.resonance_width(jj, kk, mu[idx], e[idx]))
+                  < resonance_overlap.NEAR_WINDOW_MULTIPLE * float(resonance_overlap.resonance_width(jj, kk, mu[idx], e[idx]))
                   for jj, kk, _ in sp.MMR_TABLE)
         assert flag[idx] == ref
 
@@ -222,20 +225,20 @@ def test_near_resonance_vectorised_matches_loop():
 # ---------------------------------------------------------------- chains
 def test_resonant_chains_single_system():
     flags = [True, True, False, True, True, True, False, True]
-    assert sp.resonant_chains(flags) == [(0, 2), (3, 6)]
-    assert sp.resonant_chains([True, False, True]) == []  # isolated pairs are not chains
-    assert sp.resonant_chains([False] * 4) == []
+    assert mmr_chains.resonant_chains(flags) == [(0, 2), (3, 6)]
+    assert mmr_chains.resonant_chains([True, False, True]) == []  # isolated pairs are not chains
+    assert mmr_chains.resonant_chains([False] * 4) == []
     with pytest.raises(ValueError, match="one system"):
-        sp.resonant_chains(np.ones((2, 3), bool))
+        mmr_chains.resonant_chains(np.ones((2, 3), bool))
 
 
 def test_chain_length_max_vectorised_matches_chains():
     rng = np.random.default_rng(3)
     flags = rng.random((200, 6)) < 0.6  # (n_draws, n_pairs)
-    L = sp.chain_length_max(flags)
+    L = mmr_chains.chain_length_max(flags)
     assert L.shape == (200,)
     for f, ell in zip(flags, L):
-        runs = [b - a for a, b in sp.resonant_chains(f, min_pairs=1)]
+        runs = [b - a for a, b in mmr_chains.resonant_chains(f, min_pairs=1)]
         assert ell == max(runs, default=0)
 
 
@@ -244,24 +247,24 @@ def test_overlap_zone_deck2013_derived_ratios():
     # [Deck2013], derived from 1 - alpha = 1.46 eps^(2/7) (Deck, Payne &
     # Holman 2013; coefficient from memory), quoted to 3 decimals.
     eps = np.array([1e-5, 3e-5, 1e-4, 1e-3])
-    np.testing.assert_allclose(sp.overlap_zone(eps / 2, eps / 2),
+    np.testing.assert_allclose(resonance_overlap.overlap_zone(eps / 2, eps / 2),
                                [1.088, 1.123, 1.181, 1.405], atol=6e-4)
     # Lowest order: independent of m1/m2 (Deck et al. 2013, verified abstract).
-    np.testing.assert_allclose(sp.overlap_zone(eps, 0.0), sp.overlap_zone(eps / 2, eps / 2))
+    np.testing.assert_allclose(resonance_overlap.overlap_zone(eps, 0.0), resonance_overlap.overlap_zone(eps / 2, eps / 2))
 
 
 def test_overlap_zone_wisdom1980_form():
     # Wisdom 1980: Delta a / a = 1.3 mu^(2/7) (from memory), read as 1 - alpha.
     mu = 1e-4
     expected = (1 - 1.3 * mu ** (2 / 7)) ** -1.5
-    assert float(sp.overlap_zone(mu, 0, "wisdom1980")) == pytest.approx(expected, rel=1e-12)
-    assert sp.overlap_zone(mu, 0, "wisdom1980") < sp.overlap_zone(mu, 0, "deck2013")
+    assert float(resonance_overlap.overlap_zone(mu, 0, "wisdom1980")) == pytest.approx(expected, rel=1e-12)
+    assert resonance_overlap.overlap_zone(mu, 0, "wisdom1980") < resonance_overlap.overlap_zone(mu, 0, "deck2013")
     with pytest.raises(ValueError, match="criterion"):
-        sp.overlap_zone(mu, 0, "hill")
+        resonance_overlap.overlap_zone(mu, 0, "hill")
 
 
 def test_in_overlap_zone():
-    flags = sp.in_overlap_zone([1.05, 1.17, 1.19, 1.5], 5e-5, 5e-5)  # crit 1.181
+    flags = resonance_overlap.in_overlap_zone([1.05, 1.17, 1.19, 1.5], 5e-5, 5e-5)  # crit 1.181
     assert flags.tolist() == [True, True, False, False]
 
 
@@ -271,11 +274,11 @@ def test_c_max_matches_gilbert_fabrycky_table():
     # for n = 2..9, agreement to <= 1e-3 as stated there.
     table = [0.106, 0.212, 0.291, 0.350, 0.398, 0.437, 0.469, 0.497]
     for n, c in zip(range(2, 10), table):
-        assert sp.c_max(n) == pytest.approx(c, abs=1e-3)
+        assert gap_complexity.c_max(n) == pytest.approx(c, abs=1e-3)
     # n = 10: recalled 0.520, but global maximisation gives 0.5220 ([GilbertFabrycky2020],
     # derived); we test the computed value and keep the discrepancy documented.
-    assert sp.c_max(10) == pytest.approx(0.5220, abs=1e-4)
-    assert sp.c_max(11) > sp.c_max(10)  # computed beyond the table
+    assert gap_complexity.c_max(10) == pytest.approx(0.5220, abs=1e-4)
+    assert gap_complexity.c_max(11) > gap_complexity.c_max(10)  # computed beyond the table
 
 
 @pytest.mark.parametrize("n", [2, 3, 4, 5, 6])
@@ -292,8 +295,8 @@ def test_c_max_against_unrestricted_maximisation(n):
     best = max(-minimize(neg, rng.normal(size=n) * 2, method="Nelder-Mead",
                          options={"xatol": 1e-10, "fatol": 1e-14, "maxiter": 20000}).fun
                for _ in range(6))
-    assert best == pytest.approx(sp.c_max(n), abs=1e-7)
-    assert best <= sp.c_max(n) + 1e-10
+    assert best == pytest.approx(gap_complexity.c_max(n), abs=1e-7)
+    assert best <= gap_complexity.c_max(n) + 1e-10
 
 
 def _periods_from_pstar(p, P0=3.0, span=np.log(40.0)):
@@ -302,18 +305,18 @@ def _periods_from_pstar(p, P0=3.0, span=np.log(40.0)):
 
 def test_gap_complexity_maximiser_and_equal_spacing():
     # Equal log spacing: disequilibrium 0 -> C = 0 ([GilbertFabrycky2020], derived).
-    assert sp.gap_complexity(5.0 * 1.5 ** np.arange(6)) == pytest.approx(0.0, abs=1e-15)
+    assert gap_complexity.gap_complexity(5.0 * 1.5 ** np.arange(6)) == pytest.approx(0.0, abs=1e-15)
     # n = 2 maximiser p* = 0.122 / 0.878 ([GilbertFabrycky2020], derived, 3 decimals).
-    assert sp.gap_complexity(_periods_from_pstar([0.122, 0.878])) == pytest.approx(1.0, abs=1e-3)
+    assert gap_complexity.gap_complexity(_periods_from_pstar([0.122, 0.878])) == pytest.approx(1.0, abs=1e-3)
     for n in (2, 4, 7, 12):
-        p = sp.lmc_maximiser(n)
+        p = gap_complexity.lmc_maximiser(n)
         assert np.sum(np.isclose(p, p.min())) == n - 1  # n-1 equal small gaps, one large
-        assert sp.gap_complexity(_periods_from_pstar(p)) == pytest.approx(1.0, abs=1e-12)
+        assert gap_complexity.gap_complexity(_periods_from_pstar(p)) == pytest.approx(1.0, abs=1e-12)
 
 
 def test_gap_complexity_nan_for_fewer_than_three_planets():
-    assert np.isnan(sp.gap_complexity([3.0, 7.0]))
-    assert np.isnan(sp.gap_complexity(np.ones((4, 2)))).all()
+    assert np.isnan(gap_complexity.gap_complexity([3.0, 7.0]))
+    assert np.isnan(gap_complexity.gap_complexity(np.ones((4, 2)))).all()
 
 
 def _gap_complexity_scalar(P):
@@ -323,13 +326,13 @@ def _gap_complexity_scalar(P):
     p = [math.log(P[i + 1] / P[i]) / tot for i in range(n)]
     H = -sum(x * math.log(x) for x in p if x > 0)
     D = sum((x - 1 / n) ** 2 for x in p)
-    return H * D / sp.c_max(n)
+    return H * D / gap_complexity.c_max(n)
 
 
 def test_gap_complexity_vectorised_matches_scalar_loop():
     rng = np.random.default_rng(4)
     P = np.exp(rng.uniform(0, 6, size=(30, 5)))  # unsorted (n_draws, n_planets)
-    C = sp.gap_complexity(P)
+    C = gap_complexity.gap_complexity(P)
     assert C.shape == (30,)
     for row, c in zip(P, C):
         assert c == pytest.approx(_gap_complexity_scalar(row), rel=1e-12)
@@ -340,21 +343,21 @@ def test_gap_complexity_vectorised_matches_scalar_loop():
        st.floats(1e-3, 1e3))
 def test_gap_complexity_properties(P, scale):
     # Scaling invariance and range [0, 1] (Gilbert & Fabrycky 2020 definition).
-    c = sp.gap_complexity(P)
+    c = gap_complexity.gap_complexity(P)
     assert -1e-12 <= c <= 1 + 1e-9
-    assert sp.gap_complexity(P * scale) == pytest.approx(c, abs=1e-9)
-    assert sp.gap_complexity(P[::-1]) == pytest.approx(c, abs=1e-12)  # order of input irrelevant
+    assert gap_complexity.gap_complexity(P * scale) == pytest.approx(c, abs=1e-9)
+    assert gap_complexity.gap_complexity(P[::-1]) == pytest.approx(c, abs=1e-12)  # order of input irrelevant
 
 
 # ---------------------------------------------------- spacing uniformity
 def test_spacing_uniformity():
-    assert sp.spacing_uniformity(2.0 * 1.7 ** np.arange(5)) == pytest.approx(0.0, abs=1e-12)
+    assert gap_complexity.spacing_uniformity(2.0 * 1.7 ** np.arange(5)) == pytest.approx(0.0, abs=1e-12)
     # log ratios (ln 2, 2 ln 2): mean 1.5 ln 2, std 0.5 ln 2 -> CV = 1/3 (derived by hand).
-    assert sp.spacing_uniformity([1.0, 2.0, 8.0]) == pytest.approx(1 / 3, rel=1e-12)
-    assert sp.spacing_uniformity([8.0, 1.0, 2.0]) == pytest.approx(1 / 3, rel=1e-12)  # sorted inside
-    assert np.isnan(sp.spacing_uniformity([1.0, 2.0]))
+    assert gap_complexity.spacing_uniformity([1.0, 2.0, 8.0]) == pytest.approx(1 / 3, rel=1e-12)
+    assert gap_complexity.spacing_uniformity([8.0, 1.0, 2.0]) == pytest.approx(1 / 3, rel=1e-12)  # sorted inside
+    assert np.isnan(gap_complexity.spacing_uniformity([1.0, 2.0]))
     with pytest.raises(ValueError, match="planet axis"):
-        sp.gap_complexity(3.0)
+        gap_complexity.gap_complexity(3.0)
     P = np.stack([SOLAR_P_DAY, 10 * SOLAR_P_DAY])
-    cv = sp.spacing_uniformity(P)
+    cv = gap_complexity.spacing_uniformity(P)
     assert cv.shape == (2,) and cv[0] == pytest.approx(cv[1], rel=1e-12)

@@ -49,6 +49,7 @@ def _write_csv(path, rows, header=HEADER):
 def _survey(tmp_path, cat, name="out", **kw):
     kw.setdefault("mode", "direct")
     kw.setdefault("draws", 100)
+    kw.setdefault("jobs", 1)            # one process: the xdist workers already fill the cores
     kw.setdefault("figures", False)
     out = tmp_path / name
     pop = run_survey(str(cat), str(out), **kw)

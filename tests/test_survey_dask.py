@@ -1,7 +1,7 @@
 """Same seed, same numbers: serial, local processes and a real Dask cluster.
 
 Data: the Open Exoplanet Catalogue extract (Rein 2012, arXiv:1211.7121,
-snapshot 2026-08-22), the first 40 systems with two or more planets.
+snapshot 2026-08-22), the first 12 systems with two or more planets.
 Byte-identical outputs are the check (common practice for reproducible runs).
 """
 import pathlib
@@ -12,11 +12,12 @@ from archsys.survey.run import run_survey
 
 OEC = pathlib.Path(__file__).parent / "data" / "oec" / "open_exoplanet_catalogue_planets.csv"  # Rein 2012; see data/oec/README.md
 COLUMNS = pathlib.Path(__file__).parent / "data" / "oec_columns.toml"
+LIMIT = 12
 OUTPUTS = ("systems.csv", "planets.csv", "pairs.csv", "rejects.csv", "population.json")
 
 
 def _run(out, **kw):
-    run_survey(str(OEC), str(out), columns=str(COLUMNS), where=["n_planets>=2"], limit=40, mode="direct",
+    run_survey(str(OEC), str(out), columns=str(COLUMNS), where=["n_planets>=2"], limit=LIMIT, mode="direct",
                draws=200, figures=False, seed=5, **kw)
     return {name: (out / name).read_bytes() for name in OUTPUTS}
 
@@ -32,12 +33,13 @@ def test_local_processes_equal_serial(serial, tmp_path):
 
 def test_other_seed_differs(serial, tmp_path):
     out = tmp_path / "o"
-    run_survey(str(OEC), str(out), columns=str(COLUMNS), where=["n_planets>=2"], limit=40, mode="direct",
+    run_survey(str(OEC), str(out), columns=str(COLUMNS), where=["n_planets>=2"], limit=LIMIT, mode="direct",
                draws=200, figures=False, seed=6, jobs=1)
     assert (out / "systems.csv").read_bytes() != serial["systems.csv"]
     assert (out / "rejects.csv").read_bytes() == serial["rejects.csv"]    # input checks need no seed
 
 
+@pytest.mark.slow          # a real cluster: scheduler and two worker processes (about 20 s)
 def test_dask_cluster_equals_serial(serial, tmp_path, monkeypatch):
     distributed = pytest.importorskip("distributed")
     # spawned workers must import archsys from this source tree

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from archsys.inference.priors import load_prior
+from archsys.inference.prior_files import load_prior
 from archsys.survey.hierarchical import (HMBData, eccentricity_population, fit_beta,
                                          marginal_tilt_log_prior, tilt_population)
 from archsys.survey.run import run_survey
@@ -48,7 +48,8 @@ def test_beta_recovered_from_catalogue_survey(tmp_path):
         # planets that must not enter: fixed circular (0 without error) and no eccentricity
         w.writerow(["Z0001", "Z0001 b", "10.0", "1.0", "10", "0", ""])
         w.writerow(["Z0002", "Z0002 b", "20.0", "1.0", "10", "", ""])
-    pop = run_survey(str(path), str(tmp_path / "out"), mode="direct", draws=300, figures=False, seed=3)
+    pop = run_survey(str(path), str(tmp_path / "out"), mode="direct", draws=300, figures=False, seed=3,
+                     jobs=1)   # one process: the xdist workers already fill the cores
     ep = pop["eccentricity_population"]
     assert ep["n_planets"] == 400
     assert "uniform" in ep["interim_prior"]

@@ -37,15 +37,31 @@ def _check_counts(pop, out):
     assert json.loads((out / "population.json").read_text())["counts"] == c
 
 
+#: The systems whose rows the extract gets wrong in known ways (found in the file itself, module docstring)
+#: and the four binaries grouped under one id.
+KNOWN_BAD = ("TOI-1272", "HD 93351", "HD 133131", "HD 20782", "WASP-94", "XO-2")
+
+
 @pytest.fixture(scope="module")
 def multis(tmp_path_factory):
-    """All systems with >= 2 planets, direct draws (no MCMC), two local processes."""
+    """All systems with >= 2 planets, direct draws (no MCMC), two local processes (slow tests only)."""
     out = tmp_path_factory.mktemp("oec") / "multis"
     pop = run_survey(str(OEC), str(out), columns=str(COLUMNS), where=["n_planets>=2"], mode="direct",
                      draws=100, figures=False, jobs=2, seed=0)
     return pop, out
 
 
+@pytest.fixture(scope="module")
+def known_bad(tmp_path_factory):
+    """The known bad systems only: the same rows and reasons as in the full survey, in seconds."""
+    out = tmp_path_factory.mktemp("oec") / "bad"
+    where = " or ".join(f"system=='{s}'" for s in KNOWN_BAD)
+    pop = run_survey(str(OEC), str(out), columns=str(COLUMNS), where=["n_planets>=2", where], mode="direct",
+                     draws=100, figures=False, jobs=1, seed=0)
+    return pop, out
+
+
+@pytest.mark.slow
 def test_multis_complete_and_reconcile(multis):
     pop, out = multis
     _check_counts(pop, out)
@@ -56,8 +72,10 @@ def test_multis_complete_and_reconcile(multis):
     assert c["systems_analysed"] > 700
 
 
-def test_known_bad_rows_are_rejected_with_reasons(multis):
-    _, out = multis
+def test_known_bad_rows_are_rejected_with_reasons(known_bad):
+    pop, out = known_bad
+    _check_counts(pop, out)
+    assert pop["counts"]["systems_selected"] == len(KNOWN_BAD)
     rej = {(r["system"], r["planet"], r["field"]): r for r in _rejects(out)}
     toi = rej[("TOI-1272", "TOI-1272 c", "ecc")]
     assert "must be in [0, 1); got 280" in toi["reason"] and toi["column"] == "ecc"
@@ -68,6 +86,7 @@ def test_known_bad_rows_are_rejected_with_reasons(multis):
         assert any(k[0] == sid and "rows disagree on the star" in r["reason"] for k, r in rej.items())
 
 
+@pytest.mark.slow
 def test_period_ratio_asymmetry_sign(multis):
     pop, _ = multis
     for label in ("3:2", "2:1"):
@@ -76,6 +95,7 @@ def test_period_ratio_asymmetry_sign(multis):
         assert r["fraction_wide"]["value"] > r["fraction_narrow"]["value"]
 
 
+@pytest.mark.slow
 def test_population_sections_present(multis):
     pop, out = multis
     ep = pop["eccentricity_population"]

@@ -35,7 +35,8 @@ def _catalogue(path, n_systems, inject, seed):
 @pytest.mark.parametrize("inject", [True, False])
 def test_wide_excess_of_3_2_detected_only_when_injected(tmp_path, inject):
     cat = _catalogue(tmp_path / "syn.csv", 400, inject, seed=21)
-    pop = run_survey(str(cat), str(tmp_path / "out"), mode="direct", draws=100, figures=False, seed=4)
+    pop = run_survey(str(cat), str(tmp_path / "out"), mode="direct", draws=100, figures=False, seed=4,
+                     jobs=1)   # one process: the xdist workers already fill the cores
     r = pop["period_ratios"]["resonances"]["3:2"]
     assert r["n_pairs"] == 400
     assert r["excess_wide_detected"] is inject

@@ -13,6 +13,7 @@ from archsys.pipeline import Analysis, AnalysisOptions, analyze
 from archsys.scores import compute_scores
 from archsys.scores.common import summarize_with_infinite
 from archsys.scores.resonance import near_first_order
+from archsys.inference.basis import Basis, Origin
 
 HUMAN = ("text", "markdown", "html", "latex", "aastex")
 
@@ -161,7 +162,8 @@ def test_prior_only_eccentricity_flagged_with_its_verdicts(tmp_path):
     post = res.posterior
     rng = np.random.default_rng(1)
     post.draws["ecc"] = rng.uniform(0, 1, post.draws["ecc"].shape)     # draws from the flat prior
-    post.notes = {n: dict(v, ecc="prior only (no eccentricity data)") for n, v in post.notes.items()}
+    prior_only = Basis("prior only (no eccentricity data)", Origin.PRIOR)     # as the joint engine notes it
+    post.notes = {n: dict(v, ecc=prior_only) for n, v in post.notes.items()}
     out = _rebuild(res, post)
     assert all(p["not_constrained_by_data"] == ["ecc"] for p in out.document["planets"])
     hill = [v for v in out.document["structured_verdicts"] if v["code"] == "hill_stable_all_pairs"][0]
@@ -218,7 +220,8 @@ def test_flagged_and_infinite_latex_compiles(tmp_path):
     from archsys.output.formats.latex import standalone
     res = analyze(_system(tmp_path, RV_PAIR), AnalysisOptions(n_draws=300, mode="direct"))
     post = res.posterior
-    post.notes = {n: dict(v, ecc="prior only (no eccentricity data)") for n, v in post.notes.items()}
+    prior_only = Basis("prior only (no eccentricity data)", Origin.PRIOR)     # as the joint engine notes it
+    post.notes = {n: dict(v, ecc=prior_only) for n, v in post.notes.items()}
     doc = json.loads(json.dumps(_rebuild(res, post).document))
     doc["pairs"][0]["amd_beta"] = {"median": 40.0, "lo": 3.2, "hi": None, "infinite_fraction": 0.3}
     ok, log = _compiles(tmp_path, standalone(render(doc, "latex")), "plain")

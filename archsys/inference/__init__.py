@@ -1,1 +1,3 @@
 """Inference: population priors, likelihoods and the emcee sampler."""
+
+__all__ = []

@@ -26,6 +26,7 @@ from enum import Enum
 
 import numpy as np
 
+from .basis import Origin, origin_of
 from .summary import QUANTILES
 
 __all__ = ["Source", "PRIOR_SHARE", "MIXED_SHARE", "width_ratio", "classify", "measure", "posterior_measures"]
@@ -78,7 +79,7 @@ def measure(draws, prior, scale=1.0):
 
 
 def _load(rec):
-    from .priors import load_prior
+    from .prior_files import load_prior
     name = rec.get("name") if isinstance(rec, dict) else rec
     if not name or name == "ecc-uniform":
         return None
@@ -102,10 +103,10 @@ def posterior_measures(post):
     no_data_names = set(no_data.get("planets") or []) if isinstance(no_data, dict) else set()
     e = post.get("ecc")
     for j, pl in enumerate(post.system.planets):
-        note = str((post.notes.get(pl.name) or {}).get("ecc", ""))
-        if e is None or "assumed" in note or "fixed" in note:
+        origin = origin_of((post.notes.get(pl.name) or {}).get("ecc", ""))
+        if e is None or origin in (Origin.ASSUMED, Origin.FIXED):
             continue
-        no_data = pl.name in no_data_names or "prior only" in note
+        no_data = pl.name in no_data_names or origin is Origin.PRIOR
         pr = no_data_prior if no_data else ecc_prior
         if pr is False:
             continue

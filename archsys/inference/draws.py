@@ -14,12 +14,16 @@ from ..errors import InputError
 from ..physics import kepler, transit
 from ..physics.constants import MEARTH_MSUN, REARTH_AU, RSUN_AU
 from ..physics.massradius import SCATTER_DEX, mass_from_radius_mearth
+from .basis import Basis, Origin
 from .phases import add_phases
 from .posterior import Posterior
 
-__all__ = ["direct_draws", "eccentricity_draws", "radius_draws", "mass_from_radius_draws", "DEFAULT_DRAWS"]
+__all__ = ["direct_draws", "eccentricity_draws", "radius_draws", "mass_from_radius_draws", "DEFAULT_DRAWS",
+           "DIRECT_WHY"]
 
 DEFAULT_DRAWS = 4000
+#: ``sampler.why`` of the direct path (the joint engine's reasons: :class:`archsys.inference.route.PathReason`).
+DIRECT_WHY = "no joint constraint binds: summaries are independent"
 RSUN_REARTH = RSUN_AU / REARTH_AU
 
 
@@ -53,16 +57,16 @@ def eccentricity_draws(planet, rng, n):
         e = r2 if a == "secosw" else np.sqrt(r2)
         e = np.minimum(e, 1 - 1e-9)
         w = np.arctan2(x[:, 1], x[:, 0])
-        return e, w, f"from {a}/{b}"
+        return e, w, Basis(f"from {a}/{b}", Origin.DATA)
     if "ecc" in q:
         e = q["ecc"].sample(rng, n)
         if "omega" in q:
             w = np.radians(q["omega"].sample(rng, n))
         else:
             w = rng.uniform(-np.pi, np.pi, n)
-        return e, w, "measured" if not q["ecc"].is_limit else f"{q['ecc'].kind} limit"
+        return e, w, Basis("measured" if not q["ecc"].is_limit else f"{q['ecc'].kind} limit", Origin.DATA)
     w = np.radians(q["omega"].sample(rng, n)) if "omega" in q else rng.uniform(-np.pi, np.pi, n)
-    return np.zeros(n), w, "assumed circular"
+    return np.zeros(n), w, Basis("assumed circular", Origin.ASSUMED)
 
 
 #: Rounds of redrawing rows whose periods break the planets' period order.
@@ -101,7 +105,7 @@ def direct_draws(system, n=DEFAULT_DRAWS, seed=0) -> Posterior:
                          source=system.source)
     post = Posterior(system, draws, "direct", seed=seed, notes=notes,
                      sampler={"method": "direct Monte Carlo", "draws": n,
-                              "why": "no joint constraint binds: summaries are independent"})
+                              "why": DIRECT_WHY})
     return add_phases(post)
 
 
@@ -186,7 +190,7 @@ def _draw_rows(system, rng, n):
         # inclination to the sky
         if "inclination" in q:
             inc[:, j] = np.radians(q["inclination"].sample(rng, n))
-            note["inc"] = "measured"
+            note["inc"] = Basis("measured", Origin.DATA)
         elif "b" in q or pl.transiting:
             if st.radius is not None:
                 aor = transit.a_over_rstar(a[:, j], r_star)
@@ -197,11 +201,11 @@ def _draw_rows(system, rng, n):
             if aor is not None:
                 if "b" in q:
                     b = q["b"].sample(rng, n)
-                    note["inc"] = "from impact parameter"
+                    note["inc"] = Basis("from impact parameter", Origin.DATA)
                 else:
                     ror = q["ror"].sample(rng, n) if "ror" in q else 0.0
                     b = rng.uniform(0.0, 1.0 + ror, n)
-                    note["inc"] = "transiting (b uniform on [0, 1 + Rp/R*])"
+                    note["inc"] = Basis("transiting (b uniform on [0, 1 + Rp/R*])", Origin.DATA)
                 inc[:, j] = transit.inclination_from_b(b, aor, e[:, j], w[:, j])
         if "ascending_node" in q:
             node[:, j] = np.radians(q["ascending_node"].sample(rng, n))

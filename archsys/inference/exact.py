@@ -12,6 +12,7 @@ import numpy as np
 
 from ..physics import kepler, transit
 from ..physics.constants import MEARTH_MSUN, REARTH_AU, RSUN_AU
+from .basis import Basis, Origin
 from .draws import eccentricity_draws, mass_from_radius_draws, radius_draws, star_draws
 
 __all__ = ["exact_draws", "geometry_factor", "mass_basis", "ecc_prior_for", "RSUN_REARTH"]
@@ -57,14 +58,15 @@ def exact_draws(system, rng, n, ecc_priors):
         if role == "draw":
             e[:, j] = prior.sample(rng, n)
             w[:, j] = np.radians(q["omega"].sample(rng, n)) if "omega" in q else rng.uniform(-np.pi, np.pi, n)
-            note["ecc"] = f"prior only (no eccentricity data; prior {prior.name})"
+            note["ecc"] = Basis(f"prior only (no eccentricity data; prior {prior.name})", Origin.PRIOR)
         else:
             e[:, j], w[:, j], how = eccentricity_draws(pl, rng, n)
             exact = "ecc" in q and q["ecc"].kind == "exact"
             if exact:
-                note["ecc"] = "fixed (exact value given)"
+                note["ecc"] = Basis("fixed (exact value given)", Origin.FIXED)
             else:
-                note["ecc"] = "posterior (summary x prior)" if prior is not None else "posterior (summary, flat prior)"
+                note["ecc"] = Basis("posterior (summary x prior)" if prior is not None else
+                                    "posterior (summary, flat prior)", Origin.DATA)
                 if prior is not None:
                     with np.errstate(divide="ignore"):
                         logw += prior.logpdf_e(e[:, j])

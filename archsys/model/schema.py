@@ -8,6 +8,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 import math
 
+__all__ = ["INF", "Field", "STAR_FIELDS", "PLANET_FIELDS", "QUANTITY_KEYS", "TOP_KEYS", "PLANET_META_KEYS",
+           "STAR_META_KEYS"]
+
 INF = math.inf
 
 

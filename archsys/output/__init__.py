@@ -5,3 +5,5 @@ numbers.py the one number and percentage formatter; wording.py the English of th
 holds one renderer per format and dispatches to them (render, write_outputs); figures/ one module per
 figure kind; dataframes.py gives pandas/astropy tables for notebooks.
 """
+
+__all__ = []

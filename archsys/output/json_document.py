@@ -12,7 +12,8 @@ import platform
 
 import numpy as np
 
-from .. import __version__
+from ..version import __version__
+from ..inference.basis import Origin, origin_of
 from ..inference.dataprior import posterior_measures
 from ..inference.summary import summarize, summarize_angle
 from ..inference.usability import posterior_status
@@ -48,14 +49,16 @@ def _planet_entry(post, j, pl):
         entry["msini_mearth"] = summarize(msini, 1.0 / MEARTH_MSUN)
     entry["mass_basis"] = basis or "unknown (no K, mass or radius)"
     ecc_basis = note.get("ecc", "")
-    if ecc_basis != "assumed circular" or post.method != "direct":
+    if origin_of(ecc_basis) is not Origin.ASSUMED or post.method != "direct":
         entry["ecc"] = summarize(d["ecc"][:, j])
-    entry["ecc_basis"] = ecc_basis
+    entry["ecc_basis"] = str(ecc_basis)
+    entry["ecc_origin"] = origin_of(ecc_basis).value
     if post.method != "direct" or "omega" in pl.quantities or ecc_basis.startswith("from"):
         entry["omega_deg"] = summarize_angle(np.degrees(d["omega"][:, j]))
     if np.isfinite(d["inc"][:, j]).any():
         entry["inclination_deg"] = summarize(np.degrees(d["inc"][:, j]))
-        entry["inclination_basis"] = note.get("inc", "")
+        entry["inclination_basis"] = str(note.get("inc", ""))
+        entry["inclination_origin"] = origin_of(note.get("inc", "")).value
     radius = post.get("radius")
     if radius is not None and np.isfinite(np.asarray(radius, dtype=float)[:, j]).any():
         entry["radius_rearth"] = summarize(np.asarray(radius, dtype=float)[:, j])
@@ -64,7 +67,7 @@ def _planet_entry(post, j, pl):
     node = d.get("node")      # a sky node given in the input (elsewhere it is a model convention, not data)
     if node is not None and "ascending_node" in pl.quantities and np.isfinite(node[:, j]).all():
         entry["node_deg"] = summarize_angle(np.degrees(node[:, j]))
-    loose = _not_constrained(entry, post, j)
+    loose = _not_constrained(note.get("ecc", ""), entry, post, j)
     if loose:
         entry["not_constrained_by_data"] = loose
     limit = _ecc_limit(pl, entry, post, j, loose)
@@ -128,11 +131,11 @@ def _estimated(pl, entry, loose):
 OMEGA_LOOSE_DEG = 0.8 * 0.6827 * 360.0
 
 
-def _not_constrained(entry, post, j):
+def _not_constrained(ecc_note, entry, post, j):
     """Document keys of a planet whose values come from the prior rather than the data."""
-    basis = str(entry.get("ecc_basis") or "")
-    if "prior only" in basis or ("ecc" in entry and "assumed" not in basis and "fixed" not in basis
-                                 and barely_constrained(post["ecc"][:, j], flat_ecc_prior(post))):
+    source = origin_of(ecc_note)
+    if source is Origin.PRIOR or ("ecc" in entry and source is Origin.DATA
+                                  and barely_constrained(post["ecc"][:, j], flat_ecc_prior(post))):
         return ["ecc"]
     return []
 
@@ -141,15 +144,19 @@ def _priors_that_ran(post, opts):
     """The posterior's prior record, or (when the sampler recorded none) the priors its options select."""
     if post.prior or post.method == "direct":
         return post.prior
-    from ..inference.priors import default_prior, load_prior
+    from ..inference.prior_choice import resolve_priors
     out = {}
-    for q, name in (("eccentricity", getattr(opts, "ecc_prior", None)),
-                    ("mutual_inclination_sigma", getattr(opts, "incl_prior", None))):
-        try:
-            pr = load_prior(name) if name else default_prior(q)
-        except Exception:                  # a prior that cannot be read here is still named
+    names = {"eccentricity": getattr(opts, "ecc_prior", None),
+             "mutual_inclination_sigma": getattr(opts, "incl_prior", None)}
+    try:
+        choice = resolve_priors(opts)
+    except Exception:                      # a prior that cannot be read here is still named
+        choice = None
+    for q, name in names.items():
+        if choice is None:
             out[q] = {"name": str(name)}
             continue
+        pr = choice.applied(q)
         out[q] = {"name": pr.name, "citation": pr.citation, "from_memory": bool(pr.from_memory),
                   "default": not name}
     if getattr(opts, "require_stable", False):

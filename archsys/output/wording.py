@@ -119,18 +119,18 @@ def unconstrained_planets(doc, what="ecc"):
     """Short names of planets whose ``what`` ("ecc") comes from the prior or an assumption, not data.
 
     Returns ``{"prior": [...], "assumed": [...], "loose": [...]}``: eccentricities
-    the posterior notes call "prior only" (no eccentricity data), those "assumed
-    circular", and measured ones whose 68 % interval is nearly as wide as the
-    prior's (``not_constrained_by_data`` in the document).
+    from the prior alone (``ecc_origin`` "prior": no eccentricity data), those
+    assumed circular (``ecc_origin`` "assumed"), and measured ones whose 68 %
+    interval is nearly as wide as the prior's (``not_constrained_by_data``).
     """
     out = {"prior": [], "assumed": [], "loose": []}
-    key = {"ecc": "ecc_basis", "inc": "inclination_basis"}[what]
+    key = {"ecc": "ecc_origin", "inc": "inclination_origin"}[what]
     for p in doc.get("planets", []):
-        basis = str(p.get(key) or "")
+        source = p.get(key)
         name = short_name(p.get("name", "?"), doc.get("system", ""))
-        if "prior only" in basis:
+        if source == "prior":
             out["prior"].append(name)
-        elif "assumed circular" in basis:
+        elif source == "assumed":
             out["assumed"].append(name)
         elif what in (p.get("not_constrained_by_data") or []):
             out["loose"].append(name)

@@ -18,8 +18,11 @@ import numpy as np
 
 from archsys.physics.constants import GM_SUN
 
+__all__ = ["PLB17_R", "lambda_circ", "amd", "system_amd", "critical_amd", "mmr_overlap_g",
+           "mmr_overlap_critical_amd", "pair_critical_amd", "amd_beta", "amd_stable"]
+
 #: r in the Petit, Laskar & Boue (2017) MMR-overlap criterion.  From memory
-#: (REFERENCES.md section 5): consistent with the Deck et al. (2013) overlap
+#: ([Petit2017] in docs/references.md): consistent with the Deck et al. (2013) overlap
 #: width 1.46 eps^(2/7), but not read from the paper.
 PLB17_R = 0.80199
 
@@ -183,7 +186,7 @@ def critical_amd(alpha, gamma):
     from :math:`\\alpha - 1 < 0` to :math:`2\\alpha > 0`, so the root is unique;
     it is found by bracketed Newton iterations over the whole array at once
     (:func:`_collision_root`).
-    Formula from memory (REFERENCES.md section 5), re-derived there as the
+    Formula from memory ([LaskarPetit2017]), re-derived (docs/references.md) as the
     Lagrange-multiplier minimum of the pair AMD on the collision line.
 
     References
@@ -208,7 +211,7 @@ def mmr_overlap_g(alpha, eps):
 
     ``g <= 0`` means first-order MMRs overlap already for circular orbits;
     g = 0 at :math:`1 - \\alpha = (16384 r^2/729)^{1/7}\\varepsilon^{2/7}
-    \\approx 1.465\\,\\varepsilon^{2/7}`.  From memory (REFERENCES.md section 5).
+    \\approx 1.465\\,\\varepsilon^{2/7}`.  From memory ([Petit2017]).
     """
     alpha = _check("alpha", alpha, 0.0, 1.0, lo_open=True)
     eps = _check("eps", eps, 0.0, np.inf, lo_open=True)
@@ -281,7 +284,7 @@ def amd_beta(m, a, e, inc, m_star, mmr=True):
     -----
     A system is AMD-stable if every ``beta < 1`` and ``beta_star < 1``: then
     no collision can occur in the secular (averaged) dynamics, because the
-    AMD is conserved there.  Definitions from memory (REFERENCES.md section 5).
+    AMD is conserved there.  Definitions from memory ([LaskarPetit2017]).
 
     References
     ----------

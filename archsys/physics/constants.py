@@ -10,6 +10,10 @@ through ratios of nominal mass parameters, which are also independent of G.
 """
 import math
 
+__all__ = ["GM_SUN_SI", "GM_EARTH_SI", "GM_JUP_SI", "R_SUN_M", "R_EARTH_M", "R_JUP_M", "AU_M", "DAY_S",
+           "JULIAN_YEAR_DAY", "G_SI", "GM_SUN", "MEARTH_MSUN", "MJUP_MSUN", "RSUN_AU", "REARTH_AU",
+           "MSUN_KG", "TWO_PI"]
+
 #: IAU 2015 B3 nominal solar mass parameter [m^3 s^-2] (exact).
 GM_SUN_SI = 1.3271244e20
 #: IAU 2015 B3 nominal terrestrial mass parameter [m^3 s^-2].

@@ -8,6 +8,9 @@ broadcast over leading draw axes; the last axis runs over planets, e.g.
 """
 import numpy as np
 
+__all__ = ["mutual_inclination", "pairwise_mutual_inclinations", "adjacent_mutual_inclinations",
+           "max_mutual_inclination", "fraction_within", "sky_inclination_spread"]
+
 
 def _hav(x):
     """Haversine sin^2(x / 2)."""

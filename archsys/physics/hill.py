@@ -18,6 +18,10 @@ import numpy as np
 
 from archsys.physics.constants import JULIAN_YEAR_DAY
 
+__all__ = ["HILL_CRIT", "CHAMBERS_B", "CHAMBERS_C", "hill_radius", "mutual_hill_radius", "hill_separation",
+           "critical_hill_separation_circular", "gladman_margin", "gladman_hill_stable",
+           "gladman_critical_separation", "chambers_instability_time"]
+
 #: Critical spacing of two circular, coplanar, low-mass planets in mutual Hill
 #: radii (Gladman 1993; circular limit of the elements-form criterion).
 HILL_CRIT = 2.0 * math.sqrt(3.0)

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..inference.basis import Origin, origin_of
 from ..inference.summary import probability, summarize
 from ..physics import flatness
 from .registry import Column, Score, ScoreResult, register, verdict
@@ -87,7 +88,8 @@ class FlatnessScore(Score):
         fb = ctx.system.get("flatness") or {}
         if "probability_all_within_5_deg" not in fb:
             return []
-        caveats = ["prior_only_orientation"] if all("prior only" in ctx.note(p, "inc") for p in ctx.names) else ()
+        prior_only = all(origin_of(ctx.note(p, "inc")) is Origin.PRIOR for p in ctx.names)
+        caveats = ["prior_only_orientation"] if prior_only else ()
         return [verdict("flat_within_5_deg", fb["probability_all_within_5_deg"], ctx.names,
                         criterion="every orbit within 5 deg of the common reference plane",
                         citation="", caveats=caveats)]

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 from ..inference.summary import summarize
-from ..physics import spacing
+from ..physics import gap_complexity
 from .registry import Column, Score, ScoreResult, register
 
 __all__ = ["GapScore"]
@@ -22,7 +22,7 @@ class GapScore(Score):
 
     def per_draw(self, ctx):
         P = ctx.post["period"]
-        return {"gap_complexity": spacing.gap_complexity(P), "spacing_uniformity": spacing.spacing_uniformity(P)}
+        return {"gap_complexity": gap_complexity.gap_complexity(P), "spacing_uniformity": gap_complexity.spacing_uniformity(P)}
 
     def summarise(self, ctx, arr):
         return ScoreResult(system={"gap_complexity": summarize(arr["gap_complexity"]),

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..inference.basis import Origin, origin_of
 from ..inference.summary import probability, summarize
 from ..physics import hill
 from .common import adjacent, barely_constrained, effective_mass, flat_ecc_prior, masked_apply
@@ -21,14 +22,14 @@ def stability_caveats(ctx, uses_ecc=True):
     """Caveat codes of a stability verdict: what it rests on beyond the data."""
     out = []
     planets = ctx.names
-    notes = [ctx.note(p, "ecc") for p in planets]
-    if uses_ecc and any("assumed circular" in n for n in notes):
+    sources = [origin_of(ctx.note(p, "ecc")) for p in planets]
+    if uses_ecc and Origin.ASSUMED in sources:
         out.append("assumed_circular")
-    if uses_ecc and any("prior only" in n for n in notes):
+    if uses_ecc and Origin.PRIOR in sources:
         out.append("prior_only_eccentricity")
     flat = flat_ecc_prior(ctx.post)
-    if uses_ecc and any("prior only" not in n and "assumed" not in n and "fixed" not in n
-                        and barely_constrained(ctx.post["ecc"][:, j], flat) for j, n in enumerate(notes)):
+    if uses_ecc and any(s is Origin.DATA and barely_constrained(ctx.post["ecc"][:, j], flat)
+                        for j, s in enumerate(sources)):
         out.append("weak_eccentricity")
     if any(str(ctx.note(p, "mass")).startswith("minimum") for p in planets):
         out.append("minimum_masses")

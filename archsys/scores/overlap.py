@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..inference.summary import probability
-from ..physics import spacing
+from ..physics import resonance_overlap
 from .common import adjacent, effective_mass, masked_apply
 from .registry import Column, Score, ScoreResult, register, verdict
 
@@ -27,7 +27,7 @@ class OverlapScore(Score):
         ms = ctx.post["m_star"][:, None]
         ratio = ctx.arrays["period_ratio"]
         r_ok = np.where(ratio >= 1.0, ratio, np.nan)
-        return {"overlap": masked_apply(lambda r, x, y: spacing.in_overlap_zone(r, x, y), r_ok, m1 / ms, m2 / ms)}
+        return {"overlap": masked_apply(lambda r, x, y: resonance_overlap.in_overlap_zone(r, x, y), r_ok, m1 / ms, m2 / ms)}
 
     def summarise(self, ctx, arr):
         pairs = []

@@ -6,7 +6,7 @@ and units from the same :class:`~archsys.scores.registry.Column` model, through
 """
 from __future__ import annotations
 
-from .registry import Column
+from .column_model import Column
 
 __all__ = ["PLANET_COLUMNS", "STAR_COLUMNS", "BASE_COLUMNS"]
 
@@ -33,6 +33,10 @@ PLANET_COLUMNS = (
     Column("transiting", "transiting", "Transiting", fmt="text", table="planet", show=False),
     Column("mass_basis", "mass basis", "Mass basis", fmt="text", table="planet", show=False),
     Column("ecc_basis", "eccentricity basis", "Eccentricity basis", fmt="text", table="planet", show=False),
+    Column("ecc_origin", "eccentricity source", "Eccentricity source", fmt="text", table="planet", show=False,
+           description="data, prior, assumed or fixed"),
+    Column("inclination_origin", "inclination source", "Inclination source", fmt="text", table="planet",
+           show=False, description="data, prior, assumed or fixed"),
     Column("inclination_basis", "inclination basis", "Inclination basis", fmt="text", table="planet",
            show=False),
     Column("ecc_limit", "e upper limit", "$e$ upper limit", fmt="text", table="planet", show=False,

@@ -20,48 +20,15 @@ Adding a score means one new module in ``archsys/scores/`` that calls
 from __future__ import annotations
 
 import contextlib
+import importlib
+import pathlib
+import pkgutil
 from dataclasses import dataclass, field
 
+from .column_model import FORMATS, Column
+
 __all__ = ["Column", "Score", "ScoreContext", "ScoreResult", "register", "unregister", "registered",
-           "registered_scores", "column", "score_columns", "FORMATS"]
-
-#: Number formats a column may declare (read by :func:`archsys.output.numbers.format_value`).
-FORMATS = ("summary", "percent", "integer", "number", "text", "names")
-
-
-@dataclass(frozen=True)
-class Column:
-    """Metadata of one document key, read by every output format and by the figures.
-
-    ``key`` is the JSON key; a key inside a system-level block is written
-    ``"block.key"`` (e.g. ``"amd.system_stable_probability"``).  ``label`` is
-    the human label (plain Unicode), ``latex`` the LaTeX label, ``unit`` the
-    plain unit, ``unit_latex`` its LaTeX form and ``unit_astropy`` an astropy
-    unit string (tables with units in the Python API).  ``fmt`` is one of
-    :data:`FORMATS`; ``scale`` multiplies values for display (a fraction shown in
-    per cent has scale 100 and unit "%").  ``table`` is "planet", "pair", "star"
-    or "system".  ``show=False`` keeps a column in the JSON but out of the
-    human-readable tables (e.g. a value that another row already shows).
-    """
-
-    key: str
-    label: str
-    latex: str
-    unit: str = ""
-    unit_latex: str = ""
-    fmt: str = "summary"
-    scale: float = 1.0
-    table: str = "pair"
-    unit_astropy: str = ""
-    show: bool = True
-    description: str = ""
-
-    def __post_init__(self):
-        if self.fmt not in FORMATS:
-            raise ValueError(f"column {self.key!r}: fmt must be one of {FORMATS}; got {self.fmt!r}")
-        if self.table not in ("planet", "pair", "star", "system"):
-            raise ValueError(f"column {self.key!r}: table must be planet, pair, star or system")
-
+           "registered_scores", "column", "score_columns", "load_builtin", "FORMATS"]
 
 @dataclass
 class ScoreContext:
@@ -83,8 +50,12 @@ class ScoreContext:
         return max(len(self.names) - 1, 0)
 
     def note(self, planet, what):
-        """The posterior's note on how ``what`` (mass, ecc, inc) of ``planet`` was obtained."""
-        return str((self.post.notes or {}).get(planet, {}).get(what, "") or "")
+        """The posterior's note on how ``what`` (mass, ecc, inc) of ``planet`` was obtained.
+
+        Eccentricity and inclination notes are :class:`~archsys.inference.basis.Basis` strings:
+        test where the value comes from with :func:`~archsys.inference.basis.origin_of`.
+        """
+        return (self.post.notes or {}).get(planet, {}).get(what, "") or ""
 
 
 @dataclass
@@ -161,9 +132,25 @@ def registered(score):
         unregister(s.name)
 
 
+#: Modules of the scores package that are infrastructure, not scores.
+NOT_SCORES = {"registry", "column_model", "planet_columns", "common", "compute", "dynamics_assess"}
+_loaded = False
+
+
+def load_builtin():
+    """Import every score module of the scores package once (each registers itself when imported)."""
+    global _loaded
+    if _loaded:
+        return
+    here = pathlib.Path(__file__).resolve().parent
+    for mod in sorted(m.name for m in pkgutil.iter_modules([str(here)])):
+        if mod not in NOT_SCORES:
+            importlib.import_module(f"{__package__}.{mod}")
+    _loaded = True
+
+
 def registered_scores():
     """The registered scores in run order."""
-    from . import load_builtin
     load_builtin()
     return sorted(_REGISTRY.values(), key=lambda s: (s.order, s.name))
 

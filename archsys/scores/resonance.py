@@ -14,8 +14,10 @@ from collections import Counter
 
 import numpy as np
 
+from ..inference.basis import Origin, origin_of
 from ..inference.summary import probability, summarize
 from ..physics import spacing
+from ..physics import resonance_overlap
 from .common import adjacent, barely_constrained, effective_mass, flat_ecc_prior, masked_apply
 from .registry import Column, Score, ScoreResult, register, verdict
 
@@ -43,7 +45,7 @@ def near_window(j, k, mu, e):
     super-period columns report a pair).  Whether the pair is *in* resonance is decided by the libration of its
     resonant angles in the N-body integration, not by this window.
     """
-    return np.minimum(spacing.NEAR_WINDOW_MULTIPLE * spacing.resonance_width(j, 1, mu, e) / k, NEAR_MAX_OFFSET)
+    return np.minimum(resonance_overlap.NEAR_WINDOW_MULTIPLE * resonance_overlap.resonance_width(j, 1, mu, e) / k, NEAR_MAX_OFFSET)
 
 
 def near_mmr(ratio, mu, e, max_order=spacing.MMR_MAX_ORDER):
@@ -71,7 +73,7 @@ def near_first_order(ratio, mu, e):
     which = np.zeros(np.shape(ratio), dtype=int)
     best = np.full(np.shape(ratio), np.inf)
     for j, k, ratio_res in spacing.MMR_TABLE[spacing.MMR_TABLE["k"] == 1]:
-        window = spacing.NEAR_WINDOW_MULTIPLE * spacing.resonance_width(j, k, mu, e)
+        window = resonance_overlap.NEAR_WINDOW_MULTIPLE * resonance_overlap.resonance_width(j, k, mu, e)
         dist = np.abs(ratio / ratio_res - 1.0) / window
         hit = (dist < 1.0) & (dist < best)
         which = np.where(hit, j, which)
@@ -144,16 +146,15 @@ class ResonanceScore(Score):
             sel = near_j[:, p] > 0
             jk = list(zip(near_j[:, p][sel].tolist(), near_k[:, p][sel].tolist()))
             j, k = Counter(jk).most_common(1)[0][0] if jk else (0, 0)
-            eccs = [ctx.note(q["inner"], "ecc"), ctx.note(q["outer"], "ecc")]
-            loose = any("prior only" not in e and "assumed" not in e and "fixed" not in e
-                        and barely_constrained(ctx.post["ecc"][:, i], flat_ecc_prior(ctx.post))
+            eccs = [origin_of(ctx.note(q["inner"], "ecc")), origin_of(ctx.note(q["outer"], "ecc"))]
+            loose = any(e is Origin.DATA and barely_constrained(ctx.post["ecc"][:, i], flat_ecc_prior(ctx.post))
                         for e, i in zip(eccs, (p, p + 1)))
             out.append(verdict(
                 "near_resonance", prob, [q["inner"], q["outer"]],
                 criterion="period ratio within the near-resonance window (3 first-order widths scaling with "
                           "mu^(2/3), divided by the order) of a resonance of order 1-3",
                 citation="Deck, Payne & Holman 2013",
-                caveats=(["prior_only_eccentricity"] if any("prior only" in e for e in eccs) else [])
+                caveats=(["prior_only_eccentricity"] if Origin.PRIOR in eccs else [])
                 + (["weak_eccentricity"] if loose else []),
                 mmr=spacing.mmr_label(j, k) if j else q.get("nearest_mmr"), order=int(k) if j else q.get("mmr_order"),
                 nearest_mmr=q.get("nearest_mmr"), nearest_order=q.get("mmr_order"),

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..physics import spacing
+from ..physics import mmr_chains
 from .registry import Column, Score, ScoreResult, register, verdict
 
 __all__ = ["ResonantChainScore"]
@@ -23,7 +23,7 @@ class ResonantChainScore(Score):
         known = np.isfinite(nr)
         n_known = known.sum(axis=0)                  # pairs with no known draw are not near resonance
         p_near = np.where(known, nr, 0.0).sum(axis=0) / np.maximum(n_known, 1)
-        chains = spacing.resonant_chains(p_near > 0.5, min_pairs=2)
+        chains = mmr_chains.resonant_chains(p_near > 0.5, min_pairs=2)
         names = ctx.names
         return ScoreResult(system={"resonant_chains": [[names[a] for a in range(int(s), int(e) + 1)]
                                                        for s, e in chains]})

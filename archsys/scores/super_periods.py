@@ -15,6 +15,7 @@ import numpy as np
 
 from ..inference.summary import summarize
 from ..physics import spacing, timing
+from ..physics import resonance_overlap
 from .common import effective_mass
 from .registry import Column, Score, ScoreResult, register
 
@@ -69,7 +70,7 @@ def super_period_block(post, free_eccentricity=0.0):
                                             coeff_alpha=alpha)
         # inside the resonance width the pair may librate: LXW12's near-resonance formulae do not apply
         e_pair = np.maximum(post["ecc"][ok, i], post["ecc"][ok, i + 1])[have]
-        width = spacing.resonance_width(bj, bk, (mu1 + mu2)[have], np.nan_to_num(e_pair))
+        width = resonance_overlap.resonance_width(bj, bk, (mu1 + mu2)[have], np.nan_to_num(e_pair))
         entry.update(ttv_amplitude_inner_min=summarize(a_in * MINUTES_PER_DAY),
                      ttv_amplitude_outer_min=summarize(a_out * MINUTES_PER_DAY),
                      super_period_in_resonance_width_probability=float(np.mean(np.abs(delta[have]) < width)))

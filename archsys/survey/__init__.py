@@ -1,1 +1,3 @@
 """Survey: batch analysis of catalogues and population inference."""
+
+__all__ = []

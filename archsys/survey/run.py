@@ -39,7 +39,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from .. import __version__
+from ..version import __version__
 from ..progress import peak_memory_mib
 from ..errors import InputError
 from ..options import FAST_DRAWS, AnalysisOptions, SurveyOptions, split_keywords
@@ -318,7 +318,7 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
 
 def _hier_inputs(store, ids, ok_rows):
     """Samples and interim log-priors for the hierarchical fits."""
-    from ..inference.priors import load_prior
+    from ..inference.prior_files import load_prior
     from .hierarchical import marginal_tilt_log_prior
     ok = {r["system"] for r in ok_rows}
     transiting_multi = {r["system"] for r in ok_rows if r["n_planets"] >= 2 and r["n_transiting"] == r["n_planets"]}

@@ -28,7 +28,8 @@ import sqlite3
 import numpy as np
 
 from ..errors import InputError
-from ..output.files import atomic_write, printable
+from ..output.files import atomic_write
+from ..output.file_names import printable
 from . import store_check
 
 __all__ = ["SurveyStore", "escape_cell", "csv_text", "write_csv", "pack_samples", "unpack_samples"]

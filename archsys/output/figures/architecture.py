@@ -218,7 +218,7 @@ MAX_ROW_LABEL = 24
 
 def row_label(name, limit=MAX_ROW_LABEL):
     """A row label of at most ``limit`` characters ('Aaaaaaaaaa…zzzzzzzzz'), control characters escaped."""
-    from ..files import printable
+    from ..file_names import printable
     s = printable(str(name))
     if len(s) <= limit:
         return s

@@ -16,7 +16,7 @@ import numpy as np
 from ...errors import InputError
 from ...physics.constants import MEARTH_MSUN
 from ...inference.summary import angle_branch, wrap_angle
-from ..files import safe_name
+from ..file_names import safe_name
 from .common import letter, mathrm
 
 __all__ = ["CornerParam", "planet_parameters", "system_parameters", "usable_parameters",

@@ -19,14 +19,14 @@ def _document_priors(document):
     rec = (document.get("provenance") or {}).get("priors") or {}
     if not rec:
         return None
-    from ...inference.priors import load_prior
+    from ...inference.prior_files import load_prior
     out = {}
     try:
         ecc = rec.get("eccentricity", {}).get("name")
         if ecc:
             pr = load_prior(ecc)
             for j, pl in enumerate(document.get("planets", [])):
-                if "fixed" not in str(pl.get("ecc_basis", "")):
+                if pl.get("ecc_origin") != "fixed":
                     out[f"e_{j}"] = pr
         sig = rec.get("mutual_inclination_sigma", {}).get("name")
         if sig:
@@ -114,7 +114,7 @@ def make_figures(draws, document, preset=None, truths=None, priors=None, corner_
             raise InputError("--corner-params needs posterior draws (a chains file or a new analysis)")
         return items
     sets = [("corner_system", system_parameters(draws, document), f"{name}: system parameters")]
-    from ..files import unique_stems
+    from ..file_names import unique_stems
     letters, _ = unique_stems([letter(pl["name"], name) for pl in document.get("planets", [])],
                               fallback="planet", reserved=("system",))   # "b/1" vs "b_1"; never "system"
     for j, pl in enumerate(document.get("planets", [])):
@@ -149,7 +149,8 @@ def plot_saved(result_path, fig_dir, preset=None, corner_params=None):
     Returns the list of written paths.
     """
     from ..chains import load_posterior
-    from ..files import atomic_write, safe_name
+    from ..files import atomic_write
+    from ..file_names import safe_name
 
     draws, meta = load_posterior(result_path)
     doc = meta.get("document") or {}

@@ -189,7 +189,8 @@ def write_stacked_figure(docs, fig_dir, stem="architecture_stack", preset=None, 
     """
     from . import architecture_figure
     from .common import FigureItem
-    from ..files import atomic_write, safe_name
+    from ..files import atomic_write
+    from ..file_names import safe_name
     from ..style import get_preset
     if limit is not None:
         docs = docs[:limit]

@@ -1,32 +1,27 @@
 """Report formats: :func:`render` one format, or :func:`write_outputs` all of them.
 
-Every renderer (text, Markdown, HTML, LaTeX) reads the one table model of
-:mod:`archsys.output.table_model`; this module only dispatches, so the renderers
-never import it back (no import cycle).  :func:`write_outputs` renders every
-format, the chains file, the provenance sidecar and the figures in memory and
+Every format is a module of this package registered in :mod:`.registry` (text, JSON,
+Markdown, HTML, LaTeX, AASTeX); renderers read the one table model of
+:mod:`archsys.output.table_model`.  This module only dispatches through the registry,
+so the renderers never import it (no import cycle).  :func:`write_outputs` renders every
+registered format, the chains file, the provenance sidecar and the figures in memory and
 only then writes them, each atomically.
 """
 from __future__ import annotations
 
-import json
 import os
 import pathlib
 
 from ...errors import InputError
 from ...scores.registry import Column
-from . import html as html_out
-from . import latex as latex_out
-from . import markdown as markdown_out
-from . import terminal as text_out
 from ..numbers import short_name
-from ..references import render_bib
 from ..table_model import Table, Tables, document_tables, format_cell, verdict_lines
+from .registry import (RenderContext, ReportFormat, format_names, get_format, register_format,
+                       registered_format, report_formats)
 
 __all__ = ["Column", "Table", "Tables", "document_tables", "format_cell", "short_name",
-           "verdict_lines", "FORMATS", "render", "write_outputs", "document_of"]
-
-FORMATS = ("markdown", "html", "latex", "json", "text", "aastex")
-_ALIASES = {"md": "markdown", "tex": "latex", "htm": "html", "txt": "text"}
+           "verdict_lines", "render", "write_outputs", "document_of", "ReportFormat", "RenderContext",
+           "register_format", "registered_format", "report_formats", "format_names", "get_format"]
 
 
 # --- rendering entry points -------------------------------------------------
@@ -43,29 +38,17 @@ def document_of(result):
 def render(result, fmt, figures=None, preset=None):
     """The report of ``result`` (Analysis or document) as a string in ``fmt``.
 
-    ``fmt``: markdown, html, latex (plain ``tabular``), aastex (AAS deluxetable), json or
-    text.  HTML embeds figures: the ``figures`` list of :class:`archsys.output.figures.FigureItem` if given,
+    ``fmt``: a registered format (:func:`format_names`: text, json, markdown, html, latex,
+    aastex) or an alias of one (md, htm, tex, txt).  HTML embeds figures: the ``figures`` list of :class:`archsys.output.figures.FigureItem` if given,
     otherwise they are drawn from ``result`` (posterior draws when it is an
     Analysis, the document alone otherwise).
     """
-    name = _ALIASES.get(str(fmt).lower(), str(fmt).lower())
+    spec = get_format(fmt)
     doc = document_of(result)
-    if name == "markdown":
-        return markdown_out.render_markdown(doc)
-    if name == "latex":
-        return latex_out.render_latex(doc)
-    if name == "aastex":
-        return latex_out.render_aastex(doc)
-    if name == "json":
-        return json.dumps(doc, indent=2, sort_keys=False) + "\n"
-    if name == "text":
-        return text_out.render_text(doc)
-    if name == "html":
-        if figures is None:
-            from ..figures import make_figures
-            figures = make_figures(_draws_of(result), doc, preset=preset)
-        return html_out.render_html(doc, figures)
-    raise InputError(f"unknown report format {fmt!r}; choose one of {', '.join(FORMATS)}", field="format")
+    if spec.embeds_figures and figures is None:
+        from ..figures import make_figures
+        figures = make_figures(_draws_of(result), doc, preset=preset)
+    return spec.render(doc, RenderContext(figures=tuple(figures) if figures is not None else None))
 
 
 def _draws_of(result):
@@ -83,8 +66,9 @@ def _dir(path, what):
 def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, corner_params=None):
     """Write every report format, chains, provenance and figures of ``result``.
 
-    Into ``out_dir``: ``<name>.json``, ``.md``, ``.html``, ``.tex``, ``.aas.tex``, ``.verdicts.tex``
-    (the verdicts as a paragraph), ``.bib`` (what to cite), ``.txt``,
+    Into ``out_dir``: one file per registered format (``<name>.json``, ``.md``, ``.html``,
+    ``.tex``, ``.aas.tex``, ``.verdicts.tex`` (the verdicts as a paragraph), ``.bib`` (what to
+    cite), ``.txt``),
     ``<name>.chains.npz`` and ``<name>.provenance.json``; figures (PDF and PNG)
     into ``fig_dir`` (``out_dir/figures`` when only ``out_dir`` is given).
     Everything is rendered in memory first; each file is then written
@@ -97,7 +81,8 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, co
         file name -> :class:`pathlib.Path` of every file written.
     """
     from ..figures import figure_files, make_figures
-    from ..files import atomic_write, safe_name
+    from ..files import atomic_write
+    from ..file_names import safe_name
     from ..provenance import build_provenance, provenance_json
     from ..style import get_preset
 
@@ -118,14 +103,9 @@ def write_outputs(result, out_dir=None, fig_dir=None, preset=None, stem=None, co
     if out is not None:
         rel = _relative(figs_at, out)
         md_figs = [(f.caption, f"{rel}/{stem}_{f.name}.png") for f in figures]
-        files[out / f"{stem}.json"] = (json.dumps(doc, indent=2, sort_keys=False) + "\n", "w")
-        files[out / f"{stem}.md"] = (markdown_out.render_markdown(doc, figures=md_figs), "w")
-        files[out / f"{stem}.html"] = (html_out.render_html(doc, figures), "w")
-        files[out / f"{stem}.tex"] = (latex_out.render_latex(doc), "w")
-        files[out / f"{stem}.aas.tex"] = (latex_out.render_aastex(doc), "w")
-        files[out / f"{stem}.verdicts.tex"] = (latex_out.render_verdicts_tex(doc), "w")
-        files[out / f"{stem}.bib"] = (render_bib(doc), "w")
-        files[out / f"{stem}.txt"] = (text_out.render_text(doc), "w")
+        ctx = RenderContext(figures=tuple(figures), figure_links=tuple(md_figs))
+        for spec in report_formats():                 # every registered format, in file order
+            files[out / f"{stem}{spec.suffix}"] = (spec.render(doc, ctx), "w")
         post = getattr(result, "posterior", None)
         if post is not None:
             from ..chains import posterior_bytes

@@ -10,9 +10,11 @@ import re
 from html import escape
 
 from ..style import PALETTE
-from ..table_model import document_tables, intro_line, provenance_items, sampler_items, split_table
+from ..table_model import document_tables, split_table
+from ..report_meta import intro_line, provenance_items, sampler_items
+from .registry import ReportFormat, register_format
 
-__all__ = ["render_html", "html_cell"]
+__all__ = ["FORMAT", "render_html", "html_cell"]
 
 _CSS = """
 :root { --ink: #1d232b; --muted: #5b6470; --rule: #d5dae0; --band: #f4f6f8; --accent: %(blue)s;
@@ -237,3 +239,8 @@ def render_html(doc, figures=()) -> str:
         L.append(f'<p class="note"><strong>Note.</strong> {escape(doc["disclaimer"])}</p>')
     L += ["</main></body>", "</html>"]
     return "\n".join(L) + "\n"
+
+
+FORMAT = register_format(ReportFormat(
+    "html", ".html", lambda doc, ctx: render_html(doc, list(ctx.figures or ())), order=30, aliases=("htm",),
+    embeds_figures=True, description="self-contained HTML page with the figures embedded"))

@@ -24,12 +24,14 @@ from __future__ import annotations
 
 import re
 
-from ..files import safe_name
+from ..file_names import safe_name
 from ..latex_escape import escape
 from ..references import LATEX_FALLBACK, cite_latex
-from ..table_model import document_tables, intro_line, split_table
+from ..table_model import document_tables, split_table
+from ..report_meta import intro_line
+from .registry import ReportFormat, register_format
 
-__all__ = ["render_latex", "render_aastex", "render_verdicts_tex", "latex_cell", "escape", "standalone",
+__all__ = ["FORMAT", "render_latex", "render_aastex", "render_verdicts_tex", "latex_cell", "escape", "standalone",
            "TEXTWIDTH_BUDGET", "column_width"]
 
 #: Width budget of one table in "digit widths" of the table font (\scriptsize, \tabcolsep 3pt) at an
@@ -341,3 +343,7 @@ def _wrap(text, width=100):
 def standalone(fragment: str) -> str:
     """A complete document around a fragment from :func:`render_latex` (for test compiles)."""
     return "\\documentclass[twocolumn]{article}\n\\begin{document}\n" + fragment + "\\end{document}\n"
+
+
+FORMAT = register_format(ReportFormat("latex", ".tex", lambda doc, ctx: render_latex(doc), order=40, aliases=("tex",),
+                                      description="LaTeX tabular tables for \\input"))

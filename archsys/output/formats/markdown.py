@@ -1,9 +1,11 @@
 """Markdown report (GitHub-flavoured pipe tables), rendered from the report document."""
 from __future__ import annotations
 
-from ..table_model import document_tables, intro_line, provenance_items, sampler_items
+from ..table_model import document_tables
+from ..report_meta import intro_line, provenance_items, sampler_items
+from .registry import ReportFormat, register_format
 
-__all__ = ["render_markdown", "md_cell"]
+__all__ = ["FORMAT", "render_markdown", "md_cell"]
 
 
 def _esc(s):
@@ -92,3 +94,8 @@ def render_markdown(doc, figures=None) -> str:
     if doc.get("disclaimer"):
         L += [f"> **Note.** {_esc(doc['disclaimer'])}", ""]
     return "\n".join(L)
+
+
+FORMAT = register_format(ReportFormat(
+    "markdown", ".md", lambda doc, ctx: render_markdown(doc, figures=list(ctx.figure_links or ()) or None),
+    order=20, aliases=("md",), description="GitHub-flavoured Markdown with links to the figure files"))

@@ -7,9 +7,11 @@ only when writing to a terminal.
 from __future__ import annotations
 
 from ..numbers import plain_cell
-from ..table_model import document_tables, intro_line
+from ..table_model import document_tables
+from ..report_meta import intro_line
+from .registry import ReportFormat, register_format
 
-__all__ = ["render_text"]
+__all__ = ["FORMAT", "render_text"]
 
 
 class _Style:
@@ -100,3 +102,7 @@ def render_text(doc, colour=False) -> str:
     if doc.get("disclaimer"):
         L += ["", st.dim("Note: " + doc["disclaimer"])]
     return "\n".join(L) + "\n"
+
+
+FORMAT = register_format(ReportFormat("text", ".txt", lambda doc, ctx: render_text(doc), order=60, aliases=("txt",),
+                                      description="plain-text report (as on the terminal, without colour)"))
