@@ -216,6 +216,14 @@ def _classify(res):
                  "survived": 1.0 - f_event}
 
 
+def _estimate(out, key, log10_t, citation, domain):
+    """Add one published estimate when at least half of the draws are inside its domain."""
+    fin = np.isfinite(log10_t)
+    if fin.mean() >= 0.5:
+        out[key] = {"log10_inner_orbits": summarize(log10_t[fin]), "in_domain_probability": float(fin.mean()),
+                    "citation": citation, "domain": domain}
+
+
 def _instability_times(ctx, domain):
     """Published instability-time estimates inside their domains (log10 inner orbits)."""
     post = ctx.post
@@ -227,25 +235,18 @@ def _instability_times(ctx, domain):
     a, P, e, ms = (np.asarray(post[k], dtype=float)[ok] for k in ("a", "period", "ecc", "m_star"))
     mm = m[ok]
     if post.system.n_planets >= 3:
-        lt = instability_time.log10_time_compact(a, mm, P, ms, e)
-        fin = np.isfinite(lt)
-        if fin.mean() >= 0.5:
-            out["compact_three_body"] = {
-                "log10_inner_orbits": summarize(lt[fin]), "in_domain_probability": float(fin.mean()),
-                "citation": "Yalinewich & Petrovich 2020; Petit et al. 2020",
-                "domain": "three or more planets, e <= 0.05, near-circular and coplanar, away from two-body "
-                          "resonance overlap; the closest pair sets the time"}
+        _estimate(out, "compact_three_body", instability_time.log10_time_compact(a, mm, P, ms, e),
+                  "Yalinewich & Petrovich 2020; Petit et al. 2020",
+                  "three or more planets, e <= 0.05, near-circular and coplanar, away from two-body "
+                  "resonance overlap; the closest pair sets the time")
     if post.system.n_planets == 2:
         margin = ctx.arrays.get("hill_margin")
         hs = (margin[ok, 0] > 0) if margin is not None else np.zeros(len(a), bool)
-        lt = instability_time.log10_time_pair_minimum(mm[:, 0], mm[:, 1], ms, e[:, 0], e[:, 1], hs)
-        fin = np.isfinite(lt)
-        if fin.mean() >= 0.5:
-            out["pair_minimum"] = {
-                "log10_inner_orbits": summarize(lt[fin]), "in_domain_probability": float(fin.mean()),
-                "citation": "Veras & Mustill 2013",
-                "domain": "two Hill-stable, nearly coplanar planets with e < 0.3; a minimum time before "
-                          "Lagrange instability can appear"}
+        _estimate(out, "pair_minimum",
+                  instability_time.log10_time_pair_minimum(mm[:, 0], mm[:, 1], ms, e[:, 0], e[:, 1], hs),
+                  "Veras & Mustill 2013",
+                  "two Hill-stable, nearly coplanar planets with e < 0.3; a minimum time before "
+                  "Lagrange instability can appear")
     return out
 
 
