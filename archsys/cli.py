@@ -115,9 +115,12 @@ def main(argv=None):
     parser = build_parser()
     args = _parse(parser, argv)
     debug = getattr(args, "debug", False)
-    old_term = None
+    old_term = old_int = None
     try:
         old_term = signal.signal(signal.SIGTERM, _on_sigterm)
+        # Ctrl-C as KeyboardInterrupt again: a C library (rebound installs its own SIGINT handler when it
+        # integrates) may have replaced Python's, and the interruption must run every cleanup.
+        old_int = signal.signal(signal.SIGINT, signal.default_int_handler)
     except (ValueError, OSError, AttributeError):      # not the main thread, or no SIGTERM
         pass
     try:
@@ -165,11 +168,12 @@ def main(argv=None):
             import logging
             logging.disable(logging.NOTSET)
             _STATE["logging_off"] = False
-        if old_term is not None:
-            try:
-                signal.signal(signal.SIGTERM, old_term)
-            except (ValueError, OSError):
-                pass
+        for sig, old in ((signal.SIGTERM, old_term), (signal.SIGINT, old_int)):
+            if old is not None:
+                try:
+                    signal.signal(sig, old)
+                except (ValueError, OSError, TypeError):
+                    pass
 
 
 if __name__ == "__main__":  # pragma: no cover
