@@ -63,7 +63,9 @@ print("@@" + json.dumps(out))
 def measure(tree, path):
     """Figures of one reading of ``path`` by source tree ``tree`` in a fresh process."""
     env = dict(os.environ, PYTHONPATH=str(tree), MPLBACKEND="Agg")
-    r = subprocess.run([sys.executable, "-c", _RUN, str(path)], capture_output=True, text=True, env=env)
+    # cwd: ``python -c`` puts the working folder first on sys.path, before PYTHONPATH
+    r = subprocess.run([sys.executable, "-c", _RUN, str(path)], capture_output=True, text=True, env=env,
+                       cwd=str(tree))
     line = [ln for ln in r.stdout.splitlines() if ln.startswith("@@")]
     if r.returncode != 0 or not line:
         raise RuntimeError(f"reading failed ({tree}, {path}): {r.stderr.strip()[-400:]}")

@@ -144,8 +144,10 @@ class Catalog:
 class SystemRows:
     """The rows of one system, in table order, kept packed.
 
-    ``row_numbers``: 1-based data rows; ``packed``: their cells (:func:`pack_row`),
-    aligned with ``columns`` (one tuple shared by every system of a catalogue).
+    ``row_numbers``: 1-based data rows (a ``range`` when they follow each other);
+    ``packed``: their cells (:func:`pack_row`), aligned with ``columns`` (one
+    tuple shared by every system of a catalogue); ``broken``: (row, reason) of
+    rows of this system that could not be read.
     ``rows`` unpacks them on each access into (row number, dict column -> cell):
     bind it to a local name when it is read several times.
     """
@@ -154,7 +156,7 @@ class SystemRows:
     row_numbers: tuple
     packed: tuple
     columns: tuple
-    broken: list = field(default_factory=list)   # (row, reason): rows of this system that could not be read
+    broken: list | tuple = ()
     spellings: tuple = ()    # the id's Unicode spellings in the table when there were several (NFC merged)
 
     @classmethod
@@ -165,7 +167,7 @@ class SystemRows:
         columns = tuple(columns)
         return cls(system, tuple(n for n, _ in rows),
                    tuple(pack_row(tuple(cells.get(c) for c in columns)) for _, cells in rows),
-                   columns, list(broken), tuple(spellings))
+                   columns, list(broken) or (), tuple(spellings))
 
     @property
     def rows(self) -> list:
@@ -451,7 +453,7 @@ def group_systems(cat: Catalog, system_col: str):
             if isinstance(sid, str) and not bad_text(sid):
                 sid = system_key(sid)
                 broken.setdefault(sid, []).append((i + 1, bad[i + 1]))
-                groups.setdefault(sid, ([], []))
+                groups.setdefault(sid, [])
             continue
         sid = unpack_row(packed)[col]
         if sid is None:
@@ -467,13 +469,25 @@ def group_systems(cat: Catalog, system_col: str):
                 spellings[key] = {spell, sid}
         else:
             spell.add(sid)
-        nums, packs = groups.setdefault(key, ([], []))
-        nums.append(i + 1)
-        packs.append(packed)
+        seq = groups.get(key)
+        if seq is None:
+            groups[key] = [i + 1, packed]       # row number, packed row, row number, ...: one list
+        else:
+            seq += (i + 1, packed)
     columns = tuple(cat.columns)          # one tuple shared by every system
-    return [SystemRows(s, tuple(groups[s][0]), tuple(groups[s][1]), columns, broken.get(s, []),
-                       tuple(sorted(spellings[s])) if isinstance(spellings.get(s), set) else ())
-            for s in sorted(groups)], orphans
+    out = []
+    for s in sorted(groups):
+        seq = groups.pop(s)
+        out.append(SystemRows(s, _row_numbers(seq[0::2]), tuple(seq[1::2]), columns, broken.get(s, ()),
+                              tuple(sorted(spellings[s])) if isinstance(spellings.get(s), set) else ()))
+    return out, orphans
+
+
+def _row_numbers(nums):
+    """Row numbers (increasing) as a ``range`` when they follow each other (a system's usual rows), else a tuple."""
+    if nums and nums[-1] - nums[0] == len(nums) - 1:
+        return range(nums[0], nums[-1] + 1)
+    return tuple(nums)
 
 
 # the selection language lives in .where; re-exported here for older imports
