@@ -24,8 +24,9 @@ __all__ = ["read_input_bytes", "check_regular_file", "open_input_stream", "Input
 #: Largest system file (a 64-planet system with notes is a few tens of kB).
 MAX_SYSTEM_FILE_BYTES = 16 << 20
 #: Largest catalogue table or column map.  CSV and Parquet catalogues are streamed (never held whole in
-#: memory), but what is kept of them -- every row, packed (survey/catalog.py) -- is about 1.5 times the
-#: size of a CSV file, so the cap still bounds the memory of a survey (about 3 GiB at the cap).
+#: memory), but what is kept of them -- every row, packed (survey/catalog.py), and its system -- grows
+#: with the rows: about 2.6 times the size of a CSV file of three-planet systems (more for a compressed
+#: Parquet file), so the cap is kept: a CSV file at the cap takes about 5 GiB.
 MAX_TABLE_BYTES = 2 << 30
 
 _BOM = b"\xef\xbb\xbf"

@@ -59,7 +59,7 @@ _FORMATS = {".csv": "csv", ".txt": "csv", ".tsv": "csv", ".ecsv": "ecsv", ".parq
 #: Rows between two progress reports while a CSV table is read (Parquet: one report per batch).
 PROGRESS_ROWS = 20_000
 #: Rows per Parquet batch: the memory of one batch's Python cells at a time, beside the packed rows.
-PARQUET_BATCH_ROWS = 65_536
+PARQUET_BATCH_ROWS = 32_768
 #: Bytes read from a file at a time.
 _READ_CHUNK = 1 << 20
 
@@ -362,7 +362,8 @@ def _read_parquet(path: pathlib.Path, progress=None, batch_rows=None):
         raise InputError(f"{path}: reading Parquet needs pyarrow (pip install 'archsys[parquet]'): {exc}") from None
     rows, malformed, raw = [], [], {}
     try:
-        pf = pq.ParquetFile(str(path))
+        # buffered reads of each column chunk, no pre-buffering of a whole row group: less memory at once
+        pf = pq.ParquetFile(str(path), buffer_size=_READ_CHUNK, pre_buffer=False)
         header = [str(n) for n in pf.schema_arrow.names]
         for batch in pf.iter_batches(batch_size=batch_rows or PARQUET_BATCH_ROWS):
             cols = {h: _clean_column(batch.column(j).to_pylist()) for j, h in enumerate(header)}
