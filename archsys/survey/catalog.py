@@ -230,13 +230,14 @@ def _read_csv(path: pathlib.Path, stream, progress=None):
     header, is never guessed at: it is kept as a malformed row (reported in
     rejects.csv) and the other rows are read.
     """
-    buf = io.BufferedReader(stream, _READ_CHUNK)
+    buf = io.BufferedReader(stream, max(_READ_CHUNK, 8))     # (8: room for the byte-order-mark test)
     head = buf.peek(5)[:5]
     if head.startswith(b"\xef\xbb\xbf"):
         head = head[3:]
     if head[:2] in (b"\xff\xfe", b"\xfe\xff"):
         raise InputError(f"{path}: UTF-16 text; save the table as UTF-8")
     text = io.TextIOWrapper(buf, encoding="utf-8", errors="surrogateescape", newline="")
+    text._CHUNK_SIZE = _READ_CHUNK     # bytes decoded at a time (8 KiB by default); lines span chunks
     first = text.readline()
     if first.startswith("\ufeff"):
         first = first[1:]
