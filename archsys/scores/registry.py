@@ -93,8 +93,22 @@ class Score:
         return ctx.n_pairs >= 1
 
     def per_draw(self, ctx: ScoreContext) -> dict:
-        """Arrays of the score on every draw, keyed by name (added to ``ctx.arrays``)."""
+        """Arrays of the score on every draw, keyed by name (added to ``ctx.arrays``).
+
+        Every array has the draws on its first axis and each draw's values depend on that draw only,
+        so that :func:`~archsys.scores.compute.compute_scores_many` may run it once on the draws of
+        many posteriors stacked together (the same bytes as one posterior at a time).
+        """
         return {}
+
+    def batch_key(self, ctx: ScoreContext):
+        """What :meth:`per_draw` decides from the posterior as a whole (default: nothing).
+
+        Posteriors are stacked for :meth:`per_draw` only when their keys are equal (and their
+        draws have the same shapes); a score whose per-draw code branches on a whole-posterior
+        condition returns that condition here.
+        """
+        return None
 
     def summarise(self, ctx: ScoreContext, arrays: dict) -> ScoreResult:
         """JSON-ready summaries of the per-draw arrays."""
