@@ -100,7 +100,7 @@ def _stacked(ctxs):
     draws = {k: cat([c.post.draws[k] for c in ctxs]) for k in first.draws}
     post = Posterior(first.system, draws, first.method, first.seed, first.notes, first.sampler, first.prior,
                      first.phases)
-    ctx = ScoreContext(post, ctxs[0].options)
+    ctx = ScoreContext(post, ctxs[0].options, segments=tuple(c.post.n_draws for c in ctxs))
     ctx.arrays = {k: cat([c.arrays[k] for c in ctxs]) for k in ctxs[0].arrays}
     return ctx
 
@@ -132,8 +132,12 @@ def _per_draw_many(score, ctxs):
         members = [ctxs[i] for i in idx]
         parts = None
         if len(members) > 1:
-            arrays = score.per_draw(_stacked(members)) or {}
-            parts = _split(arrays, [c.post.n_draws for c in members])
+            try:
+                arrays = score.per_draw(_stacked(members)) or {}
+            except Exception:  # noqa: BLE001 - one posterior's problem: redone one at a time below, where it
+                arrays = None  # is raised for that posterior alone
+            if arrays is not None:
+                parts = _split(arrays, [c.post.n_draws for c in members])
         if parts is None:                   # one posterior, or a score whose arrays are not per draw
             parts = [score.per_draw(c) or {} for c in members]
         for i, p in zip(idx, parts):

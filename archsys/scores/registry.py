@@ -40,6 +40,9 @@ class ScoreContext:
     pairs: list = field(default_factory=list)       # per-pair JSON entries built so far
     planets: list = field(default_factory=list)     # per-planet JSON keys added by scores so far
     system: dict = field(default_factory=dict)      # system-level JSON keys built so far
+    #: draws of each posterior stacked in ``post`` (scores.compute.compute_scores_many), in order;
+    #: None for one posterior.  Per-draw code that needs a whole-posterior value (a median) reads it.
+    segments: tuple | None = None
 
     @property
     def names(self):
