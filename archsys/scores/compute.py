@@ -122,22 +122,33 @@ def _split(arrays, sizes):
     return out
 
 
-def _per_draw_many(score, ctxs):
-    """``score.per_draw`` of every context, stacked where the posteriors allow it."""
+def _per_draw_many(score, ctxs, live, stacks):
+    """``score.per_draw`` of the contexts ``live`` (indices into ``ctxs``), stacked where the posteriors allow.
+
+    ``stacks`` keeps the stacked context of each group of posteriors from one score to the next
+    (tuple of indices -> context), so the draws are stacked once, not once per score.
+    """
     groups = {}
-    for i, c in enumerate(ctxs):
-        groups.setdefault(_stack_key(score, c), []).append(i)
-    results = [None] * len(ctxs)
+    for i in live:
+        groups.setdefault(_stack_key(score, ctxs[i]), []).append(i)
+    results = {}
     for idx in groups.values():
         members = [ctxs[i] for i in idx]
         parts = None
         if len(members) > 1:
+            key = tuple(idx)
+            stacked = stacks.get(key) or _stacked(members)
             try:
-                arrays = score.per_draw(_stacked(members)) or {}
+                arrays = score.per_draw(stacked) or {}
             except Exception:  # noqa: BLE001 - one posterior's problem: redone one at a time below, where it
                 arrays = None  # is raised for that posterior alone
             if arrays is not None:
                 parts = _split(arrays, [c.post.n_draws for c in members])
+            if parts is not None:
+                stacked.arrays.update(arrays)
+                stacks[key] = stacked
+            else:
+                stacks.pop(key, None)
         if parts is None:                   # one posterior, or a score whose arrays are not per draw
             parts = [score.per_draw(c) or {} for c in members]
         for i, p in zip(idx, parts):
@@ -157,12 +168,14 @@ def compute_scores_many(posts, options=None) -> list:
     opts = options if isinstance(options, (list, tuple)) else [options] * len(posts)
     ctxs = [_context(p, o) for p, o in zip(posts, opts)]
     ran = [[] for _ in ctxs]
+    stacks = {}
     for score in registered_scores():
         live = [i for i, c in enumerate(ctxs) if score.applies(c)]
         if not live:
             continue
-        for i, arrays in zip(live, _per_draw_many(score, [ctxs[i] for i in live])):
-            ctx = ctxs[i]
+        arrays_of = _per_draw_many(score, ctxs, live, stacks)
+        for i in live:
+            ctx, arrays = ctxs[i], arrays_of[i]
             ctx.arrays.update(arrays)
             _merge(ctx, score, score.summarise(ctx, arrays))
             ran[i].append(score)
