@@ -126,15 +126,14 @@ def gap_fit(p_test, a_in, a_out, m_in, m_out, e_in, e_out, m_star, m_test, amd_t
             "fits": hill_ok & glad_ok & amd_ok}
 
 
-def _first_true(n_trial, pred, n_rows):
-    """Per row, the first grid index where a predicate that is False ... False True ... True holds.
+def _first_true(pred, lo, hi):
+    """Per row, the first index in [lo, hi) where a predicate that is False ... False True ... True holds.
 
-    ``pred(rows, idx)`` evaluates it at grid index ``idx[k]`` of row ``rows[k]``; ``n_trial`` where
-    it never holds.  Bisection: ceil(log2(n_trial + 1)) evaluations per row instead of n_trial.
+    ``pred(rows, idx)`` evaluates it at index ``idx[k]`` of row ``rows[k]``; ``hi`` where it never
+    holds.  Bisection: ceil(log2(hi - lo + 1)) evaluations per row instead of hi - lo.
     """
-    lo = np.zeros(n_rows, dtype=np.intp)
-    hi = np.full(n_rows, n_trial, dtype=np.intp)
-    rows = np.arange(n_rows)
+    lo, hi = lo.copy(), hi.copy()
+    rows = np.flatnonzero(lo < hi)
     while rows.size:
         mid = (lo[rows] + hi[rows]) // 2
         ok = pred(rows, mid)
@@ -159,7 +158,7 @@ def gap_room(p_test, a_in, a_out, m_in, m_out, e_in, e_out, m_star, m_test, amd_
     -------
     dict of ndarray, shape (n_draws,):
         ``fit_lo``/``fit_hi`` (int: first and last grid index where it fits; ``fit_lo > fit_hi`` where
-        nowhere), ``hill_spacing`` and ``gladman`` (bool: the criterion holds somewhere in the gap).
+        nowhere, their values then meaning nothing else), ``hill_spacing`` and ``gladman`` (bool: the criterion holds somewhere in the gap).
     """
     col = [np.asarray(x, dtype=float) for x in (a_in, a_out, m_in, m_out, e_in, e_out, m_star, m_test,
                                                 amd_total)]
@@ -205,10 +204,14 @@ def gap_room(p_test, a_in, a_out, m_in, m_out, e_in, e_out, m_star, m_test, amd_
             return out & (beta < 1.0)
         return pred
 
-    lo = {k: _first_true(n_trial, inner(k), n) for k in ("hill", "gladman", "amd")}
-    hi = {k: n_trial - 1 - _first_true(n_trial, outer(k), n) for k in ("hill", "gladman", "amd")}
-    fit_lo = np.maximum(np.maximum(lo["hill"], lo["gladman"]), lo["amd"])
-    fit_hi = np.minimum(np.minimum(hi["hill"], hi["gladman"]), hi["amd"])
+    start, stop = np.zeros(n, dtype=np.intp), np.full(n, n_trial, dtype=np.intp)
+    lo = {k: _first_true(inner(k), start, stop) for k in ("hill", "gladman")}
+    hi = {k: n_trial - 1 - _first_true(outer(k), start, stop) for k in ("hill", "gladman")}
+    # AMD (the costly criterion) only inside the interval both Hill criteria allow, from its two ends
+    first = np.maximum(lo["hill"], lo["gladman"])
+    last = np.minimum(hi["hill"], hi["gladman"])
+    fit_lo = _first_true(inner("amd"), first, np.maximum(last + 1, first))
+    fit_hi = n_trial - 1 - _first_true(outer("amd"), n_trial - 1 - last, np.maximum(n_trial - fit_lo, n_trial - 1 - last))
     return {"fit_lo": fit_lo, "fit_hi": fit_hi, "hill_spacing": lo["hill"] <= hi["hill"],
             "gladman": lo["gladman"] <= hi["gladman"]}
 
