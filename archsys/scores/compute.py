@@ -81,12 +81,16 @@ def _shape(x):
     return None if x is None else np.shape(x)[1:]
 
 
-def _stack_key(score, ctx):
-    """Posteriors with equal keys can share one stacked per-draw run of ``score``."""
+def _stack_key(score, ctx, post_keys):
+    """Posteriors with equal keys can share one stacked per-draw run of ``score``.
+
+    ``post_keys`` caches the draws' part of the key per posterior (it does not change between scores).
+    """
     post = ctx.post
-    return (score.batch_key(ctx), post.n_draws,
-            tuple(sorted((k, _shape(v)) for k, v in post.draws.items())),
-            tuple(sorted((k, _shape(v)) for k, v in ctx.arrays.items())))
+    pk = post_keys.get(id(post))
+    if pk is None:
+        pk = post_keys[id(post)] = (post.n_draws, tuple(sorted((k, _shape(v)) for k, v in post.draws.items())))
+    return (score.batch_key(ctx), pk, tuple((k, _shape(v)) for k, v in ctx.arrays.items()))
 
 
 def _stacked(ctxs):
@@ -122,7 +126,7 @@ def _split(arrays, sizes):
     return out
 
 
-def _per_draw_many(score, ctxs, live, stacks):
+def _per_draw_many(score, ctxs, live, stacks, post_keys):
     """``score.per_draw`` of the contexts ``live`` (indices into ``ctxs``), stacked where the posteriors allow.
 
     ``stacks`` keeps the stacked context of each group of posteriors from one score to the next
@@ -130,7 +134,7 @@ def _per_draw_many(score, ctxs, live, stacks):
     """
     groups = {}
     for i in live:
-        groups.setdefault(_stack_key(score, ctxs[i]), []).append(i)
+        groups.setdefault(_stack_key(score, ctxs[i], post_keys), []).append(i)
     results = {}
     for idx in groups.values():
         members = [ctxs[i] for i in idx]
@@ -168,12 +172,12 @@ def compute_scores_many(posts, options=None) -> list:
     opts = options if isinstance(options, (list, tuple)) else [options] * len(posts)
     ctxs = [_context(p, o) for p, o in zip(posts, opts)]
     ran = [[] for _ in ctxs]
-    stacks = {}
+    stacks, post_keys = {}, {}
     for score in registered_scores():
         live = [i for i, c in enumerate(ctxs) if score.applies(c)]
         if not live:
             continue
-        arrays_of = _per_draw_many(score, ctxs, live, stacks)
+        arrays_of = _per_draw_many(score, ctxs, live, stacks, post_keys)
         for i in live:
             ctx, arrays = ctxs[i], arrays_of[i]
             ctx.arrays.update(arrays)
