@@ -14,7 +14,7 @@ from .inference.posterior import Posterior
 from .options import AnalysisOptions
 from .output.json_document import build_document
 
-__all__ = ["AnalysisOptions", "Analysis", "analyze"]
+__all__ = ["AnalysisOptions", "Analysis", "analyze", "analyze_many"]
 
 
 @dataclass
@@ -84,16 +84,47 @@ def _condition_on_survival(post, opts: AnalysisOptions) -> Posterior:
     return sub.take(keep, stability_conditioning=block)
 
 
-def analyze(system, options: AnalysisOptions | None = None) -> Analysis:
-    """Analyse one validated :class:`~archsys.model.system.System`."""
-    opts = options or AnalysisOptions()
+def _prepared(system, opts: AnalysisOptions) -> Posterior:
     post = _posterior(system, opts)
     if getattr(system, "reference_plane", "sky") != "sky":
         post = _not_the_sky(post, system.reference_plane)
     if opts.require_stable and opts.stable_by == "nbody":
         post = _condition_on_survival(post, opts)
+    return post
+
+
+def analyze(system, options: AnalysisOptions | None = None) -> Analysis:
+    """Analyse one validated :class:`~archsys.model.system.System`."""
+    opts = options or AnalysisOptions()
+    post = _prepared(system, opts)
     from .scores import compute_scores
     scores = compute_scores(post, opts)       # every registered score (the N-body check when asked)
     res = Analysis(system, post, scores, opts)
     res.document = build_document(res)
     return res
+
+
+def analyze_many(systems, options) -> list:
+    """:func:`analyze` of every system, with the score kernels run once over all their draws.
+
+    ``options``: one :class:`AnalysisOptions` per system (a survey gives each system its own seed).
+    Each system is drawn with its own seed and summarised on its own, so each :class:`Analysis` is
+    the same, byte for byte, as ``analyze(system, options)``; only the per-draw kernels of the scores
+    run on the stacked draws (:func:`archsys.scores.compute_scores_many`).  An exception from one
+    system's draws is returned in its place (the caller decides what a failure means).
+    """
+    from .scores.compute import compute_scores_many
+    systems, options = list(systems), list(options)
+    posts, live = [], []
+    out = [None] * len(systems)
+    for i, (system, opts) in enumerate(zip(systems, options)):
+        try:
+            posts.append(_prepared(system, opts))
+            live.append(i)
+        except Exception as exc:  # noqa: BLE001 - handed back to the caller for this system only
+            out[i] = exc
+    for i, post, scores in zip(live, posts, compute_scores_many(posts, [options[i] for i in live])):
+        res = Analysis(systems[i], post, scores, options[i])
+        res.document = build_document(res)
+        out[i] = res
+    return out

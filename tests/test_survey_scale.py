@@ -137,11 +137,14 @@ OEC_COLUMNS = pathlib.Path(__file__).parent / "data" / "oec_columns.toml"
 
 
 @pytest.mark.slow
-def test_open_catalogue_batched_workers_equal_one_at_a_time(tmp_path):
+def test_open_catalogue_batched_workers_equal_one_at_a_time(tmp_path, monkeypatch):
     # the open catalogue extract (Rein 2012, arXiv:1211.7121; tests/data/oec): one system at a time in
     # this process against batches of systems on two worker processes with the population fits beside
+    from archsys.survey import workers
     kw = dict(columns=str(OEC_COLUMNS), where=["n_planets>=2"], limit=24, mode="fast", figures=False,
               quiet=True, seed=9)
+    monkeypatch.setattr(workers, "FAST_BATCH", 1)                  # one system per call: analyze()
     run_survey(OEC, tmp_path / "one", jobs=1, **kw)
+    monkeypatch.undo()
     run_survey(OEC, tmp_path / "batched", jobs=2, **kw)
     assert _outputs(tmp_path / "batched") == _outputs(tmp_path / "one")

@@ -25,7 +25,21 @@ def quantiles(x, q=_Q):
     place (pass a copy you own).  ``tests/test_summary_quantiles.py`` checks the
     bytes against ``np.quantile``.
     """
-    n = x.shape[0]
+    if q is _Q:
+        prev, nxt, kth, vi = _plan(x.shape[0])
+    else:
+        prev, nxt, kth, vi = _plan_for(x.shape[0], q)
+    x.partition(kth)
+    a, b = x[prev], x[nxt]
+    t = vi - prev
+    d = b - a
+    out = a + d * t
+    np.subtract(b, d * (1 - t), out=out, where=t >= 0.5)
+    return out
+
+
+def _plan_for(n, q):
+    """Indices of :func:`quantiles`: the two order statistics around each quantile and the partition points."""
     vi = (n - 1) * q
     prev = np.floor(vi)
     nxt = prev + 1
@@ -35,13 +49,20 @@ def quantiles(x, q=_Q):
         nxt[above] = -1
     prev = prev.astype(np.intp)
     nxt = nxt.astype(np.intp)
-    x.partition(np.unique(np.concatenate(([0, -1], prev, nxt))))
-    a, b = x[prev], x[nxt]
-    t = vi - prev
-    d = b - a
-    out = a + d * t
-    np.subtract(b, d * (1 - t), out=out, where=t >= 0.5)
-    return out
+    return prev, nxt, np.unique(np.concatenate(([0, -1], prev, nxt))), vi
+
+
+_PLANS: dict = {}
+
+
+def _plan(n):
+    """:func:`_plan_for` of the default quantiles, kept per sample size (a survey has a few sizes)."""
+    plan = _PLANS.get(n)
+    if plan is None:
+        if len(_PLANS) > 256:
+            _PLANS.clear()
+        plan = _PLANS[n] = _plan_for(n, _Q)
+    return plan
 
 
 def _clean(x):

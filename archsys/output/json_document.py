@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import platform
 
+import math
+
 import numpy as np
 
 from ..version import __version__
@@ -231,8 +233,17 @@ def _constraints(opts):
 
 def _finite(obj):
     """Replace non-finite floats by None: a report never contains NaN or infinity."""
+    t = type(obj)
+    if t is dict:
+        return {k: _finite(v) for k, v in obj.items()}
+    if t is float:
+        return obj if math.isfinite(obj) else None
+    if t is str or t is int or t is bool or obj is None:
+        return obj
+    if t is list or t is tuple:
+        return [_finite(v) for v in obj]
     if isinstance(obj, float):
-        return obj if np.isfinite(obj) else None
+        return obj if math.isfinite(obj) else None
     if isinstance(obj, dict):
         return {k: _finite(v) for k, v in obj.items()}
     if isinstance(obj, (list, tuple)):

@@ -29,6 +29,9 @@ class MutualInclinationScore(Score):
     def applies(self, ctx):
         return ctx.n_pairs >= 1 and np.isfinite(ctx.post["inc"]).all()
 
+    def batch_key(self, ctx):
+        return bool(np.isfinite(ctx.post["node"]).all())
+
     def per_draw(self, ctx):
         inc, node = ctx.post["inc"], ctx.post["node"]
         if np.isfinite(node).all():

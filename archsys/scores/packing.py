@@ -20,7 +20,7 @@ from ..inference.stability import amd_inclinations
 from .common import effective_mass
 from .registry import Column, Score, ScoreResult, register, verdict
 
-__all__ = ["packing_block", "packing_arrays", "room_intervals", "MAX_DRAWS", "MAX_DRAWS_FAST", "SHADE_PROBABILITY"]
+__all__ = ["packing_block", "packing_arrays", "packing_summary", "thinned", "room_intervals", "MAX_DRAWS", "MAX_DRAWS_FAST", "SHADE_PROBABILITY"]
 
 #: Draws used (evenly thinned): the grid costs n_draws x N_TRIAL per gap.
 MAX_DRAWS = 1000
@@ -39,20 +39,42 @@ def _test_mass_msun(m_in, m_out, test_mass_mearth):
     return np.full(m_in.shape, float(test_mass_mearth) * MEARTH_MSUN), f"{test_mass_mearth:g} Earth masses (given)"
 
 
+def thinned(n, max_draws):
+    """Indices of the draws the room grid uses: at most ``max_draws`` of ``n``, evenly thinned (as Posterior.subset)."""
+    return np.arange(n) if max_draws >= n else np.linspace(0, n - 1, max_draws).round().astype(int)
+
+
+def _gap_grid(P, j, n_trial):
+    """Trial periods of gap ``j`` from the median periods of the draws ``P`` of one posterior."""
+    return packing.trial_periods(np.nanmedian(P[:, j]), np.nanmedian(P[:, j + 1]), n_trial)
+
+
 def packing_arrays(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARATION,
-                   max_draws=MAX_DRAWS, n_trial=packing.N_TRIAL):
-    """Per-gap arrays over a thinned set of draws, or None with fewer than two planets.
+                   max_draws=MAX_DRAWS, n_trial=packing.N_TRIAL, segments=None):
+    """Per-draw room arrays of a posterior (or of posteriors stacked one after the other), or None.
+
+    ``segments``: the number of draws of each stacked posterior (None: one posterior).  Each
+    posterior is thinned to ``max_draws`` draws (:func:`thinned`) and gets its own trial grid per
+    gap (log-spaced between its median neighbour periods); every returned array has a row per draw
+    of ``post`` and is NaN (False) on the draws left out by the thinning, so a posterior's rows
+    depend on its own draws only.
 
     Returns
     -------
-    dict with ``gaps`` (list of dicts: ``p_test`` (n_trial,), ``flags`` from
-    :func:`~archsys.physics.packing.gap_fit` restricted to usable draws,
-    ``any_fit``/``p_lo``/``p_hi`` (n_draws,) with NaN rows for unusable draws,
-    ``m_test`` [M_sun]) and ``mass_basis``.
+    dict of arrays, ``(n_draws, n_gaps)`` unless stated: ``room_any_fit`` (1/0, NaN where the draw is
+    unusable or thinned out), ``room_p_lo``/``room_p_hi`` [day] (NaN where nothing fits),
+    ``room_m_test`` [M_sun], ``room_hill_any``/``room_gladman_any`` (1/0, NaN where not tested) and
+    ``room_fit_lo``/``room_fit_hi`` (first and last index of the gap's trial grid where the test planet
+    fits, :func:`~archsys.physics.packing.gap_room`; NaN where not tested).
     """
     if post.system.n_planets < 2:
         return None
-    sub = post.subset(max_draws)
+    n_all = post.n_draws
+    segs = tuple(segments) if segments else (n_all,)
+    starts = np.cumsum((0,) + segs)[:-1]
+    picks = [thinned(k, max_draws) for k in segs]
+    rows = np.concatenate([s0 + p for s0, p in zip(starts, picks)])
+    sub = post.take(rows) if rows.size != n_all else post
     m = effective_mass(sub)                                            # (n, n_planets) M_sun
     a, e, P = sub["a"], sub["ecc"], sub["period"]
     inc, _ = amd_inclinations(sub, m)                                  # from the invariable plane
@@ -63,34 +85,94 @@ def packing_arrays(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARA
     c_tot = np.full(n, np.nan)
     if usable.any():
         c_tot[usable] = amd.system_amd(m[usable], a[usable], e[usable], inc[usable], ms[usable])
-    gaps = []
-    for j in range(P.shape[1] - 1):
-        p_in, p_out = np.nanmedian(P[:, j]), np.nanmedian(P[:, j + 1])
-        grid = packing.trial_periods(p_in, p_out, n_trial)
-        m_t, mass_note = _test_mass_msun(m[:, j], m[:, j + 1], test_mass_mearth)
-        any_fit = np.full(n, np.nan)
-        lo, hi = np.full(n, np.nan), np.full(n, np.nan)
-        flags = None
+    n_gaps = P.shape[1] - 1
+    sub_edges = np.cumsum([0] + [p.size for p in picks])
+    out = {k: np.full((n_all, n_gaps), np.nan) for k in
+           ("room_any_fit", "room_p_lo", "room_p_hi", "room_m_test", "room_hill_any", "room_gladman_any")}
+    out["room_fit_lo"] = np.full((n_all, n_gaps), np.nan)
+    out["room_fit_hi"] = np.full((n_all, n_gaps), np.nan)
+    for j in range(n_gaps):
+        # one grid per posterior, from its own (thinned) draws; rows of the stack take their posterior's
+        grids = [_gap_grid(P[lo:hi], j, n_trial) for lo, hi in zip(sub_edges[:-1], sub_edges[1:])]
+        grid = grids[0][None, :] if len(grids) == 1 else np.repeat(np.stack(grids), [p.size for p in picks], axis=0)
+        m_t, _ = _test_mass_msun(m[:, j], m[:, j + 1], test_mass_mearth)
+        out["room_m_test"][rows, j] = m_t
         ok = usable & np.isfinite(m_t) & (m_t > 0)
         if ok.any():
-            flags = packing.gap_fit(grid, a[ok, j], a[ok, j + 1], m[ok, j], m[ok, j + 1], e[ok, j], e[ok, j + 1],
+            g = grid[0] if grid.shape[0] == 1 else grid[ok]
+            room = packing.gap_room(g, a[ok, j], a[ok, j + 1], m[ok, j], m[ok, j + 1], e[ok, j], e[ok, j + 1],
                                     ms[ok], m_t[ok], c_tot[ok], min_hill=min_hill)
-            f, lo[ok], hi[ok] = packing.fit_range(grid, flags["fits"])
-            any_fit[ok] = f
-        gaps.append({"p_test": grid, "flags": flags, "any_fit": any_fit, "p_lo": lo, "p_hi": hi,
-                     "m_test": m_t, "mass_note": mass_note})
-    return {"gaps": gaps, "usable": usable}
+            lo_i, hi_i = room["fit_lo"], room["fit_hi"]
+            fits = lo_i <= hi_i
+            p_lo = g[lo_i.clip(max=n_trial - 1)] if g.ndim == 1 else np.take_along_axis(
+                g, lo_i.clip(max=n_trial - 1)[:, None], axis=1)[:, 0]
+            p_hi = g[hi_i.clip(min=0)] if g.ndim == 1 else np.take_along_axis(g, hi_i.clip(min=0)[:, None], axis=1)[:, 0]
+            r = rows[ok]
+            out["room_any_fit"][r, j] = fits
+            out["room_p_lo"][r, j] = np.where(fits, p_lo, np.nan)
+            out["room_p_hi"][r, j] = np.where(fits, p_hi, np.nan)
+            out["room_hill_any"][r, j] = room["hill_spacing"]
+            out["room_gladman_any"][r, j] = room["gladman"]
+            out["room_fit_lo"][r, j], out["room_fit_hi"][r, j] = lo_i, hi_i
+    return out
 
 
-def _shade_interval(grid, flags):
-    """[P_lo, P_hi] where the test planet fits in >= SHADE_PROBABILITY of the draws, or None."""
-    if flags is None:
+def _shade_interval(grid, lo, hi):
+    """[P_lo, P_hi] where the test planet fits in >= SHADE_PROBABILITY of the draws, or None.
+
+    ``lo``, ``hi``: per tested draw, the first and last grid index where it fits (``lo > hi``: nowhere).
+    """
+    if lo is None:
         return None
-    frac = flags["fits"].mean(axis=0)
+    idx = np.arange(grid.size)
+    frac = ((idx >= lo[:, None]) & (idx <= hi[:, None])).mean(axis=0)
     inside = np.flatnonzero(frac >= SHADE_PROBABILITY)
     if inside.size == 0:
         return None
     return [float(grid[inside[0]]), float(grid[inside[-1]])]
+
+
+def _assumptions(min_hill):
+    return ("test planet on a circular orbit in the reference plane; fits where it is at least "
+            f"{min_hill:g} mutual Hill radii from both neighbours, Hill stable with both "
+            "(Gladman 1993) and the new pairs are AMD stable (Laskar & Petit 2017); "
+            "masses are m sin i where the true mass is unknown; analytic criteria, not a guarantee")
+
+
+def packing_summary(post, arr, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARATION,
+                    max_draws=MAX_DRAWS, n_trial=packing.N_TRIAL):
+    """JSON-ready keys of one posterior from its :func:`packing_arrays` rows (see :func:`packing_block`)."""
+    rows = thinned(post.n_draws, max_draws)
+    P = np.asarray(post["period"])[rows]
+    _, mass_note = _test_mass_msun(np.ones(1), np.ones(1), test_mass_mearth)
+    pairs, fit_cols = [], []
+    for j in range(arr["room_any_fit"].shape[1]):
+        any_fit = arr["room_any_fit"][rows, j]
+        p_lo, p_hi = arr["room_p_lo"][rows, j], arr["room_p_hi"][rows, j]
+        known = np.isfinite(any_fit)
+        fits = any_fit[known] > 0.5
+        fit_cols.append(any_fit)
+        entry = {"room_fit_probability": probability(fits) if known.any() else None,
+                 "room_fit_period_min_day": summarize(p_lo) if np.isfinite(p_lo).any() else None,
+                 "room_fit_period_max_day": summarize(p_hi) if np.isfinite(p_hi).any() else None,
+                 "room_fit_interval_day": _shade_interval(
+                     _gap_grid(P, j, n_trial), *((arr["room_fit_lo"][rows[known], j], arr["room_fit_hi"][rows[known], j])
+                                                 if known.any() else (None, None))),
+                 "room_test_mass_mearth": summarize(arr["room_m_test"][rows, j] / MEARTH_MSUN),
+                 "room_test_mass_basis": mass_note}
+        if known.any():
+            for k, key in (("hill_spacing", "room_hill_any"), ("gladman", "room_gladman_any")):
+                entry[f"room_{k}_pass_probability"] = probability(arr[key][rows[known], j] > 0.5)
+        pairs.append(entry)
+    cols = np.stack(fit_cols, axis=1)                                  # (n, n_gaps)
+    known = np.all(np.isfinite(cols), axis=1)
+    system = {"packing": {
+        "packed_probability": probability(packing.packed(cols[known] > 0.5)) if known.any() else None,
+        "draws": int(known.sum()),
+        "assumptions": _assumptions(min_hill),
+        "citation": CITATION,
+    }}
+    return pairs, system
 
 
 def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARATION, max_draws=MAX_DRAWS):
@@ -105,34 +187,7 @@ def packing_block(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARAT
     arr = packing_arrays(post, test_mass_mearth, min_hill, max_draws=max_draws)
     if arr is None:
         return None
-    pairs = []
-    fit_cols = []
-    for g in arr["gaps"]:
-        known = np.isfinite(g["any_fit"])
-        fits = g["any_fit"][known] > 0.5
-        fit_cols.append(g["any_fit"])
-        entry = {"room_fit_probability": probability(fits) if known.any() else None,
-                 "room_fit_period_min_day": summarize(g["p_lo"]) if np.isfinite(g["p_lo"]).any() else None,
-                 "room_fit_period_max_day": summarize(g["p_hi"]) if np.isfinite(g["p_hi"]).any() else None,
-                 "room_fit_interval_day": _shade_interval(g["p_test"], g["flags"]),
-                 "room_test_mass_mearth": summarize(g["m_test"] / MEARTH_MSUN),
-                 "room_test_mass_basis": g["mass_note"]}
-        if g["flags"] is not None:
-            for k in ("hill_spacing", "gladman"):
-                entry[f"room_{k}_pass_probability"] = probability(g["flags"][k].any(axis=1))
-        pairs.append(entry)
-    cols = np.stack(fit_cols, axis=1)                                  # (n, n_gaps)
-    known = np.all(np.isfinite(cols), axis=1)
-    system = {"packing": {
-        "packed_probability": probability(packing.packed(cols[known] > 0.5)) if known.any() else None,
-        "draws": int(known.sum()),
-        "assumptions": ("test planet on a circular orbit in the reference plane; fits where it is at least "
-                        f"{min_hill:g} mutual Hill radii from both neighbours, Hill stable with both "
-                        "(Gladman 1993) and the new pairs are AMD stable (Laskar & Petit 2017); "
-                        "masses are m sin i where the true mass is unknown; analytic criteria, not a guarantee"),
-        "citation": CITATION,
-    }}
-    return pairs, system
+    return packing_summary(post, arr, test_mass_mearth, min_hill, max_draws)
 
 
 def room_intervals(document):
@@ -174,14 +229,24 @@ class RoomForPlanetsScore(Score):
                show=False),
     )
 
-    def summarise(self, ctx, arrays):
-        opts = ctx.options
+    @staticmethod
+    def _settings(opts):
         fast = str(getattr(getattr(opts, "mode", None), "value", getattr(opts, "mode", ""))) == "fast"
-        res = packing_block(ctx.post, test_mass_mearth=getattr(opts, "test_planet_mass", None),
-                            max_draws=MAX_DRAWS_FAST if fast else MAX_DRAWS)
-        if res is None:
+        return getattr(opts, "test_planet_mass", None), (MAX_DRAWS_FAST if fast else MAX_DRAWS)
+
+    def batch_key(self, ctx):
+        return self._settings(ctx.options)
+
+    def per_draw(self, ctx):
+        mass, max_draws = self._settings(ctx.options)
+        return packing_arrays(ctx.post, mass, max_draws=max_draws, segments=ctx.segments)
+
+    def summarise(self, ctx, arrays):
+        if "room_any_fit" not in arrays:
             return ScoreResult()
-        return ScoreResult(pairs=res[0], system=res[1])
+        mass, max_draws = self._settings(ctx.options)
+        pairs, system = packing_summary(ctx.post, arrays, mass, max_draws=max_draws)
+        return ScoreResult(pairs=pairs, system=system)
 
     def verdicts(self, ctx):
         p = (ctx.system.get("packing") or {}).get("packed_probability")

@@ -40,6 +40,9 @@ class ScoreContext:
     pairs: list = field(default_factory=list)       # per-pair JSON entries built so far
     planets: list = field(default_factory=list)     # per-planet JSON keys added by scores so far
     system: dict = field(default_factory=dict)      # system-level JSON keys built so far
+    #: draws of each posterior stacked in ``post`` (scores.compute.compute_scores_many), in order;
+    #: None for one posterior.  Per-draw code that needs a whole-posterior value (a median) reads it.
+    segments: tuple | None = None
 
     @property
     def names(self):
@@ -93,8 +96,22 @@ class Score:
         return ctx.n_pairs >= 1
 
     def per_draw(self, ctx: ScoreContext) -> dict:
-        """Arrays of the score on every draw, keyed by name (added to ``ctx.arrays``)."""
+        """Arrays of the score on every draw, keyed by name (added to ``ctx.arrays``).
+
+        Every array has the draws on its first axis and each draw's values depend on that draw only,
+        so that :func:`~archsys.scores.compute.compute_scores_many` may run it once on the draws of
+        many posteriors stacked together (the same bytes as one posterior at a time).
+        """
         return {}
+
+    def batch_key(self, ctx: ScoreContext):
+        """What :meth:`per_draw` decides from the posterior as a whole (default: nothing).
+
+        Posteriors are stacked for :meth:`per_draw` only when their keys are equal (and their
+        draws have the same shapes); a score whose per-draw code branches on a whole-posterior
+        condition returns that condition here.
+        """
+        return None
 
     def summarise(self, ctx: ScoreContext, arrays: dict) -> ScoreResult:
         """JSON-ready summaries of the per-draw arrays."""

@@ -52,18 +52,26 @@ def near_mmr(ratio, mu, e, max_order=spacing.MMR_MAX_ORDER):
     """(flag, j, k) per draw: near a resonance of order <= max_order, and which (0 where none).
 
     The resonance whose window (:func:`near_window`) holds the ratio most centrally is chosen.
+    Windows are never wider than :data:`NEAR_MAX_OFFSET`, so a window is computed only for the
+    draws within that offset of a resonance (the same answer, without the far draws).
     """
+    ratio, mu, e = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (ratio, mu, e)))
     flag = np.zeros(np.shape(ratio), dtype=bool)
     which_j = np.zeros(np.shape(ratio), dtype=int)
     which_k = np.zeros(np.shape(ratio), dtype=int)
     best = np.full(np.shape(ratio), np.inf)
     for j, k, ratio_res in spacing.MMR_TABLE[spacing.MMR_TABLE["k"] <= max_order]:
-        dist = np.abs(ratio / ratio_res - 1.0) / near_window(j, k, mu, e)
-        hit = (dist < 1.0) & (dist < best)
-        which_j = np.where(hit, j, which_j)
-        which_k = np.where(hit, k, which_k)
-        best = np.where(hit, dist, best)
-        flag |= dist < 1.0
+        off = np.abs(ratio / ratio_res - 1.0)
+        close = off < NEAR_MAX_OFFSET
+        if not close.any():
+            continue
+        dist = off[close] / near_window(j, k, mu[close], e[close])
+        hit = np.zeros(np.shape(ratio), dtype=bool)
+        hit[close] = (dist < 1.0) & (dist < best[close])
+        which_j[hit] = j
+        which_k[hit] = k
+        best[close] = np.where(hit[close], dist, best[close])
+        flag[close] |= dist < 1.0
     return flag, which_j, which_k
 
 
@@ -109,8 +117,10 @@ class ResonanceScore(Score):
         r_ok = np.where(ordered, ratio, np.nan)
         # which resonance of order <= 3 each draw is near (0: none; NaN: unknown masses or crossing periods)
         e_pair = np.maximum(e1, e2)
-        which = masked_apply(lambda r, x, y: near_mmr(r, x, y)[1], r_ok, mu, e_pair)
-        which_k = masked_apply(lambda r, x, y: near_mmr(r, x, y)[2], r_ok, mu, e_pair)
+        known = np.isfinite(r_ok) & np.isfinite(mu) & np.isfinite(e_pair)
+        which, which_k = np.full(ratio.shape, np.nan), np.full(ratio.shape, np.nan)
+        if known.any():
+            _, which[known], which_k[known] = near_mmr(r_ok[known], mu[known], e_pair[known])
         near = np.where(np.isfinite(which), (which > 0).astype(float), np.nan)
         near_j = np.nan_to_num(which).astype(int)
         near_k = np.nan_to_num(which_k).astype(int)

@@ -156,7 +156,11 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
                 done = store.done()
                 todo = [g for g in selected if g.system not in done]
                 fast = not base.uses_mcmc           # direct draws only: short, even tasks
-                if not fast:
+                if fast:
+                    # systems of one planet count side by side: a worker's batch is analysed together
+                    # (process_batch stacks the draws of same-shape systems); results do not depend on it
+                    todo = sorted(todo, key=lambda g: g.n_planets)
+                else:
                     # largest systems first (longest-processing-time-first scheduling, Graham 1969): the slow
                     # joint-engine systems do not end the run alone; results do not depend on the order
                     todo = sorted(todo, key=lambda g: -g.n_planets)

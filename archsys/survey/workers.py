@@ -25,7 +25,7 @@ from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
 __all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "dask_client",
-           "run_tasks", "SAMPLES_PER_PLANET", "MAX_BATCH", "DASK_BATCH"]
+           "run_tasks", "SAMPLES_PER_PLANET", "MAX_BATCH", "DASK_BATCH", "FAST_BATCH"]
 
 #: Posterior samples per planet kept for the hierarchical inference.
 SAMPLES_PER_PLANET = 100
@@ -134,10 +134,9 @@ def _summarise(sid, res):
             "planets": planets, "rejects": []}
 
 
-def process_system(task):
-    """Validate and analyse one system; never raises for bad input (returns a reject)."""
+def _validated(task):
+    """(system, rows_of) of a task's rows, or the reject of a system that cannot be analysed."""
     from ..model.reader import build_system
-    from ..pipeline import analyze
     group, cmap, units, options, catalog_name, debug = task
     sid, n = group.system, group.n_planets
     source = f"{catalog_name}: system '{sid}'"
@@ -153,6 +152,34 @@ def process_system(task):
         system = build_system(data, source=source, sha256=digest)
     except InputError as exc:
         return _rejected(sid, n, _problems_from_error(exc, source, rows_of, cmap), "input")
+    return system, rows_of
+
+
+def _failed(task, rows_of, exc):
+    """The reject of a system whose analysis raised ``exc`` (re-raised with --debug)."""
+    group, cmap, _, _, catalog_name, debug = task
+    sid, n = group.system, group.n_planets
+    source = f"{catalog_name}: system '{sid}'"
+    if isinstance(exc, InputError):
+        return _rejected(sid, n, _problems_from_error(exc, source, rows_of, cmap), "input")
+    if debug:
+        raise exc
+    frames = traceback.extract_tb(exc.__traceback__)[-2:]
+    at = " <- ".join(f"{pathlib.Path(f.filename).parent.name}/{pathlib.Path(f.filename).name}:{f.lineno}"
+                     for f in reversed(frames))
+    reason = f"analysis failed: {type(exc).__name__}: {' '.join(str(exc).split())} (at {at})"
+    return _rejected(sid, n, [{"planet": "", "row": rows_of.get(""), "field": "", "column": "",
+                               "reason": reason}], "analysis")
+
+
+def process_system(task):
+    """Validate and analyse one system; never raises for bad input (returns a reject)."""
+    from ..pipeline import analyze
+    checked = _validated(task)
+    if isinstance(checked, dict):
+        return checked
+    system, rows_of = checked
+    sid, options = task[0].system, task[3]
     try:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("ignore", RuntimeWarning)
@@ -164,17 +191,43 @@ def process_system(task):
         if notes:     # kept with the system instead of interrupting the progress line
             out["system_row"]["warnings"] = "; ".join(notes)
         return out
-    except InputError as exc:
-        return _rejected(sid, n, _problems_from_error(exc, source, rows_of, cmap), "input")
     except Exception as exc:  # noqa: BLE001 - logged as a reject that names the exception type
-        if debug:
-            raise
-        frames = traceback.extract_tb(exc.__traceback__)[-2:]
-        at = " <- ".join(f"{pathlib.Path(f.filename).parent.name}/{pathlib.Path(f.filename).name}:{f.lineno}"
-                         for f in reversed(frames))
-        reason = f"analysis failed: {type(exc).__name__}: {' '.join(str(exc).split())} (at {at})"
-        return _rejected(sid, n, [{"planet": "", "row": rows_of.get(""), "field": "", "column": "",
-                                   "reason": reason}], "analysis")
+        return _failed(task, rows_of, exc)
+
+
+def process_batch(batch):
+    """Several systems in one worker call, the same results as :func:`process_system` of each.
+
+    Fast-mode systems (direct draws, no MCMC) are analysed together with
+    :func:`archsys.pipeline.analyze_many`: each has its own seed and summaries, and the per-draw
+    kernels of the scores run once over the stacked draws of the systems of one shape.  A system
+    whose analysis fails in the batch is redone alone, so its reject is the one it gets alone.
+    """
+    from ..pipeline import analyze_many
+    out = [None] * len(batch)
+    fast = [i for i, t in enumerate(batch) if not t[3].uses_mcmc]
+    checked = {}
+    if len(fast) > 1:
+        for i in fast:
+            c = _validated(batch[i])
+            if isinstance(c, dict):
+                out[i] = c
+            else:
+                checked[i] = c
+    if checked:
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", RuntimeWarning)
+                many = analyze_many([c[0] for c in checked.values()], [batch[i][3] for i in checked])
+        except Exception:  # noqa: BLE001 - every system of the batch is redone alone below
+            many = [None] * len(checked)
+        for i, res in zip(checked, many):
+            if res is not None and not isinstance(res, Exception):
+                try:
+                    out[i] = _summarise(batch[i][0].system, res)
+                except Exception:  # noqa: BLE001 - redone alone below
+                    out[i] = None
+    return [r if r is not None else process_system(t) for r, t in zip(out, batch)]
 
 
 # --------------------------------------------------------------------------
@@ -202,18 +255,18 @@ def watch_parent(parent_pid, interval=0.5):
                      name="archsys-parent-watch").start()
 
 
-def _run_serial(tasks, sink):
-    for t in tasks:
-        sink(process_system(t))
-
-
-def process_batch(batch):
-    """Several systems in one worker call (amortises the per-task cost of fast surveys)."""
-    return [process_system(t) for t in batch]
+def _run_serial(tasks, sink, batch=None):
+    size = batch or FAST_BATCH
+    for i in range(0, len(tasks), size):
+        for r in process_batch(tasks[i:i + size]):
+            sink(r)
 
 
 #: Largest number of systems sent to a worker in one call.
 MAX_BATCH = 16
+#: Systems analysed together in fast mode (process_batch): enough to amortise the per-draw kernels'
+#: Python cost over (systems x draws) arrays, small enough for the caches and a steady progress line.
+FAST_BATCH = 64
 
 
 def _run_local(tasks, sink, jobs, batch=None):
@@ -222,7 +275,7 @@ def _run_local(tasks, sink, jobs, batch=None):
     ctx = multiprocessing.get_context("spawn")     # no inherited sqlite handle, same as Dask workers
     # small batches: few enough per call that every worker stays busy to the end and a crash
     # loses little; results are still stored system by system
-    size = batch or max(1, min(MAX_BATCH, len(tasks) // (8 * jobs)))
+    size = batch or max(1, min(FAST_BATCH, len(tasks) // (4 * jobs)))
     it = iter([tasks[i:i + size] for i in range(0, len(tasks), size)])
     # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
     saved = {k: os.environ.get(k) for k in _THREAD_VARS}
@@ -302,6 +355,6 @@ def run_tasks(tasks, sink, jobs, client=None, batch=None):
     if client is not None:
         _run_dask(tasks, sink, client, batch)
     elif jobs == 1 or len(tasks) <= 1:
-        _run_serial(tasks, sink)
+        _run_serial(tasks, sink, batch)
     else:
         _run_local(tasks, sink, jobs, batch)
