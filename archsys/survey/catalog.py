@@ -27,8 +27,11 @@ several times over.  Every row is kept packed: its cleaned cells, aligned with
 CSV line; values ``marshal`` cannot hold keep the row as a tuple).  Only this
 module packs and unpacks them, and only data it packed itself.  A system's
 rows (:class:`SystemRows`) carry their packed rows, so a system sent to a
-worker process is a few hundred bytes; ``SystemRows.rows`` unpacks them into
-one dict per row when the system is selected or analysed, and is not kept.
+worker process is about the size of its CSV lines and the column names (which
+systems sent together share); ``SystemRows.rows`` unpacks them into one dict
+per row when the system is selected or analysed, and is not kept.  Parquet
+cells are pyarrow's Python values: integers stay integers, also in a column
+with missing cells (pandas, used before, made such a column floats).
 
 Selection language (``--where``): see :mod:`archsys.survey.where`.
 """
