@@ -12,6 +12,8 @@ from __future__ import annotations
 import pathlib
 import sys
 
+__all__ = ["main"]
+
 
 def main(argv=None) -> int:
     root = pathlib.Path(__file__).resolve().parents[1]
