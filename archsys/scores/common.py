@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["masked_apply", "effective_mass", "adjacent"]
+__all__ = ["masked_apply", "effective_mass", "adjacent", "modal_pair"]
 
 
 def masked_apply(fn, *arrays, fill=np.nan, dtype=float):
@@ -21,6 +21,19 @@ def masked_apply(fn, *arrays, fill=np.nan, dtype=float):
     if ok.any():
         out[ok] = fn(*[a[ok] for a in arrs])
     return out
+
+
+def modal_pair(j, k):
+    """The most frequent (j, k) over the draws, ties to the one seen first (as ``Counter.most_common``).
+
+    ``j``, ``k``: non-negative integer arrays of one shape (k < 64).  The same answer as
+    ``Counter(zip(j, k)).most_common(1)[0][0]``, without a Python loop over the draws.
+    """
+    code = np.asarray(j, dtype=np.int64) * 64 + np.asarray(k, dtype=np.int64)
+    values, first, counts = np.unique(code, return_index=True, return_counts=True)
+    top = counts == counts.max()
+    pick = values[top][np.argmin(first[top])]
+    return int(pick // 64), int(pick % 64)
 
 
 def effective_mass(post):

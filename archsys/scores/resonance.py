@@ -10,15 +10,13 @@ and the fraction of draws near a resonance of order 1-3 (:func:`near_window`).
 """
 from __future__ import annotations
 
-from collections import Counter
-
 import numpy as np
 
 from ..inference.basis import Origin, origin_of
 from ..inference.summary import probability, summarize
 from ..physics import spacing
 from ..physics import resonance_overlap
-from .common import adjacent, barely_constrained, effective_mass, flat_ecc_prior, masked_apply
+from .common import adjacent, barely_constrained, effective_mass, flat_ecc_prior, modal_pair
 from .registry import Column, Score, ScoreResult, register, verdict
 
 __all__ = ["ResonanceScore", "WIDE_RATIO", "near_first_order", "near_mmr", "near_window"]
@@ -132,7 +130,7 @@ class ResonanceScore(Score):
         for p in range(ctx.n_pairs):
             ratio = arr["period_ratio"][:, p]
             jj, kk = arr["mmr_j"][:, p], arr["mmr_k"][:, p]
-            (bj, bk), _ = Counter(zip(jj.tolist(), kk.tolist())).most_common(1)[0]
+            bj, bk = modal_pair(jj, kk)
             wide = np.median(ratio) > WIDE_RATIO
             near = arr["near_resonance"][:, p]
             ok = np.isfinite(near)
@@ -154,8 +152,7 @@ class ResonanceScore(Score):
             if prob is None or prob < NEAR_THRESHOLD:
                 continue
             sel = near_j[:, p] > 0
-            jk = list(zip(near_j[:, p][sel].tolist(), near_k[:, p][sel].tolist()))
-            j, k = Counter(jk).most_common(1)[0][0] if jk else (0, 0)
+            j, k = modal_pair(near_j[:, p][sel], near_k[:, p][sel]) if sel.any() else (0, 0)
             eccs = [origin_of(ctx.note(q["inner"], "ecc")), origin_of(ctx.note(q["outer"], "ecc"))]
             loose = any(e is Origin.DATA and barely_constrained(ctx.post["ecc"][:, i], flat_ecc_prior(ctx.post))
                         for e, i in zip(eccs, (p, p + 1)))

@@ -9,14 +9,12 @@ forced TTVs only); these are labelled approximate.
 """
 from __future__ import annotations
 
-from collections import Counter
-
 import numpy as np
 
 from ..inference.summary import summarize
 from ..physics import spacing, timing
 from ..physics import resonance_overlap
-from .common import effective_mass
+from .common import effective_mass, modal_pair
 from .registry import Column, Score, ScoreResult, register
 
 __all__ = ["super_period_block", "MAX_OFFSET"]
@@ -30,7 +28,7 @@ MINUTES_PER_DAY = 1440.0
 CITATION = "Lithwick, Xie & Wu 2012"
 
 
-def super_period_block(post, free_eccentricity=0.0):
+def super_period_block(post, free_eccentricity=0.0, nearest=None):
     """JSON-ready keys: (one mapping per adjacent pair, ``{}`` when not near resonance; system keys).
 
     Pair keys: ``super_period_resonance``, ``super_period_order``,
@@ -38,6 +36,8 @@ def super_period_block(post, free_eccentricity=0.0):
     masses also ``ttv_amplitude_inner_min``, ``ttv_amplitude_outer_min``
     (approximate) and ``super_period_in_resonance_width_probability``.  System:
     ``{"timing": {"ttv_assumptions", "citation"}}`` when any pair qualifies.
+    ``nearest``: the nearest resonances (j, k) per draw and pair when already known (the resonance
+    score's ``mmr_j``/``mmr_k``); computed here otherwise.
     """
     P = np.asarray(post["period"], dtype=float)
     names = post.system.planet_names
@@ -53,8 +53,11 @@ def super_period_block(post, free_eccentricity=0.0):
         ok = np.isfinite(p1) & np.isfinite(p2) & (p2 > p1)
         if not ok.any():
             continue
-        j, k, _ = spacing.nearest_mmr(p2[ok] / p1[ok], max_order=3)
-        (bj, bk), _ = Counter(zip(j.tolist(), k.tolist())).most_common(1)[0]
+        if nearest is not None:
+            j, k = nearest[0][ok, i], nearest[1][ok, i]
+        else:
+            j, k, _ = spacing.nearest_mmr(p2[ok] / p1[ok], max_order=3)
+        bj, bk = modal_pair(j, k)
         delta = p2[ok] / p1[ok] * (bj - bk) / bj - 1.0
         if abs(np.median(delta)) > MAX_OFFSET:
             continue
@@ -121,7 +124,9 @@ class SuperPeriodScore(Score):
 
     def summarise(self, ctx, arrays):
         z = getattr(ctx.options, "ttv_free_eccentricity", 0.0) or 0.0
-        pairs, system = super_period_block(ctx.post, free_eccentricity=z)
+        arr = ctx.arrays
+        nearest = (arr["mmr_j"], arr["mmr_k"]) if "mmr_j" in arr and spacing.MMR_MAX_ORDER == 3 else None
+        pairs, system = super_period_block(ctx.post, free_eccentricity=z, nearest=nearest)
         return ScoreResult(pairs=pairs, system=system)
 
 

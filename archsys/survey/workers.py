@@ -256,7 +256,9 @@ def watch_parent(parent_pid, interval=0.5):
 
 
 def _run_serial(tasks, sink, batch=None):
-    size = batch or FAST_BATCH
+    # batches of up to FAST_BATCH, at least 8 of them: a small survey still stores (and shows) its
+    # systems as they finish
+    size = batch or max(1, min(FAST_BATCH, len(tasks) // 8))
     for i in range(0, len(tasks), size):
         for r in process_batch(tasks[i:i + size]):
             sink(r)
