@@ -373,10 +373,17 @@ def _to_float(x):
 
 def _check_numeric_column(cat, col, f):
     """A column with cells but not one number is a mapping mistake (fatal)."""
-    vals = [v for v in cat.cells[col] if v is not None]
-    if vals and all(_to_float(v) is None for v in vals):
+    first = None
+    for v in cat.iter_column(col):            # rows unpacked one by one, up to the first number
+        if v is None:
+            continue
+        if _to_float(v) is not None:
+            return
+        if first is None:
+            first = v
+    if first is not None:
         raise InputError(f"{cat.path}: column '{col}' (mapped to {f.scope} field '{f.name}') holds no "
-                         f"numbers (first cell {vals[0]!r:.30}); check the column map")
+                         f"numbers (first cell {first!r:.30}); check the column map")
 
 
 # rows -> system mapping lives in .mapping; re-exported here for older imports

@@ -40,11 +40,13 @@ def bad_text(s):
     return None
 
 
-def screen_rows(header, cols, malformed, raw):
+def screen_rows(header, cols, malformed, raw, offset=0):
     """Mark rows with an unusable cell as malformed (reason names the column); blank their cells.
 
     ``cols``: column -> list of cells (changed in place); ``malformed``: list of
     (row, reason), extended; ``raw``: row -> raw cells of a malformed row, extended.
+    ``offset``: rows of the table before ``cols`` (a table screened block by block):
+    cell ``i`` of a column is row ``offset + i + 1``.
     """
     known = {r for r, _ in malformed}
     found = {}
@@ -54,14 +56,15 @@ def screen_rows(header, cols, malformed, raw):
         suspects = [i for i, v in enumerate(col)
                     if v.__class__ is str and not (len(v) <= MAX_CELL_CHARS and v.isascii())]
         for i in suspects:
-            if i + 1 not in known and i + 1 not in found:
+            row = offset + i + 1
+            if row not in known and row not in found:
                 why = bad_text(col[i])
                 if why:
-                    found[i + 1] = f"column '{h[:60]}': {why}; the row is skipped"
+                    found[row] = f"column '{h[:60]}': {why}; the row is skipped"
     for row in sorted(found):
-        raw[row] = [cols[h][row - 1] for h in header]
+        raw[row] = [cols[h][row - offset - 1] for h in header]
         for h in header:
-            cols[h][row - 1] = None
+            cols[h][row - offset - 1] = None
         malformed.append((row, found[row]))
     malformed.sort()
     return malformed, raw

@@ -125,12 +125,13 @@ def system_mapping(group, cmap, cat_units=None):
     star = {}
     star_src = {}
     top = {}
-    first_row = group.rows[0][0]
+    rows = group.rows               # unpacked once (SystemRows keeps its rows packed)
+    first_row = rows[0][0]
     for f in cmap.fields:
         if f.scope not in ("star", "system"):
             continue
         seen = None
-        for rownum, cells in group.rows:
+        for rownum, cells in rows:
             q = _quantity(f, cells, rownum, "", cat_units, problems)
             if q is None:
                 continue
@@ -148,7 +149,7 @@ def system_mapping(group, cmap, cat_units=None):
             star[f.name] = seen[0]
             star_src[f.name] = seen[1]
     planets, rows_of, seen_names = [], {}, {}
-    for rownum, cells in group.rows:
+    for rownum, cells in rows:
         name = cells.get(cmap.planet) if cmap.planet else None
         name = str(name) if name is not None else f"{group.system} (row {rownum})"
         if name in seen_names:

@@ -141,11 +141,12 @@ def observed_transits(groups, cmap, cat_columns, cat_units, planets_expr):
     cache, out = {}, []
     info = {"planets_in_selected_systems": 0, "planets_matching": 0, "no_period": 0}
     for g in groups:
-        if not g.rows:              # every row of the system unreadable: listed in rejects.csv by the survey
+        if not g.n_planets:         # every row of the system unreadable: listed in rejects.csv by the survey
             continue
         data, _problems, rows_of = system_mapping(g, cmap, cat_units)
-        cells = [c for _, c in g.rows]
-        index = {rownum: i for i, (rownum, _) in enumerate(g.rows)}
+        g_rows = g.rows             # unpacked once (SystemRows keeps its rows packed)
+        cells = [c for _, c in g_rows]
+        index = {rownum: i for i, (rownum, _) in enumerate(g_rows)}
         sysvars = {"n_planets": g.n_planets, "system": g.system}
         star = data["star"]
         try:

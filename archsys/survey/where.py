@@ -331,6 +331,8 @@ def evaluate(node, rows, i, sysvars):
 
 def select(group, nodes) -> bool:
     """True when every expression holds for every row of the system."""
+    if not nodes:
+        return True                 # no expression: the rows are not unpacked
     rows = [r for _, r in group.rows]
     sysvars = {"n_planets": group.n_planets, "system": group.system}
     return all(evaluate(n, rows, i, sysvars) for n in nodes for i in range(len(rows)))

@@ -61,11 +61,11 @@ def _survey_documents(folder, where=()):
         if missing:
             raise InputError(f"{folder / tab.name}: not a survey table (no column '{missing[0]}'); "
                              f"rerun `archsys survey --out {folder}`")
-    sysrow = {str(systems.cells["system"][i]): systems.row(i) for i in range(systems.n_rows)}
+    sysrow = {str(r["system"]): r for r in map(systems.row, range(systems.n_rows))}
     extra = [c for c in systems.columns if c not in planets.columns]
-    for c in extra:                        # each planet row carries its system's columns for --where
-        planets.columns.append(c)
-        planets.cells[c] = [sysrow.get(str(s), {}).get(c) for s in planets.cells["system"]]
+    planet_systems = planets.column("system")
+    planets.add_columns({c: [sysrow.get(str(s), {}).get(c) for s in planet_systems]   # each planet row
+                         for c in extra})                                # carries its system's columns for --where
     names = {c: ("col", c) for c in planets.columns}
     names.update({"n_planets": ("sys", "n_planets"), "system": ("sys", "system")})
     nodes = [parse_where(w, names) for w in where]
