@@ -50,11 +50,12 @@ BEFORE = "f212a12"
 _RUN = r"""
 import json, resource, sys, time
 t0 = time.perf_counter()
+import archsys
 from archsys.cli import main
 rc = main(sys.argv[1:])
 wall = time.perf_counter() - t0
 ru = resource.getrusage
-print("@@" + json.dumps({"rc": rc, "wall_s": wall,
+print("@@" + json.dumps({"rc": rc, "wall_s": wall, "archsys_file": archsys.__file__,
                          "peak_mib": ru(resource.RUSAGE_SELF).ru_maxrss / 1024.0,
                          "peak_worker_mib": ru(resource.RUSAGE_CHILDREN).ru_maxrss / 1024.0}))
 """
@@ -75,14 +76,19 @@ def survey(tree, catalog, *args, env_extra=None):
     out = tempfile.mkdtemp(prefix="archsys-scale-")
     env = dict(os.environ, PYTHONPATH=str(tree), MPLBACKEND="Agg", **(env_extra or {}))
     try:
+        # cwd: `python -c` puts the working folder first on sys.path, ahead of PYTHONPATH, so a run started
+        # from this checkout would otherwise import this checkout's archsys instead of ``tree``'s
         r = subprocess.run([sys.executable, "-c", _RUN, "survey", str(catalog), "--out", out, "--quiet",
-                            "--no-figures", *map(str, args)], capture_output=True, text=True, env=env)
+                            "--no-figures", *map(str, args)], capture_output=True, text=True, env=env,
+                           cwd=str(tree))
         line = [ln for ln in r.stdout.splitlines() if ln.startswith("@@")]
         if r.returncode != 0 or not line:
             raise RuntimeError(f"survey failed ({tree}): {r.stderr.strip()[-400:]}")
         res = json.loads(line[-1][2:])
         pop = json.loads((pathlib.Path(out) / "population.json").read_text())
         res["systems"] = pop["counts"]["systems_selected"]
+        if not pathlib.Path(res["archsys_file"]).resolve().is_relative_to(pathlib.Path(tree).resolve()):
+            raise RuntimeError(f"the survey of {tree} imported archsys from {res['archsys_file']}")
         return res
     finally:
         shutil.rmtree(out, ignore_errors=True)
