@@ -164,8 +164,9 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
                     # largest systems first (longest-processing-time-first scheduling, Graham 1969): the slow
                     # joint-engine systems do not end the run alone; results do not depend on the order
                     todo = sorted(todo, key=lambda g: -g.n_planets)
-                tasks = [(g, cmap, cat.units, replace(base, seed=system_seed(opts.seed, g.system)), cat.name,
-                          debug) for g in todo]
+                # one options object for every task: each worker derives its system's seed (system_seed), so
+                # a million tasks do not carry a million option copies
+                tasks = [(g, cmap, cat.units, base, cat.name, debug) for g in todo]
                 tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(opts.seed))
                 bar = progress_bar(len(tasks), quiet=opts.quiet, stream=stream,
                                    skipped=len(selected) - len(todo))

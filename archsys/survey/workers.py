@@ -172,6 +172,18 @@ def _failed(task, rows_of, exc):
                                "reason": reason}], "analysis")
 
 
+def system_options(task):
+    """The options a task's system is analysed with: the survey's, with the system's own seed.
+
+    The seed is derived from the survey seed and the system id (:func:`archsys.survey.run.system_seed`),
+    so a system gets the same draws whichever batch, worker or run analyses it.
+    """
+    from dataclasses import replace
+    from .run import system_seed
+    group, options = task[0], task[3]
+    return replace(options, seed=system_seed(options.seed, group.system))
+
+
 def process_system(task):
     """Validate and analyse one system; never raises for bad input (returns a reject)."""
     from ..pipeline import analyze
@@ -179,7 +191,7 @@ def process_system(task):
     if isinstance(checked, dict):
         return checked
     system, rows_of = checked
-    sid, options = task[0].system, task[3]
+    sid, options = task[0].system, system_options(task)
     try:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("ignore", RuntimeWarning)
@@ -218,7 +230,7 @@ def process_batch(batch):
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore", RuntimeWarning)
-                many = analyze_many([c[0] for c in checked.values()], [batch[i][3] for i in checked])
+                many = analyze_many([c[0] for c in checked.values()], [system_options(batch[i]) for i in checked])
         except Exception:  # noqa: BLE001 - every system of the batch is redone alone below
             many = [None] * len(checked)
         for i, res in zip(checked, many):
