@@ -34,7 +34,6 @@ import os
 import pathlib
 import sys
 import time
-import zlib
 from dataclasses import replace
 
 import numpy as np
@@ -51,7 +50,7 @@ from .identity import merge_notes
 from .store import STORE_FORMAT, STORE_NAME, SurveyStore, header_of, write_csv
 from .store_check import check_and_repair, reconcile
 from .popfits import FitRunner, subsample_objects, transit_block, with_per_system_fit
-from .workers import SAMPLES_PER_PLANET, dask_client, process_system, progress_bar, run_tasks
+from .workers import SAMPLES_PER_PLANET, dask_client, process_system, progress_bar, run_tasks, system_seed
 
 __all__ = ["run_survey", "system_seed", "process_system",
            "FAST_DRAWS", "SAMPLES_PER_PLANET", "AnalysisOptions", "SurveyOptions"]
@@ -67,12 +66,6 @@ REJECT_COLS = ("system", "planet", "row", "field", "column", "reason")
 
 #: Finished systems stored per transaction (at most half a second's worth are held back).
 STORE_GROUP = 64
-
-
-def system_seed(seed: int, system_id: str) -> int:
-    """Seed of one system: a function of (global seed, system id) only."""
-    ss = np.random.SeedSequence([int(seed) % 2 ** 63, zlib.crc32(str(system_id).encode("utf-8"))])
-    return int(ss.generate_state(1, dtype=np.uint32)[0])
 
 
 # --------------------------------------------------------------------------

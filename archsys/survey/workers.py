@@ -16,6 +16,7 @@ import threading
 import time
 import traceback
 import warnings
+import zlib
 
 import numpy as np
 
@@ -25,7 +26,7 @@ from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
 __all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "dask_client",
-           "run_tasks", "SAMPLES_PER_PLANET", "MAX_BATCH", "DASK_BATCH", "FAST_BATCH"]
+           "run_tasks", "system_seed", "system_options", "SAMPLES_PER_PLANET", "MAX_BATCH", "DASK_BATCH", "FAST_BATCH"]
 
 #: Posterior samples per planet kept for the hierarchical inference.
 SAMPLES_PER_PLANET = 100
@@ -172,14 +173,19 @@ def _failed(task, rows_of, exc):
                                "reason": reason}], "analysis")
 
 
+def system_seed(seed: int, system_id: str) -> int:
+    """Seed of one system: a function of (global seed, system id) only."""
+    ss = np.random.SeedSequence([int(seed) % 2 ** 63, zlib.crc32(str(system_id).encode("utf-8"))])
+    return int(ss.generate_state(1, dtype=np.uint32)[0])
+
+
 def system_options(task):
     """The options a task's system is analysed with: the survey's, with the system's own seed.
 
-    The seed is derived from the survey seed and the system id (:func:`archsys.survey.run.system_seed`),
+    The seed is derived from the survey seed and the system id (:func:`system_seed`),
     so a system gets the same draws whichever batch, worker or run analyses it.
     """
     from dataclasses import replace
-    from .run import system_seed
     group, options = task[0], task[3]
     return replace(options, seed=system_seed(options.seed, group.system))
 
