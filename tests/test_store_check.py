@@ -215,3 +215,29 @@ def test_store_is_sealed_per_system(surveyed):
         assert all(len(d) == 64 for d in seals.values())
     finally:
         st.close()
+
+
+# ------------------------------------------------------------------ compressed documents
+def test_documents_are_stored_compressed_and_read_back(surveyed):
+    import json
+
+    from archsys.survey.store import SurveyStore, unpack_document
+    _, out, _ = surveyed
+    db = sqlite3.connect(str(out / "survey.sqlite"))
+    raw = db.execute("SELECT document FROM systems WHERE system = 'Alda'").fetchone()[0]
+    db.close()
+    assert isinstance(raw, bytes)
+    store = SurveyStore(out)
+    try:
+        doc = store.document("Alda")
+    finally:
+        store.close()
+    assert doc["system"] == "Alda" and len(doc["planets"]) == 2
+    assert len(raw) < len(json.dumps(doc)) / 2                      # zlib: well under the text size
+    assert unpack_document(json.dumps(doc)) == doc                   # a text document (older store) reads too
+
+
+def test_damaged_compressed_document_is_repaired_on_resume(surveyed, capsys):
+    cat, out, base = surveyed
+    _sql(out, "UPDATE systems SET document = X'789c0001' WHERE system = 'Brix'")
+    _resume_repairs(cat, out, base, capsys, "'Brix'")

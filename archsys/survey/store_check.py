@@ -136,6 +136,17 @@ def _json_ok(text, want=dict):
         return False
 
 
+def _document_ok(value):
+    """A stored document: zlib-compressed JSON (bytes) or JSON text (older stores) of a mapping."""
+    if isinstance(value, bytes):
+        import zlib
+        try:
+            value = zlib.decompress(value).decode("utf-8")
+        except (zlib.error, UnicodeDecodeError):
+            return False
+    return _json_ok(value)
+
+
 def _problem(rows):
     """What is structurally wrong with one system's rows, or None."""
     (srow,), planets, pairs = rows[0][:1], rows[1], rows[2]
@@ -143,7 +154,7 @@ def _problem(rows):
     if status not in KNOWN_STATUS:
         return f"unknown status {str(status)[:20]!r}"
     if status == "ok":
-        if not _json_ok(row_json) or not _json_ok(document):
+        if not _json_ok(row_json) or not _document_ok(document):
             return "a malformed JSON row in table 'systems'"
         if len(planets) != n:
             return f"{len(planets)} planet rows for {n} planets"
