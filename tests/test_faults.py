@@ -19,6 +19,7 @@ import pytest
 
 from archsys.cli import main
 from archsys.errors import InputError
+from cli_checks import files_in, one_line_exit_2
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 KORRIN = ROOT / "demo_systems" / "korrin.toml"
@@ -41,21 +42,6 @@ def _cli(argv, timeout=120, **kw):
                           env=ENV, timeout=timeout, **kw)
 
 
-def _one_line_exit_2(rc, err, *tokens):
-    """README promise: one line, exit 2, no traceback."""
-    assert rc == 2, err
-    assert "Traceback" not in err
-    lines = err.splitlines()
-    assert len(lines) == 1 and lines[0].startswith("archsys: error: "), err
-    for t in tokens:
-        assert t in err, (t, err)
-
-
-def _files(d):
-    d = pathlib.Path(d)
-    return sorted(str(p.relative_to(d)) for p in d.rglob("*") if p.is_file()) if d.exists() else []
-
-
 def _system(tmp_path, name, planets=("b", "c"), fname=None):
     body = f'name = "{name}"\n[star]\nmass = 0.9\n'
     for j, p in enumerate(planets):
@@ -71,7 +57,7 @@ def test_fifo_system_file_refused_without_hanging(tmp_path):
     fifo = tmp_path / "sys.toml"
     os.mkfifo(fifo)
     proc = _cli(["report", str(fifo), "--json"], timeout=60)      # would block for ever if opened
-    _one_line_exit_2(proc.returncode, proc.stderr, "named pipe", "regular files")
+    one_line_exit_2(proc.returncode, proc.stderr, "named pipe", "regular files")
 
 
 @pytest.mark.parametrize("dev", ["/dev/zero", "/dev/null", "/dev/urandom"])
@@ -79,7 +65,7 @@ def test_device_as_system_file_refused(dev, capsys):
     if not os.path.exists(dev):
         pytest.skip(f"{dev} not present")
     rc, out, err = _run(["report", dev], capsys)
-    _one_line_exit_2(rc, err, "character device")
+    one_line_exit_2(rc, err, "character device")
 
 
 def test_huge_system_file_refused_by_size(tmp_path, capsys):
@@ -87,7 +73,7 @@ def test_huge_system_file_refused_by_size(tmp_path, capsys):
     with open(f, "wb") as fh:          # sparse: 17 MiB without writing them
         fh.truncate(17 << 20)
     rc, out, err = _run(["report", str(f)], capsys)
-    _one_line_exit_2(rc, err, "17 MiB", "at most 16 MiB")
+    one_line_exit_2(rc, err, "17 MiB", "at most 16 MiB")
 
 
 def test_fifo_column_map_refused(tmp_path, capsys):
@@ -96,7 +82,7 @@ def test_fifo_column_map_refused(tmp_path, capsys):
     fifo = tmp_path / "map.toml"
     os.mkfifo(fifo)
     rc, out, err = _run(["survey", str(cat), "--columns", str(fifo), "--out", str(tmp_path / "o")], capsys)
-    _one_line_exit_2(rc, err, "named pipe")
+    one_line_exit_2(rc, err, "named pipe")
     assert not (tmp_path / "o").exists()
 
 
@@ -104,7 +90,7 @@ def test_fifo_chains_file_refused_by_plot(tmp_path, capsys):
     fifo = tmp_path / "x.chains.npz"
     os.mkfifo(fifo)
     rc, out, err = _run(["plot", str(fifo), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, "named pipe")
+    one_line_exit_2(rc, err, "named pipe")
     assert not (tmp_path / "f").exists()
 
 
@@ -117,7 +103,7 @@ def test_stdout_on_a_full_device(argv):
     with open("/dev/full", "w") as full:
         proc = subprocess.run([sys.executable, "-m", "archsys", *argv], stdout=full, stderr=subprocess.PIPE,
                               text=True, env=ENV, timeout=120)
-    _one_line_exit_2(proc.returncode, proc.stderr, "cannot write to standard output", "No space left")
+    one_line_exit_2(proc.returncode, proc.stderr, "cannot write to standard output", "No space left")
 
 
 def test_stdout_closed_early_is_quiet():
@@ -132,8 +118,8 @@ def test_target_name_is_a_directory_writes_nothing(tmp_path, capsys):
     out = tmp_path / "out"
     (out / "Korrin.tex").mkdir(parents=True)
     rc, _, err = _run(["report", str(KORRIN), *FAST, "--out", str(out)], capsys)
-    _one_line_exit_2(rc, err, "Korrin.tex", "nothing was written")
-    assert _files(out) == []                                   # no partial output
+    one_line_exit_2(rc, err, "Korrin.tex", "nothing was written")
+    assert files_in(out) == []                                   # no partial output
     assert sorted(p.name for p in out.iterdir()) == ["Korrin.tex"]
 
 
@@ -151,7 +137,7 @@ def test_write_error_part_way_leaves_nothing(tmp_path, capsys, monkeypatch):
     monkeypatch.setattr(files, "_write_file", failing)
     out = tmp_path / "new" / "out"
     rc, _, err = _run(["report", str(KORRIN), *FAST, "--out", str(out)], capsys)
-    _one_line_exit_2(rc, err, "No space left")
+    one_line_exit_2(rc, err, "No space left")
     assert not (tmp_path / "new").exists()                     # folders the run made are gone too
 
 
@@ -164,8 +150,8 @@ def test_file_size_limit_mid_run_leaves_nothing(tmp_path):
     out = tmp_path / "out"
     proc = subprocess.run([sys.executable, "-m", "archsys", "report", str(KORRIN), *FAST, "--out", str(out)],
                           capture_output=True, text=True, env=ENV, timeout=300, preexec_fn=limit)
-    _one_line_exit_2(proc.returncode, proc.stderr, "File too large")
-    assert _files(out) == []
+    one_line_exit_2(proc.returncode, proc.stderr, "File too large")
+    assert files_in(out) == []
     assert not out.exists()
 
 
@@ -176,8 +162,8 @@ def test_several_systems_all_or_nothing(tmp_path, capsys):
     out = tmp_path / "out"
     (out / "Bexa.json").mkdir(parents=True)
     rc, _, err = _run(["report", str(a), str(b), *FAST, "--quiet", "--out", str(out)], capsys)
-    _one_line_exit_2(rc, err, "Bexa.json")
-    assert _files(out) == []
+    one_line_exit_2(rc, err, "Bexa.json")
+    assert files_in(out) == []
 
 
 def test_separate_figure_folder_staged_too(tmp_path, capsys):
@@ -185,7 +171,7 @@ def test_separate_figure_folder_staged_too(tmp_path, capsys):
     (out / "Korrin.md").mkdir(parents=True)
     rc, _, err = _run(["report", str(KORRIN), *FAST, "--out", str(out), "--figures", str(figs)], capsys)
     assert rc == 2
-    assert _files(out) == [] and _files(figs) == []
+    assert files_in(out) == [] and files_in(figs) == []
 
 
 def test_report_outputs_byte_identical(tmp_path, capsys):
@@ -195,7 +181,7 @@ def test_report_outputs_byte_identical(tmp_path, capsys):
         out = tmp_path / f"o{k}"
         rc, _, err = _run(["report", str(KORRIN), *FAST, "--seed", "4", "--out", str(out)], capsys)
         assert rc == 0, err
-        runs.append({f: (out / f).read_bytes() for f in _files(out)})
+        runs.append({f: (out / f).read_bytes() for f in files_in(out)})
     assert runs[0].keys() == runs[1].keys() and len(runs[0]) >= 8
     for f in runs[0]:
         assert runs[0][f] == runs[1][f], f
@@ -275,12 +261,12 @@ def test_survey_output_in_the_way_then_resumable(tmp_path, capsys):
     cat, out = _cat(tmp_path), tmp_path / "out"
     (out / "rejects.csv").mkdir(parents=True)
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY], capsys)
-    _one_line_exit_2(rc, err, "rejects.csv")
-    assert _files(out) == ["survey.sqlite"] or all(f.startswith("survey.sqlite") for f in _files(out))
+    one_line_exit_2(rc, err, "rejects.csv")
+    assert files_in(out) == ["survey.sqlite"] or all(f.startswith("survey.sqlite") for f in files_in(out))
     (out / "rejects.csv").rmdir()
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY, "--resume"], capsys)
     assert rc == 0, err
-    assert {"systems.csv", "planets.csv", "pairs.csv", "rejects.csv", "population.json"} <= set(_files(out))
+    assert {"systems.csv", "planets.csv", "pairs.csv", "rejects.csv", "population.json"} <= set(files_in(out))
 
 
 def test_survey_locked_folder_refused(tmp_path, capsys):
@@ -289,8 +275,8 @@ def test_survey_locked_folder_refused(tmp_path, capsys):
     cat, out = _cat(tmp_path), tmp_path / "out"
     with SurveyLock(out):
         rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY], capsys)
-        _one_line_exit_2(rc, err, "another archsys survey is running")
-        assert _files(out) == []
+        one_line_exit_2(rc, err, "another archsys survey is running")
+        assert files_in(out) == []
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY], capsys)
     assert rc == 0, err                                  # the lock goes with its holder
 
@@ -322,7 +308,7 @@ def test_unreachable_dask_scheduler_leaves_no_store(tmp_path, capsys):
     with dask.config.set({"distributed.comm.timeouts.connect": "2s"}):
         rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY, "--scheduler",
                            "tcp://127.0.0.1:9"], capsys)
-    _one_line_exit_2(rc, err, "--scheduler", "cannot connect")
+    one_line_exit_2(rc, err, "--scheduler", "cannot connect")
     assert not out.exists()
 
 
@@ -339,7 +325,7 @@ def test_failed_start_leaves_no_empty_store(tmp_path, capsys):
         rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY], capsys)
     finally:
         survey_run.run_tasks = orig
-    _one_line_exit_2(rc, err, "simulated failure")
+    one_line_exit_2(rc, err, "simulated failure")
     assert not out.exists()
 
 

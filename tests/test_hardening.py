@@ -24,6 +24,7 @@ import pytest
 
 from archsys.cli import main
 from archsys.errors import InputError
+from cli_checks import files_in, one_line_exit_2
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 KORRIN = ROOT / "demo_systems" / "korrin.toml"
@@ -54,21 +55,6 @@ def _cli(argv, timeout=120, **kw):
     kw.setdefault("capture_output", True)
     return subprocess.run([sys.executable, "-m", "archsys", *argv], text=True, env=kw.pop("env", ENV),
                           timeout=timeout, **kw)
-
-
-def _one_line_exit_2(rc, err, *tokens):
-    """README promise: one line, exit 2, no traceback."""
-    assert rc == 2, err
-    assert "Traceback" not in err
-    lines = err.splitlines()
-    assert len(lines) == 1 and lines[0].startswith("archsys: error: "), err
-    for t in tokens:
-        assert t in err, (t, err)
-
-
-def _files(d):
-    d = pathlib.Path(d)
-    return sorted(str(p.relative_to(d)) for p in d.rglob("*") if p.is_file()) if d.exists() else []
 
 
 def _system(tmp_path, name, fname, planets=("b", "c")):
@@ -144,7 +130,7 @@ def test_non_dask_server_on_scheduler_port_fails_fast(tmp_path):
         waited = time.monotonic() - t0
     finally:
         srv.close()
-    _one_line_exit_2(proc.returncode, proc.stderr, "--scheduler", "no Dask scheduler answered")
+    one_line_exit_2(proc.returncode, proc.stderr, "--scheduler", "no Dask scheduler answered")
     assert waited < 100                      # a deadline, not a hang (the figure is printed by nothing)
     assert not out.exists()
 
@@ -175,7 +161,7 @@ def test_oserror_inside_a_run_is_one_line(tmp_path, capsys, monkeypatch):
         raise OSError(errno.EROFS, "Read-only file system", str(tmp_path / "out" / "systems.csv"))
     monkeypatch.setattr(survey_run, "_finish", readonly)
     rc, _, err = _run(["survey", str(_cat(tmp_path)), "--out", str(tmp_path / "out"), *SURVEY], capsys)
-    _one_line_exit_2(rc, err, "Read-only file system", "systems.csv")
+    one_line_exit_2(rc, err, "Read-only file system", "systems.csv")
     assert (tmp_path / "out" / "survey.sqlite").exists()        # the stored systems are kept
 
 
@@ -188,7 +174,7 @@ def test_sqlite_error_inside_a_run_is_one_line(tmp_path, capsys, monkeypatch):
     monkeypatch.setattr(SurveyStore, "put", full)
     monkeypatch.setattr(SurveyStore, "put_many", full)      # batched writes (issue 23) fail the same way
     rc, _, err = _run(["survey", str(_cat(tmp_path)), "--out", str(tmp_path / "out"), *SURVEY], capsys)
-    _one_line_exit_2(rc, err, "survey store", "disk is full", "--resume")
+    one_line_exit_2(rc, err, "survey store", "disk is full", "--resume")
 
 
 def _wait_for_staging(d, proc, limit=240):
@@ -243,7 +229,7 @@ def test_signal_to_a_report_process_removes_staging(tmp_path, sig, code):
             proc.wait()
     assert proc.returncode == code, err
     assert "Traceback" not in err
-    assert _files(out) == []                                # no partial output, no staging folder
+    assert files_in(out) == []                                # no partial output, no staging folder
     assert not out.exists() or list(out.iterdir()) == []
 
 
@@ -308,7 +294,7 @@ def test_final_move_failing_part_way_restores_everything(tmp_path, capsys, monke
     out = tmp_path / "out"
     rc, _, err = _run(["stack", str(_doc(tmp_path, "First")), "--figures", str(out)], capsys)
     assert rc == 0, err
-    before = {f: (out / f).read_bytes() for f in _files(out)}
+    before = {f: (out / f).read_bytes() for f in files_in(out)}
     assert len(before) == 2
     from archsys.output import files
     real, calls = files._move, []
@@ -320,9 +306,9 @@ def test_final_move_failing_part_way_restores_everything(tmp_path, capsys, monke
         return real(src, final)
     monkeypatch.setattr(files, "_move", failing)
     rc, _, err = _run(["stack", str(_doc(tmp_path, "Second", "doc2.json")), "--figures", str(out)], capsys)
-    _one_line_exit_2(rc, err, "Permission denied")
+    one_line_exit_2(rc, err, "Permission denied")
     assert len(calls) == 2
-    assert {f: (out / f).read_bytes() for f in _files(out)} == before
+    assert {f: (out / f).read_bytes() for f in files_in(out)} == before
     assert not [p for p in out.rglob(".*")]                  # no staging folder, no backup left
 
 
@@ -345,7 +331,7 @@ def test_staged_output_rolls_back_many_files(tmp_path, monkeypatch):
             for i in range(8):
                 atomic_write(tmp_path / "figures" / f"f{i}.txt", f"new{i}")
             atomic_write(tmp_path / "figures" / "extra.txt", "new")
-    assert _files(tmp_path) == sorted(f"figures/f{i}.txt" for i in range(8))
+    assert files_in(tmp_path) == sorted(f"figures/f{i}.txt" for i in range(8))
     assert [(tmp_path / "figures" / f"f{i}.txt").read_text() for i in range(8)] == [f"old{i}" for i in range(8)]
 
 
@@ -360,7 +346,7 @@ def test_final_move_failing_in_a_new_folder_leaves_nothing(tmp_path, capsys, mon
         return real(src, final)
     monkeypatch.setattr(files, "_move", failing)
     rc, _, err = _run(["stack", str(_doc(tmp_path)), "--figures", str(tmp_path / "new" / "out")], capsys)
-    _one_line_exit_2(rc, err, "Permission denied")
+    one_line_exit_2(rc, err, "Permission denied")
     assert not (tmp_path / "new").exists()
 
 
@@ -381,15 +367,15 @@ def test_figures_symlinked_to_another_file_system(tmp_path, capsys, tmpfs):
 def test_full_disk_during_report(tmp_path, capsys, tmpfs):
     disk = tmpfs("200k")
     rc, _, err = _run(["report", str(KORRIN), *FAST, "--out", str(disk / "out")], capsys)
-    _one_line_exit_2(rc, err, "No space left")
-    assert _files(disk) == [] and not [p for p in disk.rglob(".archsys-staging-*")]
+    one_line_exit_2(rc, err, "No space left")
+    assert files_in(disk) == [] and not [p for p in disk.rglob(".archsys-staging-*")]
 
 
 def test_full_disk_during_stack(tmp_path, capsys, tmpfs):
     disk = tmpfs("60k")
     rc, out, err = _run(["stack", str(KORRIN), str(KORRIN), *FAST, "--figures", str(disk / "f")], capsys)
-    _one_line_exit_2(rc, err, "No space left")
-    assert _files(disk) == []                          # not page 1 alone, nothing
+    one_line_exit_2(rc, err, "No space left")
+    assert files_in(disk) == []                          # not page 1 alone, nothing
 
 
 def test_full_disk_during_survey_then_resume(tmp_path, capsys, tmpfs):
@@ -400,12 +386,12 @@ def test_full_disk_during_survey_then_resume(tmp_path, capsys, tmpfs):
         fh.write(b"\0" * (400 * 1024 - 150 * 1024))
     args = ["survey", str(cat), "--out", str(out), "--mode", "direct", "--draws", "50", "--jobs", "1", "--quiet"]
     rc, _, err = _run(args, capsys)
-    _one_line_exit_2(rc, err)
+    one_line_exit_2(rc, err)
     assert "No space left" in err or "disk is full" in err, err
     assert not [p for p in disk.rglob(".archsys-staging-*")]
     assert not (out / "population.json").exists()
     rc, _, err = _run(args + ["--resume"], capsys)       # still full: one line again
-    _one_line_exit_2(rc, err)
+    one_line_exit_2(rc, err)
     filler.unlink()
     subprocess.run(["mount", "-o", "remount,size=64m", str(disk)], check=True)    # room again
     rc, _, err = _run(args + ["--resume"], capsys)
@@ -420,7 +406,7 @@ def test_stack_into_dev_full(tmp_path):
         proc = subprocess.run([sys.executable, "-m", "archsys", "stack", str(_doc(tmp_path)), "--figures",
                                str(tmp_path / "f")], stdout=full, stderr=subprocess.PIPE, text=True,
                               env=ENV, timeout=300)
-    _one_line_exit_2(proc.returncode, proc.stderr, "cannot write to standard output")
+    one_line_exit_2(proc.returncode, proc.stderr, "cannot write to standard output")
 
 
 @pytest.mark.parametrize("flag", ["--version", "--help"])
@@ -430,14 +416,14 @@ def test_version_and_help_into_a_full_device(flag):
     with open("/dev/full", "w") as full:
         proc = subprocess.run([sys.executable, "-m", "archsys", flag], stdout=full, stderr=subprocess.PIPE,
                               text=True, env=ENV, timeout=120)
-    _one_line_exit_2(proc.returncode, proc.stderr, "cannot write to standard output")
+    one_line_exit_2(proc.returncode, proc.stderr, "cannot write to standard output")
 
 
 def test_report_json_with_stdout_closed():
     proc = subprocess.run([sys.executable, "-m", "archsys", "report", str(KORRIN), "--json", *FAST],
                           stderr=subprocess.PIPE, text=True, env=ENV, timeout=120,
                           preexec_fn=lambda: os.close(1))
-    _one_line_exit_2(proc.returncode, proc.stderr, "standard output is closed")
+    one_line_exit_2(proc.returncode, proc.stderr, "standard output is closed")
 
 
 # ================================================================== 3. depth and size limits
@@ -448,14 +434,14 @@ def test_deeply_nested_system_file(tmp_path, capsys):
     f = tmp_path / "deep.toml"
     f.write_text('name = "Deep"\nnotes = ' + "[" * DEEP + "]" * DEEP + "\n")
     rc, _, err = _run(["report", str(f), "--json", *FAST], capsys)
-    _one_line_exit_2(rc, err, "deep.toml", "nested")
+    one_line_exit_2(rc, err, "deep.toml", "nested")
 
 
 def test_moderately_nested_system_file_beyond_the_limit(tmp_path, capsys):
     f = tmp_path / "deep40.toml"
     f.write_text('name = "Deep"\nnotes = ' + "[" * 40 + '"x"' + "]" * 40 + "\n")
     rc, _, err = _run(["report", str(f), "--json", *FAST], capsys)
-    _one_line_exit_2(rc, err, "nested more than 32 levels")
+    one_line_exit_2(rc, err, "nested more than 32 levels")
 
 
 def test_deeply_nested_column_map(tmp_path, capsys):
@@ -463,7 +449,7 @@ def test_deeply_nested_column_map(tmp_path, capsys):
     m.write_text('[keys]\nsystem = "system"\n[aliases]\nx = ' + "[" * DEEP + "]" * DEEP + "\n")
     rc, _, err = _run(["survey", str(_cat(tmp_path)), "--columns", str(m), "--out", str(tmp_path / "o"),
                        *SURVEY], capsys)
-    _one_line_exit_2(rc, err, "map.toml", "nested")
+    one_line_exit_2(rc, err, "map.toml", "nested")
     assert not (tmp_path / "o").exists()
 
 
@@ -472,7 +458,7 @@ def test_deeply_nested_prior_file(tmp_path, capsys):
     p.write_text('name = "deep"\nquantity = "eccentricity"\nfamily = "beta"\nx = ' + "{a=" * DEEP + "1"
                  + "}" * DEEP + "\n")
     rc, _, err = _run(["report", str(KORRIN), "--json", "--mode", "mcmc", "--prior", str(p)], capsys)
-    _one_line_exit_2(rc, err, "prior.toml", "nested")
+    one_line_exit_2(rc, err, "prior.toml", "nested")
 
 
 @pytest.mark.parametrize("expr", ["(" * 5000 + "n_planets>=1" + ")" * 5000, "not " * 5000 + "n_planets>=1",
@@ -481,14 +467,14 @@ def test_deeply_nested_prior_file(tmp_path, capsys):
 def test_deeply_nested_where(expr, tmp_path, capsys):
     rc, _, err = _run(["survey", str(_cat(tmp_path)), "--out", str(tmp_path / "o"), *SURVEY, "--where", expr],
                       capsys)
-    _one_line_exit_2(rc, err, "--where", "nested more than 100 levels")
+    one_line_exit_2(rc, err, "--where", "nested more than 100 levels")
     assert len(err) < 400
 
 
 def test_deeply_nested_transit_planets(tmp_path, capsys):
     rc, _, err = _run(["survey", str(_cat(tmp_path)), "--out", str(tmp_path / "o"), *SURVEY,
                        "--transit-planets", "(" * 3000 + "period>1" + ")" * 3000], capsys)
-    _one_line_exit_2(rc, err, "--transit-planets", "nested")
+    one_line_exit_2(rc, err, "--transit-planets", "nested")
 
 
 def test_thousand_or_terms_are_flat(tmp_path, capsys):
@@ -503,7 +489,7 @@ def test_thousand_or_terms_are_flat(tmp_path, capsys):
 def test_where_longer_than_the_limit(tmp_path, capsys):
     rc, _, err = _run(["survey", str(_cat(tmp_path)), "--out", str(tmp_path / "o"), *SURVEY,
                        "--where", "n_planets>=1 and " * 7000 + "n_planets>=1"], capsys)
-    _one_line_exit_2(rc, err, "at most 100000")
+    one_line_exit_2(rc, err, "at most 100000")
 
 
 def _npz(path, meta, draws):
@@ -530,7 +516,7 @@ def test_deeply_nested_npz_metadata(tmp_path, capsys):
     f = _npz(tmp_path / "deep.npz", '{"format": "archsys-chains", "x": ' + "[" * DEEP + "]" * DEEP + "}",
              _periods())
     rc, _, err = _run(["plot", str(f), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, "deep.npz", "nested")
+    one_line_exit_2(rc, err, "deep.npz", "nested")
     assert not (tmp_path / "f").exists()
 
 
@@ -538,7 +524,7 @@ def test_deeply_nested_json_document_for_stack(tmp_path, capsys):
     f = tmp_path / "doc.json"
     f.write_text('{"system": "X", "planets": ' + "[" * DEEP + "]" * DEEP + "}")
     rc, _, err = _run(["stack", str(f), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, "doc.json", "nested")
+    one_line_exit_2(rc, err, "doc.json", "nested")
 
 
 # ================================================================== 4. identity of systems and names
@@ -627,13 +613,13 @@ def survey_dir(tmp_path, capsys):
 def test_report_refuses_to_write_into_a_survey_folder(survey_dir, capsys):
     before = (survey_dir / "population.json").read_bytes()
     rc, _, err = _run(["report", str(KORRIN), *FAST, "--out", str(survey_dir)], capsys)
-    _one_line_exit_2(rc, err, "output folder of a survey")
+    one_line_exit_2(rc, err, "output folder of a survey")
     assert (survey_dir / "population.json").read_bytes() == before
 
 
 def test_report_refuses_a_survey_figures_folder(survey_dir, capsys):
     rc, _, err = _run(["report", str(KORRIN), *FAST, "--figures", str(survey_dir / "figures")], capsys)
-    _one_line_exit_2(rc, err, "output folder of a survey")
+    one_line_exit_2(rc, err, "output folder of a survey")
 
 
 def test_report_respects_the_survey_lock(tmp_path, capsys):
@@ -641,8 +627,8 @@ def test_report_respects_the_survey_lock(tmp_path, capsys):
     out = tmp_path / "busy"
     with SurveyLock(out):
         rc, _, err = _run(["report", str(KORRIN), *FAST, "--out", str(out)], capsys)
-    _one_line_exit_2(rc, err, "survey is running")
-    assert _files(out) == []
+    one_line_exit_2(rc, err, "survey is running")
+    assert files_in(out) == []
 
 
 # ================================================================== 7. odd arguments and streams
@@ -662,7 +648,7 @@ def test_empty_out_refused(cmd, tmp_path, capsys, monkeypatch):
     args = ["report", str(KORRIN), *FAST, "--out", ""] if cmd == "report" else \
         ["survey", str(_cat(tmp_path)), *SURVEY, "--out", ""]
     rc, _, err = _run(args, capsys)
-    _one_line_exit_2(rc, err, "--out", "empty folder name")
+    one_line_exit_2(rc, err, "--out", "empty folder name")
     assert sorted(p.name for p in tmp_path.iterdir()) == (["cat.csv"] if cmd == "survey" else [])
 
 
@@ -672,12 +658,12 @@ def test_300_character_out_refused(cmd, tmp_path, capsys):
     args = ["report", str(KORRIN), *FAST, "--out", long] if cmd == "report" else \
         ["survey", str(_cat(tmp_path)), *SURVEY, "--out", long]
     rc, _, err = _run(args, capsys)
-    _one_line_exit_2(rc, err, "--out", "at most 255")
+    one_line_exit_2(rc, err, "--out", "at most 255")
 
 
 def test_stack_negative_limit_refused(tmp_path, capsys):
     rc, _, err = _run(["stack", str(KORRIN), *FAST, "--limit", "-3", "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, "--limit", "at least 1")
+    one_line_exit_2(rc, err, "--limit", "at least 1")
     assert not (tmp_path / "f").exists()
 
 
@@ -698,7 +684,7 @@ def test_long_unit_string_is_clipped_in_the_error(tmp_path, capsys):
     f.write_text('name = "Unit"\n[star]\nmass = 0.9\n[[planet]]\nname = "b"\n'
                  f'period = {{ value = 3.0, unit = "{"furlong" * 1500}" }}\n')
     rc, _, err = _run(["report", str(f), "--json", *FAST], capsys)
-    _one_line_exit_2(rc, err, "unit")
+    one_line_exit_2(rc, err, "unit")
     assert len(err) < 600
 
 
@@ -713,7 +699,7 @@ def test_long_unit_string_is_clipped_in_the_error(tmp_path, capsys):
 def test_plot_refuses_chains_with_bad_draws(bad, token, tmp_path, capsys):
     f = _npz(tmp_path / "c.npz", _meta(), bad)
     rc, _, err = _run(["plot", str(f), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, "c.npz", token)
+    one_line_exit_2(rc, err, "c.npz", token)
     assert not (tmp_path / "f").exists()
 
 
@@ -723,14 +709,14 @@ def test_plot_refuses_chains_with_bad_draws(bad, token, tmp_path, capsys):
 def test_chains_document_planets_of_the_wrong_type(planets, token, tmp_path, capsys):
     f = _npz(tmp_path / "c.npz", _meta(document={"system": "Npzia", "planets": planets}), _periods())
     rc, _, err = _run(["plot", str(f), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, token)
+    one_line_exit_2(rc, err, token)
 
 
 @pytest.mark.parametrize("name", ["b\x1b]0;x\x07", "c\x07"])
 def test_chains_planet_name_with_control_characters(name, tmp_path, capsys):
     f = _npz(tmp_path / "c.npz", _meta(names=("b", name)), _periods())
     rc, _, err = _run(["plot", str(f), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, "control character")
+    one_line_exit_2(rc, err, "control character")
     assert "\x1b" not in err and "\x07" not in err
 
 
@@ -743,7 +729,7 @@ def test_stack_refuses_malformed_documents(doc, token, tmp_path, capsys):
     f = tmp_path / "doc.json"
     f.write_text(json.dumps(doc))
     rc, _, err = _run(["stack", str(f), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, token)
+    one_line_exit_2(rc, err, token)
 
 
 def test_saved_chains_still_read_back(tmp_path):
@@ -799,7 +785,7 @@ def test_scheduler_killed_mid_survey_then_resume_is_identical(tmp_path):
         for p in (sched, worker):
             p.kill()
             p.wait()
-    _one_line_exit_2(proc.returncode, err, "--resume")
+    one_line_exit_2(proc.returncode, err, "--resume")
     assert (out / "survey.sqlite").exists() and not (out / "population.json").exists()
     proc = _cli([*args, "--jobs", "1", "--resume"], timeout=600)
     assert proc.returncode == 0, proc.stderr
@@ -818,27 +804,27 @@ def test_stack_refuses_documents_with_values_out_of_range(planet, token, tmp_pat
     f = tmp_path / "doc.json"
     f.write_text(json.dumps({"system": "X", "planets": [planet]}))
     rc, _, err = _run(["stack", str(f), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, token)
+    one_line_exit_2(rc, err, token)
 
 
 def test_stack_refuses_a_document_with_an_overflowing_number(tmp_path, capsys):
     f = tmp_path / "doc.json"
     f.write_text('{"system": "X", "planets": [{"name": "b", "mass_mearth": {"median": 1e999}}]}')
     rc, _, err = _run(["stack", str(f), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, "finite numbers only")
+    one_line_exit_2(rc, err, "finite numbers only")
 
 
 def test_chains_with_mismatched_document_refused(tmp_path, capsys):
     f = _npz(tmp_path / "c.npz", _meta(document={"system": "Npzia", "planets": [{"name": "b"}]}), _periods())
     rc, _, err = _run(["plot", str(f), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, "1 planets for 2 planet names")
+    one_line_exit_2(rc, err, "1 planets for 2 planet names")
 
 
 def test_over_long_names_refused_like_in_documents(tmp_path, capsys):
     # system files and documents read back share the name limit (200 characters)
     f = _system(tmp_path, "N" * 201, "n.toml")
     rc, _, err = _run(["report", str(f), "--json", *FAST], capsys)
-    _one_line_exit_2(rc, err, "201 characters", "at most 200")
+    one_line_exit_2(rc, err, "201 characters", "at most 200")
     g = _system(tmp_path, "N" * 200, "m.toml")
     rc, out, err = _run(["report", str(g), "--json", *FAST], capsys)
     assert rc == 0, err
@@ -855,7 +841,7 @@ def test_stack_of_a_survey_folder_with_foreign_tables(tmp_path, capsys):
     (d / "planets.csv").write_text("system,planet\nA,A b\n")
     (d / "pairs.csv").write_text("system\nA\n")
     rc, _, err = _run(["stack", str(d), "--figures", str(tmp_path / "f")], capsys)
-    _one_line_exit_2(rc, err, "systems.csv", "no column 'system'")
+    one_line_exit_2(rc, err, "systems.csv", "no column 'system'")
 
 
 def test_sigterm_during_survey_keeps_the_store_and_resume_is_identical(tmp_path, capsys, monkeypatch):
@@ -893,6 +879,6 @@ def test_full_disk_at_the_start_of_a_survey(tmp_path, capsys, tmpfs):
                 fh.write(b"\0" * 4096)
                 fh.flush()
     rc, _, err = _run(["survey", str(_cat(tmp_path)), "--out", str(disk / "out"), *SURVEY], capsys)
-    _one_line_exit_2(rc, err)
+    one_line_exit_2(rc, err)
     assert "No space left" in err or "disk is full" in err or "no room" in err, err
     assert not (disk / "out").exists()

@@ -12,6 +12,7 @@ import pytest
 
 from archsys.cli import main
 from archsys.errors import InputError
+from cli_checks import one_line_exit_2
 
 CAT = ("system,planet,period,period_err,ecc,ecc_err,star_mass\n"
        "Alda,Alda b,3.1,0.001,0.10,0.03,0.9\nAlda,Alda c,7.4,0.001,0.05,0.02,0.9\n"
@@ -25,15 +26,6 @@ def _run(argv, capsys):
     rc = main(argv)
     cap = capsys.readouterr()
     return rc, cap.out, cap.err
-
-
-def _one_line_exit_2(rc, err, *tokens):
-    assert rc == 2, err
-    assert "Traceback" not in err
-    lines = err.splitlines()
-    assert len(lines) == 1 and lines[0].startswith("archsys: error: "), err
-    for t in tokens:
-        assert t in err, (t, err)
 
 
 @pytest.fixture
@@ -118,7 +110,7 @@ def test_changed_value_fails_the_checksum_and_is_repaired(surveyed, capsys):
 def _refused_untouched(cat, out, capsys, *tokens):
     before = (out / "survey.sqlite").read_bytes()
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY, "--resume"], capsys)
-    _one_line_exit_2(rc, err, "survey.sqlite", *tokens)
+    one_line_exit_2(rc, err, "survey.sqlite", *tokens)
     assert (out / "survey.sqlite").read_bytes() == before          # never changed by the refusal
 
 
@@ -157,7 +149,7 @@ def test_store_without_manifest_refused(surveyed, capsys):
     cat, out, _ = surveyed
     _sql(out, "DELETE FROM manifest")
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY, "--resume"], capsys)
-    _one_line_exit_2(rc, err, "manifest is missing")
+    one_line_exit_2(rc, err, "manifest is missing")
 
 
 def test_store_with_unreadable_pages_refused(surveyed, capsys):
@@ -170,7 +162,7 @@ def test_store_with_unreadable_pages_refused(surveyed, capsys):
     blob[2 * page:3 * page] = np.random.default_rng(2).bytes(page)   # one page of random bytes
     p.write_bytes(bytes(blob))
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY, "--resume"], capsys)
-    _one_line_exit_2(rc, err, "survey.sqlite")
+    one_line_exit_2(rc, err, "survey.sqlite")
 
 
 # ------------------------------------------------------------------ never a partial table with exit 0
@@ -197,7 +189,7 @@ def test_damaged_store_between_store_and_finish_writes_nothing(tmp_path, capsys,
         return real(store, *a, **k)
     monkeypatch.setattr(survey_run, "_finish", damaged_finish)
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY], capsys)
-    _one_line_exit_2(rc, err, "'Alda'", "--resume")
+    one_line_exit_2(rc, err, "'Alda'", "--resume")
     assert sorted(p.name for p in out.iterdir() if not p.name.startswith("survey.sqlite")) == []
     monkeypatch.setattr(survey_run, "_finish", real)
     rc, _, err = _run(["survey", str(cat), "--out", str(out), *SURVEY, "--resume"], capsys)

@@ -47,7 +47,7 @@ def test_dask_cluster_equals_serial(serial, tmp_path, monkeypatch):
     monkeypatch.setenv("PYTHONPATH", root)
     # two tasks of 6 systems each, analysed together in a worker (the serial run above: one at a time)
     from archsys.survey import workers
-    monkeypatch.setattr(workers, "_dask_batches", lambda tasks, n_workers, batch=None: [tasks[:6], tasks[6:]])
+    monkeypatch.setattr(workers, "_batches", lambda tasks, n_workers=1, batch=None: [tasks[:6], tasks[6:]])
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
                                   dashboard_address=None) as cluster:
         got = _run(tmp_path / "o", scheduler=cluster.scheduler_address)

@@ -35,8 +35,14 @@ CITATION = "Barnes & Raymond 2004; Fang & Margot 2013; criteria: Gladman 1993, L
 
 def _test_mass_msun(m_in, m_out, test_mass_mearth):
     if test_mass_mearth is None:
-        return packing.default_test_mass(m_in, m_out), "geometric mean of the neighbours' masses"
-    return np.full(m_in.shape, float(test_mass_mearth) * MEARTH_MSUN), f"{test_mass_mearth:g} Earth masses (given)"
+        return packing.default_test_mass(m_in, m_out)
+    return np.full(m_in.shape, float(test_mass_mearth) * MEARTH_MSUN)
+
+
+def _test_mass_note(test_mass_mearth):
+    if test_mass_mearth is None:
+        return "geometric mean of the neighbours' masses"
+    return f"{test_mass_mearth:g} Earth masses (given)"
 
 
 def thinned(n, max_draws):
@@ -44,9 +50,9 @@ def thinned(n, max_draws):
     return np.arange(n) if max_draws >= n else np.linspace(0, n - 1, max_draws).round().astype(int)
 
 
-def _gap_grid(P, j, n_trial):
-    """Trial periods of gap ``j`` from the median periods of the draws ``P`` of one posterior."""
-    return packing.trial_periods(np.nanmedian(P[:, j]), np.nanmedian(P[:, j + 1]), n_trial)
+def _gap_ends(P, j):
+    """Ends of gap ``j``'s trial grid: the median periods of its neighbours over the draws ``P`` of one posterior."""
+    return np.nanmedian(P[:, j]), np.nanmedian(P[:, j + 1])
 
 
 def packing_arrays(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARATION,
@@ -65,7 +71,8 @@ def packing_arrays(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARA
     unusable or thinned out), ``room_p_lo``/``room_p_hi`` [day] (NaN where nothing fits),
     ``room_m_test`` [M_sun], ``room_hill_any``/``room_gladman_any`` (1/0, NaN where not tested) and
     ``room_fit_lo``/``room_fit_hi`` (first and last index of the gap's trial grid where the test planet
-    fits, :func:`~archsys.physics.packing.gap_room`; NaN where not tested).
+    fits, :func:`~archsys.physics.packing.gap_room`; NaN where not tested) and ``room_grid_in``/
+    ``room_grid_out`` (the ends of the posterior's trial grid: its median neighbour periods [day]).
     """
     if post.system.n_planets < 2:
         return None
@@ -86,16 +93,19 @@ def packing_arrays(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARA
     if usable.any():
         c_tot[usable] = amd.system_amd(m[usable], a[usable], e[usable], inc[usable], ms[usable])
     n_gaps = P.shape[1] - 1
-    sub_edges = np.cumsum([0] + [p.size for p in picks])
+    sizes = [p.size for p in picks]
+    sub_edges = np.cumsum([0] + sizes)
     out = {k: np.full((n_all, n_gaps), np.nan) for k in
-           ("room_any_fit", "room_p_lo", "room_p_hi", "room_m_test", "room_hill_any", "room_gladman_any")}
-    out["room_fit_lo"] = np.full((n_all, n_gaps), np.nan)
-    out["room_fit_hi"] = np.full((n_all, n_gaps), np.nan)
+           ("room_any_fit", "room_p_lo", "room_p_hi", "room_m_test", "room_hill_any", "room_gladman_any",
+            "room_fit_lo", "room_fit_hi", "room_grid_in", "room_grid_out")}
     for j in range(n_gaps):
         # one grid per posterior, from its own (thinned) draws; rows of the stack take their posterior's
-        grids = [_gap_grid(P[lo:hi], j, n_trial) for lo, hi in zip(sub_edges[:-1], sub_edges[1:])]
-        grid = grids[0][None, :] if len(grids) == 1 else np.repeat(np.stack(grids), [p.size for p in picks], axis=0)
-        m_t, _ = _test_mass_msun(m[:, j], m[:, j + 1], test_mass_mearth)
+        ends = [_gap_ends(P[lo:hi], j) for lo, hi in zip(sub_edges[:-1], sub_edges[1:])]
+        grids = [packing.trial_periods(p_in, p_out, n_trial) for p_in, p_out in ends]
+        grid = grids[0][None, :] if len(grids) == 1 else np.repeat(np.stack(grids), sizes, axis=0)
+        out["room_grid_in"][rows, j] = np.repeat([e[0] for e in ends], sizes)
+        out["room_grid_out"][rows, j] = np.repeat([e[1] for e in ends], sizes)
+        m_t = _test_mass_msun(m[:, j], m[:, j + 1], test_mass_mearth)
         out["room_m_test"][rows, j] = m_t
         ok = usable & np.isfinite(m_t) & (m_t > 0)
         if ok.any():
@@ -115,6 +125,11 @@ def packing_arrays(post, test_mass_mearth=None, min_hill=packing.MIN_HILL_SEPARA
             out["room_gladman_any"][r, j] = room["gladman"]
             out["room_fit_lo"][r, j], out["room_fit_hi"][r, j] = lo_i, hi_i
     return out
+
+
+def _grid_of(arr, row, j, n_trial):
+    """Gap ``j``'s trial grid, from the ends :func:`packing_arrays` recorded on the posterior's draw ``row``."""
+    return packing.trial_periods(arr["room_grid_in"][row, j], arr["room_grid_out"][row, j], n_trial)
 
 
 def _shade_interval(grid, lo, hi):
@@ -143,8 +158,7 @@ def packing_summary(post, arr, test_mass_mearth=None, min_hill=packing.MIN_HILL_
                     max_draws=MAX_DRAWS, n_trial=packing.N_TRIAL):
     """JSON-ready keys of one posterior from its :func:`packing_arrays` rows (see :func:`packing_block`)."""
     rows = thinned(post.n_draws, max_draws)
-    P = np.asarray(post["period"])[rows]
-    _, mass_note = _test_mass_msun(np.ones(1), np.ones(1), test_mass_mearth)
+    mass_note = _test_mass_note(test_mass_mearth)
     pairs, fit_cols = [], []
     for j in range(arr["room_any_fit"].shape[1]):
         any_fit = arr["room_any_fit"][rows, j]
@@ -156,7 +170,7 @@ def packing_summary(post, arr, test_mass_mearth=None, min_hill=packing.MIN_HILL_
                  "room_fit_period_min_day": summarize(p_lo) if np.isfinite(p_lo).any() else None,
                  "room_fit_period_max_day": summarize(p_hi) if np.isfinite(p_hi).any() else None,
                  "room_fit_interval_day": _shade_interval(
-                     _gap_grid(P, j, n_trial), *((arr["room_fit_lo"][rows[known], j], arr["room_fit_hi"][rows[known], j])
+                     _grid_of(arr, rows[0], j, n_trial), *((arr["room_fit_lo"][rows[known], j], arr["room_fit_hi"][rows[known], j])
                                                  if known.any() else (None, None))),
                  "room_test_mass_mearth": summarize(arr["room_m_test"][rows, j] / MEARTH_MSUN),
                  "room_test_mass_basis": mass_note}

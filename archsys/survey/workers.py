@@ -26,7 +26,7 @@ from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
 __all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "dask_client",
-           "run_tasks", "system_seed", "system_options", "SAMPLES_PER_PLANET", "MAX_BATCH", "DASK_BATCH", "FAST_BATCH"]
+           "run_tasks", "system_seed", "system_options", "SAMPLES_PER_PLANET", "FAST_BATCH"]
 
 #: Posterior samples per planet kept for the hierarchical inference.
 SAMPLES_PER_PLANET = 100
@@ -273,30 +273,32 @@ def watch_parent(parent_pid, interval=0.5):
                      name="archsys-parent-watch").start()
 
 
-def _run_serial(tasks, sink, batch=None):
-    # batches of up to FAST_BATCH, at least 8 of them: a small survey still stores (and shows) its
-    # systems as they finish
-    size = batch or max(1, min(FAST_BATCH, len(tasks) // 8))
-    for i in range(0, len(tasks), size):
-        for r in process_batch(tasks[i:i + size]):
-            sink(r)
-
-
-#: Largest number of systems sent to a worker in one call.
-MAX_BATCH = 16
-#: Systems analysed together in fast mode (process_batch): enough to amortise the per-draw kernels'
-#: Python cost over (systems x draws) arrays, small enough for the caches and a steady progress line.
+#: Most systems in one worker call (process_batch analyses a fast-mode call together): enough to amortise
+#: the per-draw kernels' Python cost over (systems x draws) arrays and a Dask scheduler's per-task cost
+#: (about a millisecond), small enough for the caches and a steady progress line.
 FAST_BATCH = 64
+#: Fewest worker calls per worker: every worker stays busy to the end, a small survey stores (and shows)
+#: its systems as they finish, and a crash loses little.
+CALLS_PER_WORKER = 8
+
+
+def _batches(tasks, n_workers=1, batch=None):
+    """The tasks cut into worker calls: ``batch`` each, else up to FAST_BATCH with CALLS_PER_WORKER per worker."""
+    size = batch or max(1, min(FAST_BATCH, len(tasks) // (CALLS_PER_WORKER * max(1, n_workers))))
+    return [tasks[i:i + size] for i in range(0, len(tasks), size)]
+
+
+def _run_serial(tasks, sink, batch=None):
+    for b in _batches(tasks, 1, batch):
+        for r in process_batch(b):
+            sink(r)
 
 
 def _run_local(tasks, sink, jobs, batch=None):
     import multiprocessing
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
     ctx = multiprocessing.get_context("spawn")     # no inherited sqlite handle, same as Dask workers
-    # small batches: few enough per call that every worker stays busy to the end and a crash
-    # loses little; results are still stored system by system
-    size = batch or max(1, min(FAST_BATCH, len(tasks) // (4 * jobs)))
-    it = iter([tasks[i:i + size] for i in range(0, len(tasks), size)])
+    it = iter(_batches(tasks, jobs, batch))
     # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
     saved = {k: os.environ.get(k) for k in _THREAD_VARS}
     os.environ.update({k: "1" for k in _THREAD_VARS})
@@ -340,21 +342,11 @@ def dask_client(address):
     return connect(address)
 
 
-#: Systems per Dask task: enough to amortise the scheduler's per-task cost (about a millisecond) over
-#: fast-mode systems, few enough that every worker stays busy to the end.
-DASK_BATCH = 64
-
-
-def _dask_batches(tasks, n_workers, batch=None):
-    size = batch or max(1, min(DASK_BATCH, len(tasks) // (8 * max(1, n_workers))))
-    return [tasks[i:i + size] for i in range(0, len(tasks), size)]
-
-
 def _run_dask(tasks, sink, client, batch=None):
     from .remote import results
     try:
         n_workers = len(client.scheduler_info().get("workers", {})) or 1
-        futures = client.map(process_batch, _dask_batches(tasks, n_workers, batch), pure=False)
+        futures = client.map(process_batch, _batches(tasks, n_workers, batch), pure=False)
         for fut, res in results(client, futures):
             for r in res:
                 sink(r)
