@@ -129,6 +129,9 @@ def test_bisection_finds_the_same_room_as_the_full_grid(per_row_grid):
     Random pairs from Earth to ten Jupiter masses, period ratios 1.1-8, e up to 0.16: the fits, the
     Hill-spacing and the Gladman flags are intervals of the grid (the criteria are monotonic in the
     distance from each neighbour), so both ends found by bisection give exactly the grid's answer.
+    Reference: the brute-force evaluation of every trial period (gap_fit: the Barnes & Raymond 2004 /
+    Fang & Margot 2013 test-planet method with Gladman 1993 and Laskar & Petit 2017 criteria); that a
+    bisection of a monotonic predicate finds its switch point is common practice.
     """
     from archsys.physics.kepler import period_day
     rng = np.random.default_rng(3)

@@ -132,3 +132,16 @@ def test_gap_complexity_and_chain_on_a_resonant_chain():
     # 10 M_E planets: the near-resonance window (3 x the mu^(2/3) width) exceeds 1 %
     assert all(p["near_resonance_probability"] == 1.0 for p in sc["pairs"])
     assert sc["system"]["resonant_chains"] == [["p0", "p1", "p2", "p3", "p4"]]
+
+
+def test_modal_pair_is_counters_most_common():
+    """scores.common.modal_pair against the standard library's collections.Counter.most_common
+    (reference implementation; ties go to the pair seen first, as Counter documents)."""
+    from collections import Counter
+
+    from archsys.scores.common import modal_pair
+    rng = np.random.default_rng(0)
+    for _ in range(2000):
+        n = int(rng.integers(1, 40))
+        j, k = rng.integers(1, 6, n), rng.integers(1, 4, n)
+        assert modal_pair(j, k) == Counter(zip(j.tolist(), k.tolist())).most_common(1)[0][0]
