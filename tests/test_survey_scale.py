@@ -194,3 +194,22 @@ def test_open_catalogue_batched_workers_equal_one_at_a_time(tmp_path, monkeypatc
     monkeypatch.undo()
     run_survey(OEC, tmp_path / "batched", jobs=2, **kw)
     assert _outputs(tmp_path / "batched") == _outputs(tmp_path / "one")
+
+
+def _blas_threads():
+    from threadpoolctl import threadpool_info
+    return sorted({i["num_threads"] for i in threadpool_info()})
+
+
+def test_fit_processes_and_the_survey_process_use_one_blas_thread():
+    """Population-fit processes start with one BLAS thread, even when started at a later submit.
+
+    A process pool starts its processes as tasks are submitted, so setting the thread variables only
+    around the pool's creation missed them (the fits ran 12x slower on busy cores); threadpoolctl reads
+    the loaded libraries' own setting (common practice for process-parallel numerical code).
+    """
+    from archsys.survey.workers import one_blas_thread
+    with popfits.FitRunner(1) as fits:
+        assert fits.submit(_blas_threads).result() == [1]
+    with one_blas_thread():
+        assert _blas_threads() == [1]
