@@ -295,6 +295,10 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
             "reason": "no analysed posterior provides planet tilts 'psi' (direct Monte Carlo draws do not "
                       "sample mutual inclinations); the MCMC mode of transiting multis would"}
     step(_FINISH_STEPS[3])                  # the tilt fit ran here while the eccentricity fits ran beside
+    figures = {}
+    if sv.figures:            # the figures that need no population fit, drawn while the fits run beside
+        from ..output.figures.survey_set import BEFORE_FITS, render_survey_figures
+        figures = render_survey_figures(pop, ok_rows, pairs, planets, names=BEFORE_FITS, preset=sv.preset)
     ecc_pop = ecc_done()
     step(_FINISH_STEPS[2])
     ecc_pop.update({k: v for k, v in ecc_info.items() if k != "interim"})
@@ -314,8 +318,10 @@ def _finish(store, cat, cmap, selected, ids, orphans, groups, out, opts, sv, tra
         write_csv(out / "pairs.csv", header_of(pairs, _FIRST_PAIR_COLS), pairs)
         write_csv(out / "rejects.csv", list(REJECT_COLS), rejects)
         if sv.figures:
-            from ..output.figures.survey_set import survey_figures
-            survey_figures(pop, ok_rows, pairs, planets, out / "figures", preset=sv.preset)
+            from ..output.figures.survey_set import FIGURES, render_survey_figures, write_survey_figures
+            figures.update(render_survey_figures(pop, ok_rows, pairs, planets, preset=sv.preset,
+                                                 names=[n for n in FIGURES if n not in figures]))
+            write_survey_figures(figures, out / "figures")
         atomic_write(out / "population.json", json.dumps(pop, indent=2, allow_nan=False) + "\n")
     step(_FINISH_STEPS[5])
     return pop
