@@ -88,16 +88,7 @@ def azimuth_fraction(cos_ref, psi, c_max):
     fixed and the fraction is 0 or 1.
     """
     cI = np.clip(np.asarray(cos_ref, dtype=float), -1.0, 1.0)
-    psi = np.asarray(psi, dtype=float)
-    c = np.asarray(c_max, dtype=float)
-    A = cI * np.cos(psi)
-    B = np.sqrt(1.0 - cI * cI) * np.abs(np.sin(psi))
-    tiny = B < 1e-15
-    Bs = np.where(tiny, 1.0, B)
-    lo = np.clip((-c - A) / Bs, -1.0, 1.0)
-    hi = np.clip((c - A) / Bs, -1.0, 1.0)
-    frac = (np.arccos(lo) - np.arccos(hi)) / np.pi
-    return np.where(tiny, (np.abs(A) < c).astype(float), frac)
+    return _fraction(cI, np.sqrt(1.0 - cI * cI), np.asarray(psi, dtype=float), np.asarray(c_max, dtype=float))
 
 
 def _cdf(psi, sigma, kind):
@@ -186,18 +177,72 @@ def conditional_transit_probability(aor, ref_inc, sigma, ror=0.0, ecc=0.0, omega
     I, c, sig = np.broadcast_arrays(np.asarray(ref_inc, dtype=float), c, np.asarray(sigma, dtype=float))
     if kind == "rayleigh" and np.any(~np.isfinite(sig) | (sig <= 0)):
         raise ValueError("sigma must be positive and finite")
-    sig = sig[..., None, None]
-    x, w = np.polynomial.legendre.leggauss(n_gauss)               # on [-1, 1]
-    u_edges = _cdf(tilt_kinks(I, c), sig[..., 0], kind)           # (..., 8)
-    ua, ub = u_edges[..., :-1, None], u_edges[..., 1:, None]      # (..., 7, 1)
+    shape = I.shape
+    I, c, sig = (np.ravel(v) for v in (I, c, sig))                    # (N,)
+    kinks = tilt_kinks(I, c)                                            # (N, 8)
+    u_edges = _cdf(kinks, sig[:, None], kind)
+    width = u_edges[:, 1:] - u_edges[:, :-1]                            # (N, 7)
+    part = np.zeros(width.shape)
+    # Pieces of zero width in u (kinks clipped to 0 or pi, or beyond the Rayleigh's reach, where
+    # F(psi) is 1 to double precision) add exactly nothing.  Between two kinks the azimuth
+    # fraction is either one expression or exactly 0 or exactly 1 (tilt_kinks), so the fraction
+    # at the piece's middle tilt says which: 0 adds nothing, 1 adds the width times the sum of
+    # the weights, and only the other pieces need the nodes.
+    rows, segs = np.nonzero(width != 0)                                 # NaN widths stay (NaN result)
+    cI = np.clip(np.cos(I), -1.0, 1.0)
+    sI = np.sqrt(1.0 - cI * cI)
+    mid = 0.5 * (kinks[rows, segs] + kinks[rows, segs + 1])
+    f_mid = _fraction(cI[rows], sI[rows], mid, c[rows])
+    x, w = np.polynomial.legendre.leggauss(n_gauss)                     # on [-1, 1]
     # u = ua + (ub - ua)(1 - cos t)/2 clusters the nodes at both ends of each piece,
     # which removes the square-root behaviour of the fraction at the kinks
-    t = 0.5 * np.pi * (x + 1.0)                                   # (n_gauss,) in (0, pi)
-    wt = 0.5 * np.pi * w * 0.5 * np.sin(t)                        # du/(ub - ua) weights
-    u = ua + (ub - ua) * 0.5 * (1.0 - np.cos(t))                  # (..., 7, n_gauss)
-    psi = _inverse_cdf(u, sig, kind)
-    frac = azimuth_fraction(np.cos(I)[..., None, None], psi, c[..., None, None])
-    return np.sum((ub - ua)[..., 0] * (frac @ wt), axis=-1)
+    t = 0.5 * np.pi * (x + 1.0)                                         # (n_gauss,) in (0, pi)
+    wt = 0.5 * np.pi * w * 0.5 * np.sin(t)                              # du/(ub - ua) weights
+    omc = 1.0 - np.cos(t)
+    full = f_mid == 1.0
+    part[rows[full], segs[full]] = width[rows[full], segs[full]] * _ordered_sum(np.ones((n_gauss, 1)), wt)[0]
+    todo = ~((f_mid == 0.0) | full)
+    rows, segs = rows[todo], segs[todo]
+    for k in range(0, rows.size, _CHUNK):
+        r, s = rows[k:k + _CHUNK], segs[k:k + _CHUNK]
+        ua, hw = u_edges[r, s], width[r, s] * 0.5
+        u = ua + hw * omc[:, None]                                      # (n_gauss, chunk)
+        sg = sig[r]
+        if kind == "rayleigh":
+            with np.errstate(over="ignore", under="ignore", divide="ignore"):
+                f_pi = -np.expm1(-np.pi ** 2 / (2.0 * sg * sg))
+                psi = np.minimum(sg * np.sqrt(-2.0 * np.log1p(-np.minimum(u * f_pi, 1.0))), np.pi)
+        else:
+            psi = _inverse_cdf(u, sg, kind)
+        frac = _fraction(cI[r], sI[r], psi, c[r])
+        part[r, s] = width[r, s] * _ordered_sum(frac, wt)
+    return np.sum(part, axis=-1).reshape(shape)
+
+
+#: Pieces of the tilt integral evaluated together (node arrays of n_gauss x _CHUNK stay in cache).
+_CHUNK = 2048
+
+
+def _ordered_sum(frac, wt):
+    """sum_k wt[k] * frac[k] over the first axis, in node order (the same rounding for every element)."""
+    acc = frac[0] * wt[0]
+    for k in range(1, len(wt)):
+        acc += frac[k] * wt[k]
+    return acc
+
+
+def _fraction(cI, sI, psi, c):
+    """:func:`azimuth_fraction` from cos I clipped to [-1, 1] and sin I = sqrt(1 - cos^2 I)."""
+    A = cI * np.cos(psi)
+    B = sI * np.abs(np.sin(psi))
+    tiny = B < 1e-15
+    Bs = np.where(tiny, 1.0, B)
+    lo = np.clip((-c - A) / Bs, -1.0, 1.0)
+    hi = np.clip((c - A) / Bs, -1.0, 1.0)
+    frac = np.arccos(lo)
+    frac -= np.arccos(hi)
+    frac /= np.pi
+    return np.where(tiny, (np.abs(A) < c).astype(float), frac)
 
 
 def isotropic_transit_probability(aor, ror=0.0, ecc=0.0, omega_rad=np.pi / 2):
