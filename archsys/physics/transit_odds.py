@@ -192,7 +192,7 @@ def conditional_transit_probability(aor, ref_inc, sigma, ror=0.0, ecc=0.0, omega
     cI = np.clip(np.cos(I), -1.0, 1.0)
     sI = np.sqrt(1.0 - cI * cI)
     mid = 0.5 * (kinks[rows, segs] + kinks[rows, segs + 1])
-    f_mid = _fraction(cI[rows], sI[rows], mid, c[rows])
+    f_mid, lo_mid, hi_mid = _fraction(cI[rows], sI[rows], mid, c[rows], bounds=True)
     x, w = np.polynomial.legendre.leggauss(n_gauss)                     # on [-1, 1]
     # u = ua + (ub - ua)(1 - cos t)/2 clusters the nodes at both ends of each piece,
     # which removes the square-root behaviour of the fraction at the kinks
@@ -201,21 +201,25 @@ def conditional_transit_probability(aor, ref_inc, sigma, ror=0.0, ecc=0.0, omega
     omc = 1.0 - np.cos(t)
     full = f_mid == 1.0
     part[rows[full], segs[full]] = width[rows[full], segs[full]] * _ordered_sum(np.ones((n_gauss, 1)), wt)[0]
+    # on the other pieces one bound of cos(phi) may stay clipped throughout (arccos(-1) = pi,
+    # arccos(1) = 0): only the other one is evaluated at the nodes
     todo = ~((f_mid == 0.0) | full)
-    rows, segs = rows[todo], segs[todo]
-    for k in range(0, rows.size, _CHUNK):
-        r, s = rows[k:k + _CHUNK], segs[k:k + _CHUNK]
-        ua, hw = u_edges[r, s], width[r, s] * 0.5
-        u = ua + hw * omc[:, None]                                      # (n_gauss, chunk)
-        sg = sig[r]
-        if kind == "rayleigh":
-            with np.errstate(over="ignore", under="ignore", divide="ignore"):
-                f_pi = -np.expm1(-np.pi ** 2 / (2.0 * sg * sg))
-                psi = np.minimum(sg * np.sqrt(-2.0 * np.log1p(-np.minimum(u * f_pi, 1.0))), np.pi)
-        else:
-            psi = _inverse_cdf(u, sg, kind)
-        frac = _fraction(cI[r], sI[r], psi, c[r])
-        part[r, s] = width[r, s] * _ordered_sum(frac, wt)
+    for lo_side, hi_side in ((False, True), (True, False), (True, True)):
+        sel = todo & (~(lo_mid <= -1.0) == lo_side) & (~(hi_mid >= 1.0) == hi_side)     # NaN: both
+        r_all, s_all = rows[sel], segs[sel]
+        for k in range(0, r_all.size, _CHUNK):
+            r, s = r_all[k:k + _CHUNK], s_all[k:k + _CHUNK]
+            ua, hw = u_edges[r, s], width[r, s] * 0.5
+            u = ua + hw * omc[:, None]                                  # (n_gauss, chunk)
+            sg = sig[r]
+            if kind == "rayleigh":
+                with np.errstate(over="ignore", under="ignore", divide="ignore"):
+                    f_pi = -np.expm1(-np.pi ** 2 / (2.0 * sg * sg))
+                    psi = np.minimum(sg * np.sqrt(-2.0 * np.log1p(-np.minimum(u * f_pi, 1.0))), np.pi)
+            else:
+                psi = _inverse_cdf(u, sg, kind)
+            frac = _fraction(cI[r], sI[r], psi, c[r], lo_side, hi_side)
+            part[r, s] = width[r, s] * _ordered_sum(frac, wt)
     return np.sum(part, axis=-1).reshape(shape)
 
 
@@ -231,18 +235,27 @@ def _ordered_sum(frac, wt):
     return acc
 
 
-def _fraction(cI, sI, psi, c):
-    """:func:`azimuth_fraction` from cos I clipped to [-1, 1] and sin I = sqrt(1 - cos^2 I)."""
+def _fraction(cI, sI, psi, c, lo_side=True, hi_side=True, bounds=False):
+    """:func:`azimuth_fraction` from cos I clipped to [-1, 1] and sin I = sqrt(1 - cos^2 I).
+
+    ``lo_side=False`` (``hi_side=False``): the lower (upper) bound of cos(phi) is known to be clipped
+    to -1 (+1), so it is not computed.  ``bounds=True`` also returns both bounds before clipping.
+    """
     A = cI * np.cos(psi)
     B = sI * np.abs(np.sin(psi))
     tiny = B < 1e-15
     Bs = np.where(tiny, 1.0, B)
-    lo = np.clip((-c - A) / Bs, -1.0, 1.0)
-    hi = np.clip((c - A) / Bs, -1.0, 1.0)
-    frac = np.arccos(lo)
-    frac -= np.arccos(hi)
+    if lo_side:
+        lo = (-c - A) / Bs
+        frac = np.arccos(np.clip(lo, -1.0, 1.0))
+    else:
+        frac = np.full(A.shape, np.pi)
+    if hi_side:
+        hi = (c - A) / Bs
+        frac -= np.arccos(np.clip(hi, -1.0, 1.0))
     frac /= np.pi
-    return np.where(tiny, (np.abs(A) < c).astype(float), frac)
+    frac = np.where(tiny, (np.abs(A) < c).astype(float), frac)
+    return (frac, lo, hi) if bounds else frac
 
 
 def isotropic_transit_probability(aor, ror=0.0, ecc=0.0, omega_rad=np.pi / 2):
