@@ -187,14 +187,11 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
             with np.errstate(all="ignore"):
                 lq = model.log_prob(theta)
         with np.errstate(all="ignore"):
-            lt = model.log_prob(theta, g, g_nt=g)
+            lt, c, terms = model.log_prob(theta, g, g_nt=g, parts=True)
         reject(~np.isfinite(lt), "geometry")
         with np.errstate(invalid="ignore"):
             lw_orient = np.where(np.isfinite(lt), lt - lq, 0.0)
             logw += lw_orient
-        c = model.unpack(theta, g)
-        with np.errstate(all="ignore"):
-            terms = model.sign_terms(c)
         p_plus = 1.0 / (1.0 + np.exp(np.clip(terms[..., 1] - terms[..., 0], -700, 700)))
         sign = np.where(rng.uniform(size=p_plus.shape) < p_plus, 1.0, -1.0)
         cos_i = np.where(model.folded, sign * np.abs(c["u"]), c["u"])

@@ -316,11 +316,12 @@ class OrientationModel:
         return np.stack([log_tilt_density(common + zpart, sig),
                          log_tilt_density(common - zpart, sig)], axis=-1)
 
-    def log_prob(self, theta, g=None, g_nt=None):
+    def log_prob(self, theta, g=None, g_nt=None, parts=False):
         """Log-density of the orientation block (m,), with the geometry factor ``g``.
 
         ``g_nt`` is the factor used in the non-transit condition |cos i| > (1 + Rp/R*) g;
-        inside the sampler it is the lower bound ``self.g_nt``.
+        inside the sampler it is the lower bound ``self.g_nt``.  ``parts=True`` returns
+        ``(log_prob, unpack(theta, g), sign_terms(...))``: the engine reuses them.
         """
         th = np.atleast_2d(theta)
         c = self.unpack(th, g)
@@ -351,4 +352,5 @@ class OrientationModel:
             for j, mu, sd in self.node_like:
                 d = (c["node"][:, j] - mu + np.pi) % (2 * np.pi) - np.pi
                 lp += -0.5 * (d / sd) ** 2
-        return np.where(ok & np.isfinite(lp), lp, _NEG)
+        out = np.where(ok & np.isfinite(lp), lp, _NEG)
+        return (out, c, terms) if parts else out
