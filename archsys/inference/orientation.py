@@ -246,8 +246,7 @@ class OrientationModel:
             log_jac += np.sum(np.log(gb), axis=1)
         if len(V["ji"]):
             if self.b_std:
-                mean, sd = self._gauss_conditional(self._gi_y, self._gi_s, np.ones(len(V["ji"])),
-                                                   c["cosI"][:, None], sig[:, None])
+                mean, sd = self._gauss_conditional(self._gi_y, self._gi_s, None, c["cosI"][:, None], sig[:, None])
                 u[:, V["ji"]] = mean + sd * th[:, V["ci"]]
                 log_jac += np.sum(np.log(sd), axis=1)
             else:
@@ -280,10 +279,16 @@ class OrientationModel:
     @staticmethod
     def _gauss_conditional(y, s, g, cosI, sigma):
         """Mean and width of x given (cos I, sigma) when |cos i| = x g has the Gaussian prior
-        N(cos I, (sigma sin I)^2) and x the Gaussian summary N(y, s^2)."""
-        tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
-        prec = 1.0 / (tau * tau) + 1.0 / (s * s)
-        mean = (cosI / g / (tau * tau) + y / (s * s)) / prec
+        N(cos I, (sigma sin I)^2) and x the Gaussian summary N(y, s^2).  ``g=None``: g = 1 (the
+        divisions by it are left out, which changes no number, and the (cos I, sigma) factors stay
+        one column until they meet the summaries)."""
+        tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0))
+        if g is not None:
+            tau = tau / g
+            cosI = cosI / g
+        tt = tau * tau
+        prec = 1.0 / tt + 1.0 / (s * s)
+        mean = (cosI / tt + y / (s * s)) / prec
         return mean, 1.0 / np.sqrt(prec)
 
     def _beta_conditional(self, jb, cosI, sigma):
@@ -302,9 +307,11 @@ class OrientationModel:
     def ref_normal(self, c):
         return orbit_normals(np.clip(c["cosI"], -1.0, 1.0), c["node_ref"])
 
-    def sign_terms(self, c):
+    def sign_terms(self, c, mirror=True):
         """log prior densities (m, n_planets, 2) of the orbit normal with cos i = +|u| and -|u|
-        (for signed planets the first entry is the density at the signed u)."""
+        (for signed planets the first entry is the density at the signed u).  ``mirror=False``:
+        for signed planets the second entry repeats the first (their mirror image is never used
+        by the engine)."""
         nref = self.ref_normal(c)
         u = c["u"]
         au = np.where(self.folded, np.abs(u), u)
@@ -313,8 +320,16 @@ class OrientationModel:
         common = si * (np.sin(node) * nref[:, 0:1] - np.cos(node) * nref[:, 1:2])
         zpart = au * nref[:, 2:3]
         sig = c["sigma"][:, None]
-        return np.stack([log_tilt_density(common + zpart, sig),
-                         log_tilt_density(common - zpart, sig)], axis=-1)
+        out = np.empty(u.shape + (2,))
+        out[..., 0] = log_tilt_density(common + zpart, sig)
+        if mirror or self.folded.all():
+            out[..., 1] = log_tilt_density(common - zpart, sig)
+        else:      # the mirror image only where the sign of cos i is unobserved
+            out[..., 1] = out[..., 0]
+            f = self.folded
+            if f.any():
+                out[:, f, 1] = log_tilt_density(common[:, f] - zpart[:, f], sig)
+        return out
 
     def log_prob(self, theta, g=None, g_nt=None, parts=False):
         """Log-density of the orientation block (m,), with the geometry factor ``g``.
@@ -336,7 +351,7 @@ class OrientationModel:
             gnt = np.broadcast_to(np.asarray(gnt, float), c["u"].shape)
             ok &= np.all(np.abs(c["u"][:, V["nt"]]) > V["top_nt"] * gnt[:, V["nt"]], axis=1)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            terms = self.sign_terms(c)
+            terms = self.sign_terms(c, mirror=False)
             orient = np.where(self.folded, np.logaddexp(terms[..., 0], terms[..., 1]), terms[..., 0])
             sig_deg = np.degrees(c["sigma"])
             lp = (np.sum(orient, axis=1) + c["log_jac"]
