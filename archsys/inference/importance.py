@@ -176,18 +176,21 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
 
     psi = sigma = ref_inc = None
     if hier:
-        if isinstance(chain, OrientationProposal):
+        proposal = isinstance(chain, OrientationProposal)
+        if proposal:
             theta, lq = chain.sample(rng, m)
-            with np.errstate(all="ignore"):
-                inside = np.isfinite(model.log_prob(theta))
-            # proposals outside the orientation block's support are not rejections by the data
-            reject(~inside, "proposal_support")
         else:
             theta = chain[rng.integers(0, len(chain), m)]
-            with np.errstate(all="ignore"):
-                lq = model.log_prob(theta)
         with np.errstate(all="ignore"):
-            lt, c, terms = model.log_prob(theta, g, g_nt=g, parts=True)
+            # the block's density under the sampler's geometry factor (g0, and the lower bound for the
+            # non-transit condition) and under each draw's own: log_prob(theta) and
+            # log_prob(theta, g, g_nt=g), sharing what does not depend on g
+            lp_model, (lt, c, terms) = model.log_prob_pair(theta, g)
+        if proposal:
+            # proposals outside the orientation block's support are not rejections by the data
+            reject(~np.isfinite(lp_model), "proposal_support")
+        else:
+            lq = lp_model
         reject(~np.isfinite(lt), "geometry")
         with np.errstate(invalid="ignore"):
             lw_orient = np.where(np.isfinite(lt), lt - lq, 0.0)

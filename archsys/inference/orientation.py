@@ -211,10 +211,12 @@ class OrientationModel:
         ``g`` (m, n_planets) or (n_planets,): |cos i| per unit impact parameter
         (default ``g0``).  ``u`` is cos i, folded (>= 0) for 'b' planets.
         """
-        th = np.atleast_2d(theta)
+        return self._with_g(self._unpack_common(np.atleast_2d(theta)), g)
+
+    def _unpack_common(self, th):
+        """What :meth:`unpack` computes independently of ``g``: everything but the 'b' planets'
+        cos i, with the log-Jacobian's terms kept apart (added in the same order by _with_g)."""
         m = th.shape[0]
-        g = self.g0 if g is None else g
-        g = np.broadcast_to(np.asarray(g, float), (m, self.np_))
         ix = self.ix
         c = {"sigma": np.exp(th[:, ix["logsigma"]]), "logsigma": th[:, ix["logsigma"]]}
         if self._ref_info:
@@ -229,26 +231,22 @@ class OrientationModel:
         u = np.empty((m, self.np_))
         node = np.empty((m, self.np_))
         beta = np.full((m, self.np_), np.nan)
-        log_jac = np.zeros(m) + log_jac0
+        before, after = [], []            # log-Jacobian terms before and after the g term
         V = self._vec
         if len(V["jb"]):
             if self.b_std:
                 mean, sd = self._beta_conditional(V["jb"], c["cosI"][:, None], sig[:, None])
                 beta[:, V["jb"]] = mean + sd * th[:, V["cb"]]
-                log_jac += np.sum(np.log(sd), axis=1)
+                before.append(np.sum(np.log(sd), axis=1))
             else:
                 beta[:, V["jb"]] = th[:, V["cb"]]
         if len(V["jbf"]):
             beta[:, V["jbf"]] = V["bf"]
-        if len(V["jall_b"]):
-            gb = g[:, V["jall_b"]]
-            u[:, V["jall_b"]] = beta[:, V["jall_b"]] * gb
-            log_jac += np.sum(np.log(gb), axis=1)
         if len(V["ji"]):
             if self.b_std:
                 mean, sd = self._gauss_conditional(self._gi_y, self._gi_s, None, c["cosI"][:, None], sig[:, None])
                 u[:, V["ji"]] = mean + sd * th[:, V["ci"]]
-                log_jac += np.sum(np.log(sd), axis=1)
+                after.append(np.sum(np.log(sd), axis=1))
             else:
                 u[:, V["ji"]] = th[:, V["ci"]]
         if len(V["jf"]):
@@ -258,14 +256,36 @@ class OrientationModel:
             uz = np.tanh(A + sig[:, None] * th[:, V["cz"]])
             u[:, V["jz"]] = uz
             with np.errstate(divide="ignore"):
-                log_jac += np.sum(np.log(sig[:, None] * np.maximum(1.0 - uz * uz, 0.0)), axis=1)
+                after.append(np.sum(np.log(sig[:, None] * np.maximum(1.0 - uz * uz, 0.0)), axis=1))
         if len(V["jw"]):
             sw = sig[:, None] * th[:, V["cw"]]
             node[:, V["jw"]] = c["node_ref"][:, None] + 2.0 * np.arctan(sw)
-            log_jac += np.sum(np.log(2.0 * sig[:, None] / (1.0 + sw * sw)), axis=1)
+            after.append(np.sum(np.log(2.0 * sig[:, None] / (1.0 + sw * sw)), axis=1))
         if len(V["jnf"]):
             node[:, V["jnf"]] = V["nf"]
-        c.update(u=u, node=node, log_jac=log_jac, beta=beta)
+        c.update(u=u, node=node, beta=beta, _jac=(log_jac0, before, after))
+        return c
+
+    def _with_g(self, base, g):
+        """:meth:`unpack`'s result from :meth:`_unpack_common`'s and ``g``."""
+        m = base["sigma"].shape[0]
+        g = self.g0 if g is None else g
+        g = np.broadcast_to(np.asarray(g, float), (m, self.np_))
+        log_jac0, before, after = base["_jac"]
+        c = {k: v for k, v in base.items() if k != "_jac"}
+        log_jac = np.zeros(m) + log_jac0
+        for term in before:
+            log_jac += term
+        V = self._vec
+        if len(V["jall_b"]):
+            u = base["u"].copy()
+            gb = g[:, V["jall_b"]]
+            u[:, V["jall_b"]] = base["beta"][:, V["jall_b"]] * gb
+            log_jac += np.sum(np.log(gb), axis=1)
+            c["u"] = u
+        for term in after:
+            log_jac += term
+        c["log_jac"] = log_jac
         return c
 
     def _ref_conditional(self, sigma):
@@ -307,19 +327,32 @@ class OrientationModel:
     def ref_normal(self, c):
         return orbit_normals(np.clip(c["cosI"], -1.0, 1.0), c["node_ref"])
 
-    def sign_terms(self, c, mirror=True):
+    def sign_terms(self, c, mirror=True, like=None):
         """log prior densities (m, n_planets, 2) of the orbit normal with cos i = +|u| and -|u|
         (for signed planets the first entry is the density at the signed u).  ``mirror=False``:
         for signed planets the second entry repeats the first (their mirror image is never used
-        by the engine)."""
+        by the engine).  ``like``: the terms of the same parameters under another g (only the
+        'b' planets' cos i differs), whose other columns are taken as they are."""
         nref = self.ref_normal(c)
+        sig = c["sigma"][:, None]
+        if like is not None:
+            f = self.folded
+            out = like.copy()
+            if f.any():
+                au = np.abs(c["u"][:, f])
+                si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
+                node = c["node"][:, f]
+                common = si * (np.sin(node) * nref[:, 0:1] - np.cos(node) * nref[:, 1:2])
+                zpart = au * nref[:, 2:3]
+                out[:, f, 0] = log_tilt_density(common + zpart, sig)
+                out[:, f, 1] = log_tilt_density(common - zpart, sig)
+            return out
         u = c["u"]
         au = np.where(self.folded, np.abs(u), u)
         si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
         node = c["node"]
         common = si * (np.sin(node) * nref[:, 0:1] - np.cos(node) * nref[:, 1:2])
         zpart = au * nref[:, 2:3]
-        sig = c["sigma"][:, None]
         out = np.empty(u.shape + (2,))
         out[..., 0] = log_tilt_density(common + zpart, sig)
         if mirror or self.folded.all():
@@ -338,8 +371,23 @@ class OrientationModel:
         inside the sampler it is the lower bound ``self.g_nt``.  ``parts=True`` returns
         ``(log_prob, unpack(theta, g), sign_terms(...))``: the engine reuses them.
         """
-        th = np.atleast_2d(theta)
-        c = self.unpack(th, g)
+        c = self.unpack(theta, g)
+        out, terms = self._log_prob_of(c, g_nt)
+        return (out, c, terms) if parts else out
+
+    def log_prob_pair(self, theta, g):
+        """``log_prob(theta)`` and ``log_prob(theta, g, g_nt=g, parts=True)`` together: the same
+        numbers, with what does not depend on g (all but the 'b' planets' cos i) computed once."""
+        base = self._unpack_common(np.atleast_2d(theta))
+        c0, c1 = self._with_g(base, None), self._with_g(base, g)
+        out0, t0 = self._log_prob_of(c0, None)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            t1 = self.sign_terms(c1, like=t0)
+        out1, _ = self._log_prob_of(c1, g, t1)
+        return out0, (out1, c1, t1)
+
+    def _log_prob_of(self, c, g_nt, terms=None):
+        """(log_prob, sign terms) from unpacked parameters ``c`` (terms computed unless given)."""
         ok = (c["cosI"] >= self.cosI_lo) & (c["cosI"] <= 1.0)
         V = self._vec
         if len(V["jb"]):
@@ -351,7 +399,8 @@ class OrientationModel:
             gnt = np.broadcast_to(np.asarray(gnt, float), c["u"].shape)
             ok &= np.all(np.abs(c["u"][:, V["nt"]]) > V["top_nt"] * gnt[:, V["nt"]], axis=1)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            terms = self.sign_terms(c, mirror=False)
+            if terms is None:
+                terms = self.sign_terms(c, mirror=False)
             orient = np.where(self.folded, np.logaddexp(terms[..., 0], terms[..., 1]), terms[..., 0])
             sig_deg = np.degrees(c["sigma"])
             lp = (np.sum(orient, axis=1) + c["log_jac"]
@@ -367,5 +416,4 @@ class OrientationModel:
             for j, mu, sd in self.node_like:
                 d = (c["node"][:, j] - mu + np.pi) % (2 * np.pi) - np.pi
                 lp += -0.5 * (d / sd) ** 2
-        out = np.where(ok & np.isfinite(lp), lp, _NEG)
-        return (out, c, terms) if parts else out
+        return np.where(ok & np.isfinite(lp), lp, _NEG), terms
