@@ -45,25 +45,30 @@ def _t_logpdf(x, scale):
 
 def _gpd_nll(theta, x):
     """The objective ``scipy.stats.genpareto.fit(x, floc=0)`` minimises (its penalised negative
-    log-likelihood at shape ``theta[0]`` and scale ``theta[1]``), the same operations in the same order."""
+    log-likelihood at shape ``theta[0]`` and scale ``theta[1]``), the same operations in the same order
+    for finite data x >= 0 (pareto_khat's exceedances), so the same numbers: x / scale is then never
+    NaN and never below 0, and every point is inside the support when the shape is >= 0."""
     c, scale = theta[0], theta[1]
     if not np.isfinite(c) or scale <= 0:
         return np.inf
     x = x / scale
     n_log_scale = len(x) * np.log(scale)
-    b = -1.0 / c if c < 0 else np.inf
-    inside = (0.0 <= x) & (x <= b)
-    n_bad = x.size - np.count_nonzero(inside)
-    if n_bad > 0:
-        x = x[inside]
+    n_bad = 0
+    if c < 0:
+        inside = x <= -1.0 / c
+        n_bad = x.size - np.count_nonzero(inside)
+        if n_bad > 0:
+            x = x[inside]
     if c != 0:
         lp = -special.xlog1py(c + 1., c * x) / c
-        lp = np.where(x == x, lp, -x)
     else:
         lp = -x
     finite = np.isfinite(lp)
-    n_bad += finite.size - np.count_nonzero(finite)
-    return -np.sum(lp[finite]) + n_bad * _LOGXMAX * 100 + n_log_scale
+    n_inf = finite.size - np.count_nonzero(finite)
+    if n_inf:
+        n_bad += n_inf
+        lp = lp[finite]
+    return -np.sum(lp) + n_bad * _LOGXMAX * 100 + n_log_scale
 
 
 _LOGXMAX = np.log(np.finfo(float).max)
