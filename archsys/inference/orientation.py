@@ -46,7 +46,7 @@ import math
 
 import numpy as np
 
-from .tilts import classify, log_tilt_density, orbit_normals
+from .tilts import classify, log_tilt_density_raw, orbit_normals
 
 __all__ = ["OrientationModel"]
 
@@ -160,6 +160,15 @@ class OrientationModel:
                             if transits and p.transiting is False and "b" not in p.quantities
                             and np.isfinite(self.g_nt[j])]
         self._vectorise()
+        self._g0_cache = {}
+        self._i_gauss = []
+        for j, meas in self.i_like:
+            gp = meas.gauss_params()
+            if gp is not None:
+                cen, sm, sp = gp
+                asym = math.isfinite(sm) and math.isfinite(sp) and sm != sp
+                gp = (cen, sm, sp, math.log(sm) if asym else None, math.log(sp) if asym else None)
+            self._i_gauss.append((j, gp))
 
     def _vectorise(self):
         """Index arrays so that unpack and log_prob never loop over planets."""
@@ -192,6 +201,8 @@ class OrientationModel:
         self._gb_y = np.array([self._b_gauss[j][0] for j in jb])
         self._gb_s = np.array([self._b_gauss[j][1] for j in jb])
         self._g0_b = self.g0[jb] if jb else np.zeros(0)
+        self._gb_inv_s2 = 1.0 / (self._gb_s * self._gb_s)
+        self._gb_y_s2 = self._gb_y / (self._gb_s * self._gb_s)
         # vectorised split-normal likelihood of the impact parameters
         rows = [(np.searchsorted(jb, j), meas.gauss_params()) for j, meas in self.b_like]
         rows = [(k, gp) for k, gp in rows if gp is not None]
@@ -269,8 +280,6 @@ class OrientationModel:
     def _with_g(self, base, g):
         """:meth:`unpack`'s result from :meth:`_unpack_common`'s and ``g``."""
         m = base["sigma"].shape[0]
-        g = self.g0 if g is None else g
-        g = np.broadcast_to(np.asarray(g, float), (m, self.np_))
         log_jac0, before, after = base["_jac"]
         c = {k: v for k, v in base.items() if k != "_jac"}
         log_jac = np.zeros(m) + log_jac0
@@ -279,14 +288,30 @@ class OrientationModel:
         V = self._vec
         if len(V["jall_b"]):
             u = base["u"].copy()
-            gb = g[:, V["jall_b"]]
+            gb, log_gb = self._g_columns(g, m)
             u[:, V["jall_b"]] = base["beta"][:, V["jall_b"]] * gb
-            log_jac += np.sum(np.log(gb), axis=1)
+            log_jac += log_gb
             c["u"] = u
         for term in after:
             log_jac += term
         c["log_jac"] = log_jac
         return c
+
+    def _g_columns(self, g, m):
+        """The 'b' planets' g (m, n_b) and the sum of their logs (m,); for g0 kept per m (the
+        emcee walkers call with the same m at every step)."""
+        if g is None:
+            hit = self._g0_cache.get(m)
+            if hit is not None:
+                return hit
+        gg = np.broadcast_to(np.asarray(self.g0 if g is None else g, float), (m, self.np_))
+        gb = gg[:, self._vec["jall_b"]]
+        out = (gb, np.add.reduce(np.log(gb), axis=1))
+        if g is None:
+            if len(self._g0_cache) > 16:
+                self._g0_cache.clear()
+            self._g0_cache[m] = out
+        return out
 
     def _ref_conditional(self, sigma):
         """Mean and width of cos I given sigma in a Gaussian approximation: each planet with
@@ -317,11 +342,16 @@ class OrientationModel:
 
         The sampled coordinate is beta standardised by them: this removes the funnel between
         sigma and the impact parameters (the exact density is still evaluated in beta)."""
-        k = np.searchsorted(self._vec["jb"], jb)
-        g, y, s = self._g0_b[k], self._gb_y[k], self._gb_s[k]
+        if jb is self._vec["jb"]:          # every 'b' planet: the constants kept by _vectorise
+            g, inv_s2, y_s2 = self._g0_b, self._gb_inv_s2, self._gb_y_s2
+        else:
+            k = np.searchsorted(self._vec["jb"], jb)
+            g, y, s = self._g0_b[k], self._gb_y[k], self._gb_s[k]
+            inv_s2, y_s2 = 1.0 / (s * s), y / (s * s)
         tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
-        prec = 1.0 / (tau * tau) + 1.0 / (s * s)
-        mean = (cosI / g / (tau * tau) + y / (s * s)) / prec
+        tt = tau * tau
+        prec = 1.0 / tt + inv_s2
+        mean = (cosI / g / tt + y_s2) / prec
         return mean, 1.0 / np.sqrt(prec)
 
     def ref_normal(self, c):
@@ -332,36 +362,53 @@ class OrientationModel:
         (for signed planets the first entry is the density at the signed u).  ``mirror=False``:
         for signed planets the second entry repeats the first (their mirror image is never used
         by the engine).  ``like``: the terms of the same parameters under another g (only the
-        'b' planets' cos i differs), whose other columns are taken as they are."""
-        nref = self.ref_normal(c)
+        'b' planets' cos i differs), whose other columns are taken as they are.
+
+        The components of the reference normal are those of :meth:`ref_normal`, and every tilt
+        density is evaluated in one call (elementwise, so the same numbers)."""
+        cI = np.clip(c["cosI"], -1.0, 1.0)
+        sin_I = np.sqrt(np.clip(1.0 - cI * cI, 0.0, 1.0))
+        node_ref = c["node_ref"]
+        n0 = (sin_I * np.sin(node_ref))[:, None]
+        n1 = (-sin_I * np.cos(node_ref))[:, None]
+        n2 = cI[:, None]
         sig = c["sigma"][:, None]
-        if like is not None:
-            f = self.folded
-            out = like.copy()
-            if f.any():
-                au = np.abs(c["u"][:, f])
-                si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
-                node = c["node"][:, f]
-                common = si * (np.sin(node) * nref[:, 0:1] - np.cos(node) * nref[:, 1:2])
-                zpart = au * nref[:, 2:3]
-                out[:, f, 0] = log_tilt_density(common + zpart, sig)
-                out[:, f, 1] = log_tilt_density(common - zpart, sig)
-            return out
-        u = c["u"]
-        au = np.where(self.folded, np.abs(u), u)
-        si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
-        node = c["node"]
-        common = si * (np.sin(node) * nref[:, 0:1] - np.cos(node) * nref[:, 1:2])
-        zpart = au * nref[:, 2:3]
-        out = np.empty(u.shape + (2,))
-        out[..., 0] = log_tilt_density(common + zpart, sig)
-        if mirror or self.folded.all():
-            out[..., 1] = log_tilt_density(common - zpart, sig)
-        else:      # the mirror image only where the sign of cos i is unobserved
-            out[..., 1] = out[..., 0]
-            f = self.folded
-            if f.any():
-                out[:, f, 1] = log_tilt_density(common[:, f] - zpart[:, f], sig)
+        f = self.folded
+        with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+            if like is not None:
+                out = like.copy()
+                if f.any():
+                    au = np.abs(c["u"][:, f])
+                    si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
+                    node = c["node"][:, f]
+                    common = si * (np.sin(node) * n0 - np.cos(node) * n1)
+                    zpart = au * n2
+                    k = common.shape[1]
+                    both = log_tilt_density_raw(np.concatenate([common + zpart, common - zpart], axis=1), sig)
+                    out[:, f, 0] = both[:, :k]
+                    out[:, f, 1] = both[:, k:]
+                return out
+            u = c["u"]
+            au = np.where(f, np.abs(u), u)
+            si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
+            node = c["node"]
+            common = si * (np.sin(node) * n0 - np.cos(node) * n1)
+            zpart = au * n2
+            npl = u.shape[1]
+            out = np.empty(u.shape + (2,))
+            if mirror or f.all():
+                both = log_tilt_density_raw(np.concatenate([common + zpart, common - zpart], axis=1), sig)
+                out[..., 0] = both[:, :npl]
+                out[..., 1] = both[:, npl:]
+            elif f.any():      # the mirror image only where the sign of cos i is unobserved
+                both = log_tilt_density_raw(np.concatenate([common + zpart, common[:, f] - zpart[:, f]], axis=1),
+                                            sig)
+                out[..., 0] = both[:, :npl]
+                out[..., 1] = out[..., 0]
+                out[:, f, 1] = both[:, npl:]
+            else:
+                out[..., 0] = log_tilt_density_raw(common + zpart, sig)
+                out[..., 1] = out[..., 0]
         return out
 
     def log_prob(self, theta, g=None, g_nt=None, parts=False):
@@ -392,8 +439,8 @@ class OrientationModel:
         V = self._vec
         if len(V["jb"]):
             bj = c["beta"][:, V["jb"]]
-            ok &= np.all((bj >= 0.0) & (bj <= V["top_b"]), axis=1)
-        ok &= np.all(np.abs(c["u"]) <= 1.0, axis=1)
+            ok &= np.logical_and.reduce((bj >= 0.0) & (bj <= V["top_b"]), axis=1)
+        ok &= np.logical_and.reduce(np.abs(c["u"]) <= 1.0, axis=1)
         if len(V["nt"]):
             gnt = self.g_nt if g_nt is None else g_nt
             gnt = np.broadcast_to(np.asarray(gnt, float), c["u"].shape)
@@ -403,7 +450,7 @@ class OrientationModel:
                 terms = self.sign_terms(c, mirror=False)
             orient = np.where(self.folded, np.logaddexp(terms[..., 0], terms[..., 1]), terms[..., 0])
             sig_deg = np.degrees(c["sigma"])
-            lp = (np.sum(orient, axis=1) + c["log_jac"]
+            lp = (np.add.reduce(orient, axis=1) + c["log_jac"]
                   + self.sigma_prior.logpdf(np.where(ok, sig_deg, 1.0)) + c["logsigma"])
             if self._bl is not None:
                 k, cen, inv_m, inv_p, lw_m, lw_p = self._bl
@@ -411,8 +458,17 @@ class OrientationModel:
                 neg = d < 0
                 r = d * np.where(neg, inv_m, inv_p)
                 lp += np.sum(-0.5 * r * r - np.where(neg, lw_m, lw_p), axis=1)
-            for j, meas in self.i_like:
-                lp += meas.log_likelihood(np.degrees(np.arccos(np.clip(c["u"][:, j], -1.0, 1.0))))
+            for j, gp in self._i_gauss:
+                # Measurement.log_likelihood of the inclination summary, its operations inlined
+                x = np.degrees(np.arccos(np.clip(c["u"][:, j], -1.0, 1.0)))
+                if gp is None:
+                    lp += np.zeros_like(x)
+                    continue
+                cen, sm, sp, log_sm, log_sp = gp
+                d = x - cen
+                neg = d < 0
+                r = np.where(neg, d / sm, d / sp)
+                lp += -0.5 * r * r - np.where(neg, log_sm, log_sp) if log_sm is not None else -0.5 * r * r
             for j, mu, sd in self.node_like:
                 d = (c["node"][:, j] - mu + np.pi) % (2 * np.pi) - np.pi
                 lp += -0.5 * (d / sd) ** 2

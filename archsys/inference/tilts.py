@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["orbit_normals", "log_tilt_density", "classify", "prior_orientations"]
+__all__ = ["orbit_normals", "log_tilt_density", "log_tilt_density_raw", "classify", "prior_orientations"]
 
 
 def orbit_normals(cos_i, node):
@@ -21,12 +21,17 @@ def orbit_normals(cos_i, node):
 
 def log_tilt_density(cos_psi, sigma):
     """log [Rayleigh(psi; sigma) / (2 pi sin psi)] per unit solid angle, truncated at psi = pi."""
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        return log_tilt_density_raw(cos_psi, sigma)
+
+
+def log_tilt_density_raw(cos_psi, sigma):
+    """:func:`log_tilt_density` without its floating-point error settings (callers inside their own)."""
     psi = np.arccos(np.clip(cos_psi, -1.0, 1.0))
     s2 = sigma * sigma
-    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
-        ratio = np.where(psi > 1e-6, psi / np.maximum(np.sin(psi), 1e-300), 1.0)
-        log_norm = np.log1p(-np.exp(-np.pi ** 2 / (2.0 * s2)))
-        return np.log(ratio) - np.log(2.0 * np.pi * s2) - 0.5 * psi * psi / s2 - log_norm
+    ratio = np.where(psi > 1e-6, psi / np.maximum(np.sin(psi), 1e-300), 1.0)
+    log_norm = np.log1p(-np.exp(-np.pi ** 2 / (2.0 * s2)))
+    return np.log(ratio) - np.log(2.0 * np.pi * s2) - 0.5 * psi * psi / s2 - log_norm
 
 
 def classify(system, has_scale):
