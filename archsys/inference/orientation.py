@@ -53,6 +53,11 @@ __all__ = ["OrientationModel"]
 _NEG = -np.inf
 
 
+def _clip(x, lo, hi):
+    """np.clip(x, lo, hi) for lo <= hi (the same numbers, NaN kept) without its call overhead."""
+    return np.minimum(np.maximum(x, lo), hi)
+
+
 class OrientationModel:
     """Log-density of the orientation block, vectorised over walkers (or draws).
 
@@ -81,6 +86,7 @@ class OrientationModel:
             if k == "b" and not np.isfinite(self.g0[j]):
                 self.kinds[j] = "free"
         self.folded = np.array([k == "b" for k in self.kinds])
+        self._fold_any, self._fold_all = bool(self.folded.any()), bool(self.folded.all())
         self.names, self.ix = [], {}
 
         def add(name):
@@ -248,7 +254,7 @@ class OrientationModel:
             if self.b_std:
                 mean, sd = self._beta_conditional(V["jb"], c["cosI"][:, None], sig[:, None])
                 beta[:, V["jb"]] = mean + sd * th[:, V["cb"]]
-                before.append(np.sum(np.log(sd), axis=1))
+                before.append(np.add.reduce(np.log(sd), axis=1))
             else:
                 beta[:, V["jb"]] = th[:, V["cb"]]
         if len(V["jbf"]):
@@ -257,21 +263,21 @@ class OrientationModel:
             if self.b_std:
                 mean, sd = self._gauss_conditional(self._gi_y, self._gi_s, None, c["cosI"][:, None], sig[:, None])
                 u[:, V["ji"]] = mean + sd * th[:, V["ci"]]
-                after.append(np.sum(np.log(sd), axis=1))
+                after.append(np.add.reduce(np.log(sd), axis=1))
             else:
                 u[:, V["ji"]] = th[:, V["ci"]]
         if len(V["jf"]):
             u[:, V["jf"]] = V["cf"]
         if len(V["jz"]):
-            A = np.arctanh(np.clip(c["cosI"], -1.0 + 1e-12, 1.0 - 1e-12))[:, None]
+            A = np.arctanh(_clip(c["cosI"], -1.0 + 1e-12, 1.0 - 1e-12))[:, None]
             uz = np.tanh(A + sig[:, None] * th[:, V["cz"]])
             u[:, V["jz"]] = uz
             with np.errstate(divide="ignore"):
-                after.append(np.sum(np.log(sig[:, None] * np.maximum(1.0 - uz * uz, 0.0)), axis=1))
+                after.append(np.add.reduce(np.log(sig[:, None] * np.maximum(1.0 - uz * uz, 0.0)), axis=1))
         if len(V["jw"]):
             sw = sig[:, None] * th[:, V["cw"]]
             node[:, V["jw"]] = c["node_ref"][:, None] + 2.0 * np.arctan(sw)
-            after.append(np.sum(np.log(2.0 * sig[:, None] / (1.0 + sw * sw)), axis=1))
+            after.append(np.add.reduce(np.log(2.0 * sig[:, None] / (1.0 + sw * sw)), axis=1))
         if len(V["jnf"]):
             node[:, V["jnf"]] = V["nf"]
         c.update(u=u, node=node, beta=beta, _jac=(log_jac0, before, after))
@@ -318,8 +324,8 @@ class OrientationModel:
         orientation data has |cos i| ~ N(cos I, sigma^2 + s_j^2).  The sampled coordinate is cos I
         standardised by them (this removes the funnel between sigma and the reference plane)."""
         w = 1.0 / (sigma[:, None] ** 2 + self._ref_s2[None, :] + 1e-300)
-        prec = w.sum(axis=1)
-        return (w * self._ref_y[None, :]).sum(axis=1) / prec, 1.0 / np.sqrt(prec)
+        prec = np.add.reduce(w, axis=1)
+        return np.add.reduce(w * self._ref_y[None, :], axis=1) / prec, 1.0 / np.sqrt(prec)
 
     @staticmethod
     def _gauss_conditional(y, s, g, cosI, sigma):
@@ -327,7 +333,7 @@ class OrientationModel:
         N(cos I, (sigma sin I)^2) and x the Gaussian summary N(y, s^2).  ``g=None``: g = 1 (the
         divisions by it are left out, which changes no number, and the (cos I, sigma) factors stay
         one column until they meet the summaries)."""
-        tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0))
+        tau = sigma * np.sqrt(_clip(1.0 - cosI * cosI, 1e-12, 1.0))
         if g is not None:
             tau = tau / g
             cosI = cosI / g
@@ -348,14 +354,14 @@ class OrientationModel:
             k = np.searchsorted(self._vec["jb"], jb)
             g, y, s = self._g0_b[k], self._gb_y[k], self._gb_s[k]
             inv_s2, y_s2 = 1.0 / (s * s), y / (s * s)
-        tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
+        tau = sigma * np.sqrt(_clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
         tt = tau * tau
         prec = 1.0 / tt + inv_s2
         mean = (cosI / g / tt + y_s2) / prec
         return mean, 1.0 / np.sqrt(prec)
 
     def ref_normal(self, c):
-        return orbit_normals(np.clip(c["cosI"], -1.0, 1.0), c["node_ref"])
+        return orbit_normals(_clip(c["cosI"], -1.0, 1.0), c["node_ref"])
 
     def sign_terms(self, c, mirror=True, like=None):
         """log prior densities (m, n_planets, 2) of the orbit normal with cos i = +|u| and -|u|
@@ -366,8 +372,8 @@ class OrientationModel:
 
         The components of the reference normal are those of :meth:`ref_normal`, and every tilt
         density is evaluated in one call (elementwise, so the same numbers)."""
-        cI = np.clip(c["cosI"], -1.0, 1.0)
-        sin_I = np.sqrt(np.clip(1.0 - cI * cI, 0.0, 1.0))
+        cI = _clip(c["cosI"], -1.0, 1.0)
+        sin_I = np.sqrt(_clip(1.0 - cI * cI, 0.0, 1.0))
         node_ref = c["node_ref"]
         n0 = (sin_I * np.sin(node_ref))[:, None]
         n1 = (-sin_I * np.cos(node_ref))[:, None]
@@ -377,9 +383,9 @@ class OrientationModel:
         with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
             if like is not None:
                 out = like.copy()
-                if f.any():
+                if self._fold_any:
                     au = np.abs(c["u"][:, f])
-                    si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
+                    si = np.sqrt(_clip(1.0 - au * au, 0.0, 1.0))
                     node = c["node"][:, f]
                     common = si * (np.sin(node) * n0 - np.cos(node) * n1)
                     zpart = au * n2
@@ -390,17 +396,17 @@ class OrientationModel:
                 return out
             u = c["u"]
             au = np.where(f, np.abs(u), u)
-            si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
+            si = np.sqrt(_clip(1.0 - au * au, 0.0, 1.0))
             node = c["node"]
             common = si * (np.sin(node) * n0 - np.cos(node) * n1)
             zpart = au * n2
             npl = u.shape[1]
             out = np.empty(u.shape + (2,))
-            if mirror or f.all():
+            if mirror or self._fold_all:
                 both = log_tilt_density_raw(np.concatenate([common + zpart, common - zpart], axis=1), sig)
                 out[..., 0] = both[:, :npl]
                 out[..., 1] = both[:, npl:]
-            elif f.any():      # the mirror image only where the sign of cos i is unobserved
+            elif self._fold_any:      # the mirror image only where the sign of cos i is unobserved
                 both = log_tilt_density_raw(np.concatenate([common + zpart, common[:, f] - zpart[:, f]], axis=1),
                                             sig)
                 out[..., 0] = both[:, :npl]
@@ -444,7 +450,7 @@ class OrientationModel:
         if len(V["nt"]):
             gnt = self.g_nt if g_nt is None else g_nt
             gnt = np.broadcast_to(np.asarray(gnt, float), c["u"].shape)
-            ok &= np.all(np.abs(c["u"][:, V["nt"]]) > V["top_nt"] * gnt[:, V["nt"]], axis=1)
+            ok &= np.logical_and.reduce(np.abs(c["u"][:, V["nt"]]) > V["top_nt"] * gnt[:, V["nt"]], axis=1)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             if terms is None:
                 terms = self.sign_terms(c, mirror=False)
@@ -457,10 +463,10 @@ class OrientationModel:
                 d = c["beta"][:, V["jb"][k]] - cen
                 neg = d < 0
                 r = d * np.where(neg, inv_m, inv_p)
-                lp += np.sum(-0.5 * r * r - np.where(neg, lw_m, lw_p), axis=1)
+                lp += np.add.reduce(-0.5 * r * r - np.where(neg, lw_m, lw_p), axis=1)
             for j, gp in self._i_gauss:
                 # Measurement.log_likelihood of the inclination summary, its operations inlined
-                x = np.degrees(np.arccos(np.clip(c["u"][:, j], -1.0, 1.0)))
+                x = np.degrees(np.arccos(_clip(c["u"][:, j], -1.0, 1.0)))
                 if gp is None:
                     lp += np.zeros_like(x)
                     continue
