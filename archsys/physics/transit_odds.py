@@ -165,7 +165,12 @@ def conditional_transit_probability(aor, ref_inc, sigma, ror=0.0, ecc=0.0, omega
     -----
     The tilt integral is taken in the CDF variable :math:`u = F(\psi)` (so the
     weight is uniform however small :math:`\sigma` is), split at the kinks of
-    :func:`tilt_kinks`, with Gauss-Legendre nodes on each piece.
+    :func:`tilt_kinks`, with Gauss-Legendre nodes on each piece.  Only pieces on
+    which the azimuth fraction varies are evaluated node by node: pieces of zero
+    width add nothing and those where it is exactly 0 or 1 add 0 or their width
+    (the same quadrature as evaluating every node, to rounding:
+    tests/test_transit_odds.py).  Each element's value depends on its own inputs
+    only (batch invariance).
 
     Limits (tested): :math:`\sigma \to 0` gives the indicator
     :math:`|b_{ref}| < 1 + R_p/R_\star` with :math:`b_{ref}` the impact
