@@ -219,11 +219,10 @@ def conditional_transit_probability(aor, ref_inc, sigma, ror=0.0, ecc=0.0, omega
             sg = sig[r]
             if kind == "rayleigh":
                 with np.errstate(over="ignore", under="ignore", divide="ignore"):
-                    f_pi = -np.expm1(-np.pi ** 2 / (2.0 * sg * sg))
-                    psi = np.minimum(sg * np.sqrt(-2.0 * np.log1p(-np.minimum(u * f_pi, 1.0))), np.pi)
+                    psi = _rayleigh_tilt(u, sg)
             else:
                 psi = _inverse_cdf(u, sg, kind)
-            frac = _fraction(cI[r], sI[r], psi, c[r], lo_side, hi_side)
+            frac = _node_fraction(cI[r], sI[r], psi, c[r], lo_side, hi_side)
             part[r, s] = width[r, s] * _ordered_sum(frac, wt)
     return np.sum(part, axis=-1).reshape(shape)
 
@@ -238,6 +237,47 @@ def _ordered_sum(frac, wt):
     for k in range(1, len(wt)):
         acc += frac[k] * wt[k]
     return acc
+
+
+def _rayleigh_tilt(u, sigma):
+    """:func:`_inverse_cdf` (Rayleigh) of the nodes ``u`` (n_gauss, k) for ``sigma`` (k,), in place
+    where it can be (the same operations, so the same numbers); ``u`` is overwritten."""
+    f_pi = -np.expm1(-np.pi ** 2 / (2.0 * sigma * sigma))
+    t = np.multiply(u, f_pi, out=u)
+    np.minimum(t, 1.0, out=t)
+    np.negative(t, out=t)
+    np.log1p(t, out=t)
+    t *= -2.0
+    np.sqrt(t, out=t)
+    t *= sigma
+    return np.minimum(t, np.pi, out=t)
+
+
+def _node_fraction(cI, sI, psi, c, lo_side, hi_side):
+    """:func:`_fraction` at the nodes ``psi`` (n_gauss, k), with fewer temporaries (the same
+    operations, so the same numbers); ``psi`` is overwritten."""
+    A = np.cos(psi)
+    A *= cI
+    B = np.sin(psi, out=psi)
+    np.abs(B, out=B)
+    B *= sI
+    tiny = B < 1e-15
+    some_tiny = bool(tiny.any())
+    Bs = np.where(tiny, 1.0, B) if some_tiny else B
+    if lo_side:
+        frac = np.subtract(-c, A)
+        frac /= Bs
+        np.clip(frac, -1.0, 1.0, out=frac)
+        np.arccos(frac, out=frac)
+    else:
+        frac = np.full(A.shape, np.pi)
+    if hi_side:
+        hi = np.subtract(c, A)
+        hi /= Bs
+        np.clip(hi, -1.0, 1.0, out=hi)
+        frac -= np.arccos(hi, out=hi)
+    frac /= np.pi
+    return np.where(tiny, (np.abs(A) < c).astype(float), frac) if some_tiny else frac
 
 
 def _fraction(cI, sI, psi, c, lo_side=True, hi_side=True, bounds=False):
