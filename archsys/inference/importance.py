@@ -260,14 +260,16 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
     if opts.analytic_stability_prior and npl >= 2:
         live = np.isfinite(logw)
         if live.any():
-            st, _ = stable_draws({k: v[live] for k, v in draws.items()})
+            keep = np.flatnonzero(live)
+            st, _ = stable_draws({k: v.take(keep, axis=0) for k, v in draws.items()})
             mask = np.zeros(m, dtype=bool)
             mask[np.flatnonzero(live)[~st]] = True
             reject(mask, "stability")
     reject(~np.isfinite(logw), "weights")
     bad = {k: v for k, v in bad.items() if np.any(v)}
     live = np.isfinite(logw)        # keep only draws that can be resampled (memory stays small)
-    draws = {k: v[live] for k, v in draws.items()}
-    lo = lw_orient[live] if np.ndim(lw_orient) else np.zeros(int(live.sum()))
-    blocks = {"orientation": lo, "rest": logw[live] - lo}
-    return {"draws": draws, "logw": logw[live], "notes": notes, "blocks": blocks}, bad
+    keep = np.flatnonzero(live)         # take: the rows of a boolean mask, several times faster on 2-D arrays
+    draws = {k: v.take(keep, axis=0) for k, v in draws.items()}
+    lo = lw_orient.take(keep) if np.ndim(lw_orient) else np.zeros(keep.size)
+    blocks = {"orientation": lo, "rest": logw.take(keep) - lo}
+    return {"draws": draws, "logw": logw.take(keep), "notes": notes, "blocks": blocks}, bad

@@ -180,8 +180,7 @@ class OrientationProposal:
             th[:, m.ix["node_ref"]] = rng.uniform(-np.pi, np.pi, n)
             logq -= np.log(2 * np.pi)
         # cos I in physical units is needed for the prior widths of the remaining coordinates
-        c = m.unpack(th)
-        sw, sz = self._prior_scales(c["cosI"])
+        sw, sz = self._prior_scales(m.cos_ref(th))
         for col in self.w_cols:
             th[:, col] = sw * rng.standard_t(NU, n)
             logq += _t_logpdf(th[:, col], sw)
@@ -202,8 +201,7 @@ class OrientationProposal:
             logq += _t_logpdf(th[:, col], 1.0)
         if not m._ref_info:
             logq -= np.log(1.0 - m.cosI_lo)
-        c = m.unpack(th)
-        sw, sz = self._prior_scales(c["cosI"])
+        sw, sz = self._prior_scales(m.cos_ref(th))
         for col in self.w_cols:
             logq += _t_logpdf(th[:, col], sw)
         for col in self.z_cols:

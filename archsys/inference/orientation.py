@@ -230,6 +230,14 @@ class OrientationModel:
         """
         return self._with_g(self._unpack_common(np.atleast_2d(theta)), g)
 
+    def cos_ref(self, theta):
+        """cos I of parameter rows: :meth:`unpack`'s ``cosI`` alone (the same operations)."""
+        th = np.atleast_2d(theta)
+        if self._ref_info:
+            mean, sd = self._ref_conditional(np.exp(th[:, self.ix["logsigma"]]))
+            return mean + sd * th[:, self.ix["cosI"]]
+        return th[:, self.ix["cosI"]]
+
     def _unpack_common(self, th):
         """What :meth:`unpack` computes independently of ``g``: everything but the 'b' planets'
         cos i, with the log-Jacobian's terms kept apart (added in the same order by _with_g)."""
