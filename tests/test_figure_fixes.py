@@ -137,3 +137,17 @@ def test_survey_preset_option(tmp_path):
     from archsys.cli_parser import build_parser
     args = build_parser().parse_args(["survey", "x.csv", "--out", str(tmp_path), "--preset", "two-column"])
     assert args.preset == "two-column"
+
+
+def test_multiplicity_panel_of_a_one_multiplicity_survey_draws_without_warnings():
+    """Every system with three planets (fraction 1 +- 0): the log axis still spans a decade, no warning."""
+    import warnings
+    import matplotlib.pyplot as plt
+    from archsys.output.figures.survey import plot_multiplicity
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        fig = plot_multiplicity({"n_systems": 50, "fractions": {"3": {"value": 1.0, "lo": 1.0, "hi": 1.0}}})
+        lo, hi = fig.axes[0].get_ylim()
+        fig.canvas.draw()
+    plt.close(fig)
+    assert lo == 0.1 and hi == 1.0

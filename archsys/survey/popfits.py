@@ -75,36 +75,35 @@ class FitRunner:
 
     Background processes are spawned (like the survey's workers), limited to
     one BLAS thread each and exit with the survey process
-    (:func:`archsys.survey.workers.watch_parent`).
+    (:func:`archsys.survey.workers.worker_start`).  The executor starts its
+    processes as tasks are submitted, so the thread variables are set around
+    each submission, not only around the executor's creation.
     """
 
     def __init__(self, processes=0):
         self.processes = int(processes)
         self._ex = None
 
-    def _executor(self):
-        if self._ex is None:
-            import multiprocessing
-            from concurrent.futures import ProcessPoolExecutor
-            from .workers import _THREAD_VARS, watch_parent
-            saved = {k: os.environ.get(k) for k in _THREAD_VARS}
-            os.environ.update({k: "1" for k in _THREAD_VARS})
-            try:
-                self._ex = ProcessPoolExecutor(max_workers=self.processes,
-                                               mp_context=multiprocessing.get_context("spawn"),
-                                               initializer=watch_parent, initargs=(os.getpid(),))
-            finally:
-                for k, v in saved.items():
-                    if v is None:
-                        os.environ.pop(k, None)
-                    else:
-                        os.environ[k] = v
-        return self._ex
-
     def submit(self, fn, *args):
         if self.processes <= 0:
             return _Done(fn, args)
-        return self._executor().submit(fn, *args)
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+        from .workers import _THREAD_VARS, worker_start
+        saved = {k: os.environ.get(k) for k in _THREAD_VARS}
+        os.environ.update({k: "1" for k in _THREAD_VARS})      # inherited by a process this submit starts
+        try:
+            if self._ex is None:
+                self._ex = ProcessPoolExecutor(max_workers=self.processes,
+                                               mp_context=multiprocessing.get_context("spawn"),
+                                               initializer=worker_start, initargs=(os.getpid(),))
+            return self._ex.submit(fn, *args)
+        finally:
+            for k, v in saved.items():
+                if v is None:
+                    os.environ.pop(k, None)
+                else:
+                    os.environ[k] = v
 
     def close(self, cancel=False):
         if self._ex is not None:

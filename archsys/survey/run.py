@@ -103,6 +103,13 @@ def run_survey(catalog, out, options: AnalysisOptions | None = None, survey: Sur
         --where, a store made from other inputs, a locked folder); bad rows
         become rejects.
     """
+    from .workers import one_blas_thread
+    with one_blas_thread():       # this process's share of the cores: one BLAS thread (restored on return)
+        return _run_survey(catalog, out, options, survey, debug=debug, stream=stream, transit=transit,
+                           **keywords)
+
+
+def _run_survey(catalog, out, options, survey, *, debug, stream, transit, **keywords):
     opts, sv = split_keywords(options, survey, **keywords)
     from ..limits import check_output_path
     check_output_path(out, "--out")                   # not empty, no over-long names (issue 22)

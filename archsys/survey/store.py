@@ -288,6 +288,11 @@ def _is_number_text(s):
 
 def escape_cell(x):
     """Text for one CSV cell, with spreadsheet formulas neutralised by a leading quote."""
+    t = type(x)
+    if t is float:                                  # most cells: one type test, then the general rules
+        return repr(x) if math.isfinite(x) else ""
+    if t is str and not x.startswith(_FORMULA_START) and x.isprintable():
+        return x
     if x is None:
         return ""
     if isinstance(x, bool):

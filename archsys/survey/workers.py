@@ -25,7 +25,8 @@ from ..progress import progress_bar
 from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
-__all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "dask_client",
+__all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "worker_start", "one_blas_thread",
+           "dask_client",
            "run_tasks", "system_seed", "system_options", "SAMPLES_PER_PLANET", "FAST_BATCH"]
 
 #: Posterior samples per planet kept for the hierarchical inference.
@@ -263,6 +264,25 @@ def _parent_watch(parent_pid, interval):
             os._exit(3)
 
 
+def one_blas_thread():
+    """Limit BLAS and OpenMP to one thread in this process (for good: a survey process's own setting).
+
+    A survey runs one process per core; a BLAS thread pool in each process only contends for the same
+    cores.  It costs a lot: the population fits' small float32 matrix products took 31 s instead of
+    2.5 s with OpenBLAS's two threads on a machine whose cores were busy (measured on the 2-core
+    development machine).  Environment variables act only on processes started after them, so this
+    uses threadpoolctl, which sets the loaded libraries' thread counts at run time.
+    """
+    from threadpoolctl import threadpool_limits
+    return threadpool_limits(limits=1)
+
+
+def worker_start(parent_pid, interval=0.5):
+    """Initialiser of survey worker and population-fit processes: one BLAS thread, exit with the parent."""
+    one_blas_thread()
+    watch_parent(parent_pid, interval)
+
+
 def watch_parent(parent_pid, interval=0.5):
     """Worker initialiser: exit as soon as the survey process that started us is gone.
 
@@ -302,7 +322,7 @@ def _run_local(tasks, sink, jobs, batch=None):
     # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
     saved = {k: os.environ.get(k) for k in _THREAD_VARS}
     os.environ.update({k: "1" for k in _THREAD_VARS})
-    ex = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=watch_parent,
+    ex = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=worker_start,
                              initargs=(os.getpid(),))
     try:
         pending = set()

@@ -190,6 +190,7 @@ def plot_multiplicity(multiplicity, fig=None, preset=None):
             pos = np.concatenate([v, lo, hi])
             pos = pos[np.isfinite(pos) & (pos > 0)]
             y0 = 10 ** math.floor(math.log10(pos.min())) if pos.size else 1e-3
+            y0 = min(y0, 0.1)         # every system of one multiplicity (fraction 1): still a decade shown
             ax.set_yscale("log")
             ax.set_ylim(y0, 1.0)
             log_axis_ticks(ax.yaxis, y0, 1.0, max_labels=6)
