@@ -28,6 +28,11 @@ multiplicity_systems_per_s, multiplicity_systems_per_s_2_cores, multiplicity_vs_
 stability_analytic_vs_nbody_cost
     cost of one N-body MEGNO integration per draw over the cost of the analytic verdicts per draw
     (needs rebound).
+transit_curve_*, full_cpu_*
+    the hypothetical-planet transit curve kernel against a bare-numpy evaluation of the same quadrature
+    (every tilt piece and node), and full mode's CPU seconds per system on the open catalogue's first 8
+    transiting multis for this tree and the main branch before the full-mode work, each in a child
+    process (``benchmarks/full_mode.py``; ``--systems N`` there).
 fast_synthetic_*, oec_fast_*, full_transit_multis_*, full_rv_*, dask_*
     surveys at scale, each in a fresh process through the command line, side by side with v0.1.0 (and
     the main branch before issue 23) exported from git: ``benchmarks/survey_scale.py`` (quick sizes

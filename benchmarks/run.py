@@ -11,6 +11,7 @@ if __package__ in (None, ""):             # python benchmarks/run.py: make the r
     sys.path.insert(0, str(pathlib.Path(__file__).resolve().parents[1]))
     __package__ = "benchmarks"
 
+from .full_mode import bench_full_mode  # noqa: E402
 from .kernels import bench_kepler, bench_scores, bench_stability  # noqa: E402
 from .multiplicity import bench_multiplicity  # noqa: E402
 from .posterior import bench_posterior  # noqa: E402
@@ -21,8 +22,8 @@ __all__ = ["BENCHES", "run", "main"]
 
 BENCHES = {"kepler": bench_kepler, "scores": bench_scores, "posterior": bench_posterior,
            "survey": bench_survey, "survey_full": bench_survey_full, "stability": bench_stability,
-           "multiplicity": bench_multiplicity, "survey_scale": bench_survey_scale}
-SLOW = ("posterior", "survey", "survey_full", "survey_scale")
+           "multiplicity": bench_multiplicity, "survey_scale": bench_survey_scale, "full_mode": bench_full_mode}
+SLOW = ("posterior", "survey", "survey_full", "survey_scale", "full_mode")
 
 
 def run(skip=(), quick=False, log=None):

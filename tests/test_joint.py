@@ -229,6 +229,21 @@ def test_pareto_khat_separates_good_and_bad_weights():
     assert pareto_khat(np.log(rng.pareto(0.5, 20000) + 1.0)) > 1.0
 
 
+def test_pareto_khat_and_proposal_density_are_scipy_numbers():
+    # Reference library: the shape is scipy.stats.genpareto.fit(x, floc=0) and the proposal's Student-t
+    # pieces scipy.stats.t.logpdf; the lean versions do the same operations, so the numbers are equal.
+    from scipy import stats
+    from archsys.inference import orient_proposal as op
+    rng = np.random.default_rng(3)
+    for x in (rng.exponential(1.0, 190), rng.pareto(0.7, 300), rng.uniform(0.0, 1.0, 60),
+              np.round(rng.exponential(1.0, 120), 1)):
+        assert op._gpd_shape(x) == stats.genpareto.fit(x, floc=0.0)[0]
+    x = np.concatenate([rng.standard_t(5.0, 1000) * 4.0, [np.inf, -np.inf, np.nan]])
+    scale = rng.uniform(0.05, 20.0, x.size)
+    np.testing.assert_array_equal(op._t_logpdf(x, scale), stats.t.logpdf(x, op.NU, scale=scale))
+    np.testing.assert_array_equal(op._t_logpdf(x, 1.0), stats.t.logpdf(x, op.NU, scale=1.0))
+
+
 def test_nbody_horizon_is_counted_in_inner_orbits():
     # Issue 18 (behaviour check): the horizon is an option, counted in orbits of the innermost planet,
     # and reported in outer orbits and years too (period ratio of the handbook Jupiter-Saturn pair 2.48).

@@ -176,25 +176,25 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
 
     psi = sigma = ref_inc = None
     if hier:
-        if isinstance(chain, OrientationProposal):
+        proposal = isinstance(chain, OrientationProposal)
+        if proposal:
             theta, lq = chain.sample(rng, m)
-            with np.errstate(all="ignore"):
-                inside = np.isfinite(model.log_prob(theta))
-            # proposals outside the orientation block's support are not rejections by the data
-            reject(~inside, "proposal_support")
         else:
             theta = chain[rng.integers(0, len(chain), m)]
-            with np.errstate(all="ignore"):
-                lq = model.log_prob(theta)
         with np.errstate(all="ignore"):
-            lt = model.log_prob(theta, g, g_nt=g)
+            # the block's density under the sampler's geometry factor (g0, and the lower bound for the
+            # non-transit condition) and under each draw's own: log_prob(theta) and
+            # log_prob(theta, g, g_nt=g), sharing what does not depend on g
+            lp_model, (lt, c, terms) = model.log_prob_pair(theta, g)
+        if proposal:
+            # proposals outside the orientation block's support are not rejections by the data
+            reject(~np.isfinite(lp_model), "proposal_support")
+        else:
+            lq = lp_model
         reject(~np.isfinite(lt), "geometry")
         with np.errstate(invalid="ignore"):
             lw_orient = np.where(np.isfinite(lt), lt - lq, 0.0)
             logw += lw_orient
-        c = model.unpack(theta, g)
-        with np.errstate(all="ignore"):
-            terms = model.sign_terms(c)
         p_plus = 1.0 / (1.0 + np.exp(np.clip(terms[..., 1] - terms[..., 0], -700, 700)))
         sign = np.where(rng.uniform(size=p_plus.shape) < p_plus, 1.0, -1.0)
         cos_i = np.where(model.folded, sign * np.abs(c["u"]), c["u"])
@@ -260,14 +260,16 @@ def _pool_piece(system, opts, model, kinds, chain, hier, orient_free, ecc_priors
     if opts.analytic_stability_prior and npl >= 2:
         live = np.isfinite(logw)
         if live.any():
-            st, _ = stable_draws({k: v[live] for k, v in draws.items()})
+            keep = np.flatnonzero(live)
+            st, _ = stable_draws({k: v.take(keep, axis=0) for k, v in draws.items()})
             mask = np.zeros(m, dtype=bool)
             mask[np.flatnonzero(live)[~st]] = True
             reject(mask, "stability")
     reject(~np.isfinite(logw), "weights")
     bad = {k: v for k, v in bad.items() if np.any(v)}
     live = np.isfinite(logw)        # keep only draws that can be resampled (memory stays small)
-    draws = {k: v[live] for k, v in draws.items()}
-    lo = lw_orient[live] if np.ndim(lw_orient) else np.zeros(int(live.sum()))
-    blocks = {"orientation": lo, "rest": logw[live] - lo}
-    return {"draws": draws, "logw": logw[live], "notes": notes, "blocks": blocks}, bad
+    keep = np.flatnonzero(live)         # take: the rows of a boolean mask, several times faster on 2-D arrays
+    draws = {k: v.take(keep, axis=0) for k, v in draws.items()}
+    lo = lw_orient.take(keep) if np.ndim(lw_orient) else np.zeros(keep.size)
+    blocks = {"orientation": lo, "rest": logw.take(keep) - lo}
+    return {"draws": draws, "logw": logw.take(keep), "notes": notes, "blocks": blocks}, bad

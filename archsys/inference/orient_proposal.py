@@ -22,7 +22,7 @@ where the Gaussian approximation is too narrow.
 from __future__ import annotations
 
 import numpy as np
-from scipy import stats
+from scipy import optimize, special, stats
 
 __all__ = ["OrientationProposal", "pareto_khat", "NU"]
 
@@ -31,8 +31,59 @@ NU = 5.0
 _N_GRID = 512
 
 
+#: log of the Student-t density's normalisation at NU degrees of freedom, as scipy.stats.t computes it
+_T_LOGNORM = float(np.log(special.poch(0.5 * NU, 0.5)) - 0.5 * (np.log(NU) + np.log(np.pi)))
+_T_HALF = (NU + 1) / 2
+
+
 def _t_logpdf(x, scale):
-    return stats.t.logpdf(x, NU, scale=scale)
+    """``scipy.stats.t.logpdf(x, NU, scale=scale)`` for finite positive scales, without its argument
+    handling: the same operations in the same order, so the same numbers (tests/test_joint.py)."""
+    y = x / scale
+    return _T_LOGNORM - _T_HALF * np.log1p(y * y / NU) - np.log(scale)
+
+
+def _gpd_nll(theta, x):
+    """The objective ``scipy.stats.genpareto.fit(x, floc=0)`` minimises (its penalised negative
+    log-likelihood at shape ``theta[0]`` and scale ``theta[1]``), the same operations in the same order
+    for finite data x >= 0 (pareto_khat's exceedances), so the same numbers: x / scale is then never
+    NaN and never below 0, and every point is inside the support when the shape is >= 0."""
+    c, scale = theta[0], theta[1]
+    if not np.isfinite(c) or scale <= 0:
+        return np.inf
+    x = x / scale
+    n_log_scale = len(x) * np.log(scale)
+    n_bad = 0
+    if c < 0:
+        inside = x <= -1.0 / c
+        n_bad = x.size - np.count_nonzero(inside)
+        if n_bad > 0:
+            x = x[inside]
+    if c != 0:
+        lp = -special.xlog1py(c + 1., c * x) / c
+    else:
+        lp = -x
+    finite = np.isfinite(lp)
+    n_inf = finite.size - np.count_nonzero(finite)
+    if n_inf:
+        n_bad += n_inf
+        lp = lp[finite]
+    return -np.sum(lp) + n_bad * _LOGXMAX * 100 + n_log_scale
+
+
+_LOGXMAX = np.log(np.finfo(float).max)
+
+
+def _gpd_shape(exc):
+    """Shape of ``scipy.stats.genpareto.fit(exc, floc=0.0)``: its start point and its Nelder-Mead
+    search (scipy.optimize.fmin) on the same objective, without the per-evaluation overhead of the
+    distribution machinery (the same numbers: tests/test_joint.py)."""
+    c0, _, scale0 = stats.genpareto._fitstart(exc)
+    vals = optimize.fmin(_gpd_nll, [c0, scale0], args=(exc,), disp=0)
+    if not (np.isfinite(vals[0]) and vals[1] > 0):
+        raise stats.FitError("Optimization converged to parameters that are outside the range allowed by "
+                             "the distribution.")
+    return float(vals[0])
 
 
 def pareto_khat(logw):
@@ -56,8 +107,7 @@ def pareto_khat(logw):
     exc = tail - cut
     if not np.any(exc > 0):
         return 0.0
-    k, _, _ = stats.genpareto.fit(exc, floc=0.0)
-    return float(k)
+    return _gpd_shape(exc)
 
 
 class OrientationProposal:
@@ -130,8 +180,7 @@ class OrientationProposal:
             th[:, m.ix["node_ref"]] = rng.uniform(-np.pi, np.pi, n)
             logq -= np.log(2 * np.pi)
         # cos I in physical units is needed for the prior widths of the remaining coordinates
-        c = m.unpack(th)
-        sw, sz = self._prior_scales(c["cosI"])
+        sw, sz = self._prior_scales(m.cos_ref(th))
         for col in self.w_cols:
             th[:, col] = sw * rng.standard_t(NU, n)
             logq += _t_logpdf(th[:, col], sw)
@@ -152,8 +201,7 @@ class OrientationProposal:
             logq += _t_logpdf(th[:, col], 1.0)
         if not m._ref_info:
             logq -= np.log(1.0 - m.cosI_lo)
-        c = m.unpack(th)
-        sw, sz = self._prior_scales(c["cosI"])
+        sw, sz = self._prior_scales(m.cos_ref(th))
         for col in self.w_cols:
             logq += _t_logpdf(th[:, col], sw)
         for col in self.z_cols:

@@ -46,11 +46,16 @@ import math
 
 import numpy as np
 
-from .tilts import classify, log_tilt_density, orbit_normals
+from .tilts import classify, log_tilt_density_raw, orbit_normals
 
 __all__ = ["OrientationModel"]
 
 _NEG = -np.inf
+
+
+def _clip(x, lo, hi):
+    """np.clip(x, lo, hi) for lo <= hi (the same numbers, NaN kept) without its call overhead."""
+    return np.minimum(np.maximum(x, lo), hi)
 
 
 class OrientationModel:
@@ -81,6 +86,7 @@ class OrientationModel:
             if k == "b" and not np.isfinite(self.g0[j]):
                 self.kinds[j] = "free"
         self.folded = np.array([k == "b" for k in self.kinds])
+        self._fold_any, self._fold_all = bool(self.folded.any()), bool(self.folded.all())
         self.names, self.ix = [], {}
 
         def add(name):
@@ -160,6 +166,15 @@ class OrientationModel:
                             if transits and p.transiting is False and "b" not in p.quantities
                             and np.isfinite(self.g_nt[j])]
         self._vectorise()
+        self._g0_cache = {}
+        self._i_gauss = []
+        for j, meas in self.i_like:
+            gp = meas.gauss_params()
+            if gp is not None:
+                cen, sm, sp = gp
+                asym = math.isfinite(sm) and math.isfinite(sp) and sm != sp
+                gp = (cen, sm, sp, math.log(sm) if asym else None, math.log(sp) if asym else None)
+            self._i_gauss.append((j, gp))
 
     def _vectorise(self):
         """Index arrays so that unpack and log_prob never loop over planets."""
@@ -192,6 +207,8 @@ class OrientationModel:
         self._gb_y = np.array([self._b_gauss[j][0] for j in jb])
         self._gb_s = np.array([self._b_gauss[j][1] for j in jb])
         self._g0_b = self.g0[jb] if jb else np.zeros(0)
+        self._gb_inv_s2 = 1.0 / (self._gb_s * self._gb_s)
+        self._gb_y_s2 = self._gb_y / (self._gb_s * self._gb_s)
         # vectorised split-normal likelihood of the impact parameters
         rows = [(np.searchsorted(jb, j), meas.gauss_params()) for j, meas in self.b_like]
         rows = [(k, gp) for k, gp in rows if gp is not None]
@@ -211,10 +228,20 @@ class OrientationModel:
         ``g`` (m, n_planets) or (n_planets,): |cos i| per unit impact parameter
         (default ``g0``).  ``u`` is cos i, folded (>= 0) for 'b' planets.
         """
+        return self._with_g(self._unpack_common(np.atleast_2d(theta)), g)
+
+    def cos_ref(self, theta):
+        """cos I of parameter rows: :meth:`unpack`'s ``cosI`` alone (the same operations)."""
         th = np.atleast_2d(theta)
+        if self._ref_info:
+            mean, sd = self._ref_conditional(np.exp(th[:, self.ix["logsigma"]]))
+            return mean + sd * th[:, self.ix["cosI"]]
+        return th[:, self.ix["cosI"]]
+
+    def _unpack_common(self, th):
+        """What :meth:`unpack` computes independently of ``g``: everything but the 'b' planets'
+        cos i, with the log-Jacobian's terms kept apart (added in the same order by _with_g)."""
         m = th.shape[0]
-        g = self.g0 if g is None else g
-        g = np.broadcast_to(np.asarray(g, float), (m, self.np_))
         ix = self.ix
         c = {"sigma": np.exp(th[:, ix["logsigma"]]), "logsigma": th[:, ix["logsigma"]]}
         if self._ref_info:
@@ -229,61 +256,98 @@ class OrientationModel:
         u = np.empty((m, self.np_))
         node = np.empty((m, self.np_))
         beta = np.full((m, self.np_), np.nan)
-        log_jac = np.zeros(m) + log_jac0
+        before, after = [], []            # log-Jacobian terms before and after the g term
         V = self._vec
         if len(V["jb"]):
             if self.b_std:
                 mean, sd = self._beta_conditional(V["jb"], c["cosI"][:, None], sig[:, None])
                 beta[:, V["jb"]] = mean + sd * th[:, V["cb"]]
-                log_jac += np.sum(np.log(sd), axis=1)
+                before.append(np.add.reduce(np.log(sd), axis=1))
             else:
                 beta[:, V["jb"]] = th[:, V["cb"]]
         if len(V["jbf"]):
             beta[:, V["jbf"]] = V["bf"]
-        if len(V["jall_b"]):
-            gb = g[:, V["jall_b"]]
-            u[:, V["jall_b"]] = beta[:, V["jall_b"]] * gb
-            log_jac += np.sum(np.log(gb), axis=1)
         if len(V["ji"]):
             if self.b_std:
-                mean, sd = self._gauss_conditional(self._gi_y, self._gi_s, np.ones(len(V["ji"])),
-                                                   c["cosI"][:, None], sig[:, None])
+                mean, sd = self._gauss_conditional(self._gi_y, self._gi_s, None, c["cosI"][:, None], sig[:, None])
                 u[:, V["ji"]] = mean + sd * th[:, V["ci"]]
-                log_jac += np.sum(np.log(sd), axis=1)
+                after.append(np.add.reduce(np.log(sd), axis=1))
             else:
                 u[:, V["ji"]] = th[:, V["ci"]]
         if len(V["jf"]):
             u[:, V["jf"]] = V["cf"]
         if len(V["jz"]):
-            A = np.arctanh(np.clip(c["cosI"], -1.0 + 1e-12, 1.0 - 1e-12))[:, None]
+            A = np.arctanh(_clip(c["cosI"], -1.0 + 1e-12, 1.0 - 1e-12))[:, None]
             uz = np.tanh(A + sig[:, None] * th[:, V["cz"]])
             u[:, V["jz"]] = uz
             with np.errstate(divide="ignore"):
-                log_jac += np.sum(np.log(sig[:, None] * np.maximum(1.0 - uz * uz, 0.0)), axis=1)
+                after.append(np.add.reduce(np.log(sig[:, None] * np.maximum(1.0 - uz * uz, 0.0)), axis=1))
         if len(V["jw"]):
             sw = sig[:, None] * th[:, V["cw"]]
             node[:, V["jw"]] = c["node_ref"][:, None] + 2.0 * np.arctan(sw)
-            log_jac += np.sum(np.log(2.0 * sig[:, None] / (1.0 + sw * sw)), axis=1)
+            after.append(np.add.reduce(np.log(2.0 * sig[:, None] / (1.0 + sw * sw)), axis=1))
         if len(V["jnf"]):
             node[:, V["jnf"]] = V["nf"]
-        c.update(u=u, node=node, log_jac=log_jac, beta=beta)
+        c.update(u=u, node=node, beta=beta, _jac=(log_jac0, before, after))
         return c
+
+    def _with_g(self, base, g):
+        """:meth:`unpack`'s result from :meth:`_unpack_common`'s and ``g``."""
+        m = base["sigma"].shape[0]
+        log_jac0, before, after = base["_jac"]
+        c = {k: v for k, v in base.items() if k != "_jac"}
+        log_jac = np.zeros(m) + log_jac0
+        for term in before:
+            log_jac += term
+        V = self._vec
+        if len(V["jall_b"]):
+            u = base["u"].copy()
+            gb, log_gb = self._g_columns(g, m)
+            u[:, V["jall_b"]] = base["beta"][:, V["jall_b"]] * gb
+            log_jac += log_gb
+            c["u"] = u
+        for term in after:
+            log_jac += term
+        c["log_jac"] = log_jac
+        return c
+
+    def _g_columns(self, g, m):
+        """The 'b' planets' g (m, n_b) and the sum of their logs (m,); for g0 kept per m (the
+        emcee walkers call with the same m at every step)."""
+        if g is None:
+            hit = self._g0_cache.get(m)
+            if hit is not None:
+                return hit
+        gg = np.broadcast_to(np.asarray(self.g0 if g is None else g, float), (m, self.np_))
+        gb = gg[:, self._vec["jall_b"]]
+        out = (gb, np.add.reduce(np.log(gb), axis=1))
+        if g is None:
+            if len(self._g0_cache) > 16:
+                self._g0_cache.clear()
+            self._g0_cache[m] = out
+        return out
 
     def _ref_conditional(self, sigma):
         """Mean and width of cos I given sigma in a Gaussian approximation: each planet with
         orientation data has |cos i| ~ N(cos I, sigma^2 + s_j^2).  The sampled coordinate is cos I
         standardised by them (this removes the funnel between sigma and the reference plane)."""
         w = 1.0 / (sigma[:, None] ** 2 + self._ref_s2[None, :] + 1e-300)
-        prec = w.sum(axis=1)
-        return (w * self._ref_y[None, :]).sum(axis=1) / prec, 1.0 / np.sqrt(prec)
+        prec = np.add.reduce(w, axis=1)
+        return np.add.reduce(w * self._ref_y[None, :], axis=1) / prec, 1.0 / np.sqrt(prec)
 
     @staticmethod
     def _gauss_conditional(y, s, g, cosI, sigma):
         """Mean and width of x given (cos I, sigma) when |cos i| = x g has the Gaussian prior
-        N(cos I, (sigma sin I)^2) and x the Gaussian summary N(y, s^2)."""
-        tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
-        prec = 1.0 / (tau * tau) + 1.0 / (s * s)
-        mean = (cosI / g / (tau * tau) + y / (s * s)) / prec
+        N(cos I, (sigma sin I)^2) and x the Gaussian summary N(y, s^2).  ``g=None``: g = 1 (the
+        divisions by it are left out, which changes no number, and the (cos I, sigma) factors stay
+        one column until they meet the summaries)."""
+        tau = sigma * np.sqrt(_clip(1.0 - cosI * cosI, 1e-12, 1.0))
+        if g is not None:
+            tau = tau / g
+            cosI = cosI / g
+        tt = tau * tau
+        prec = 1.0 / tt + 1.0 / (s * s)
+        mean = (cosI / tt + y / (s * s)) / prec
         return mean, 1.0 / np.sqrt(prec)
 
     def _beta_conditional(self, jb, cosI, sigma):
@@ -292,63 +356,134 @@ class OrientationModel:
 
         The sampled coordinate is beta standardised by them: this removes the funnel between
         sigma and the impact parameters (the exact density is still evaluated in beta)."""
-        k = np.searchsorted(self._vec["jb"], jb)
-        g, y, s = self._g0_b[k], self._gb_y[k], self._gb_s[k]
-        tau = sigma * np.sqrt(np.clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
-        prec = 1.0 / (tau * tau) + 1.0 / (s * s)
-        mean = (cosI / g / (tau * tau) + y / (s * s)) / prec
+        if jb is self._vec["jb"]:          # every 'b' planet: the constants kept by _vectorise
+            g, inv_s2, y_s2 = self._g0_b, self._gb_inv_s2, self._gb_y_s2
+        else:
+            k = np.searchsorted(self._vec["jb"], jb)
+            g, y, s = self._g0_b[k], self._gb_y[k], self._gb_s[k]
+            inv_s2, y_s2 = 1.0 / (s * s), y / (s * s)
+        tau = sigma * np.sqrt(_clip(1.0 - cosI * cosI, 1e-12, 1.0)) / g
+        tt = tau * tau
+        prec = 1.0 / tt + inv_s2
+        mean = (cosI / g / tt + y_s2) / prec
         return mean, 1.0 / np.sqrt(prec)
 
     def ref_normal(self, c):
-        return orbit_normals(np.clip(c["cosI"], -1.0, 1.0), c["node_ref"])
+        return orbit_normals(_clip(c["cosI"], -1.0, 1.0), c["node_ref"])
 
-    def sign_terms(self, c):
+    def sign_terms(self, c, mirror=True, like=None):
         """log prior densities (m, n_planets, 2) of the orbit normal with cos i = +|u| and -|u|
-        (for signed planets the first entry is the density at the signed u)."""
-        nref = self.ref_normal(c)
-        u = c["u"]
-        au = np.where(self.folded, np.abs(u), u)
-        si = np.sqrt(np.clip(1.0 - au * au, 0.0, 1.0))
-        node = c["node"]
-        common = si * (np.sin(node) * nref[:, 0:1] - np.cos(node) * nref[:, 1:2])
-        zpart = au * nref[:, 2:3]
-        sig = c["sigma"][:, None]
-        return np.stack([log_tilt_density(common + zpart, sig),
-                         log_tilt_density(common - zpart, sig)], axis=-1)
+        (for signed planets the first entry is the density at the signed u).  ``mirror=False``:
+        for signed planets the second entry repeats the first (their mirror image is never used
+        by the engine).  ``like``: the terms of the same parameters under another g (only the
+        'b' planets' cos i differs), whose other columns are taken as they are.
 
-    def log_prob(self, theta, g=None, g_nt=None):
+        The components of the reference normal are those of :meth:`ref_normal`, and every tilt
+        density is evaluated in one call (elementwise, so the same numbers)."""
+        cI = _clip(c["cosI"], -1.0, 1.0)
+        sin_I = np.sqrt(_clip(1.0 - cI * cI, 0.0, 1.0))
+        node_ref = c["node_ref"]
+        n0 = (sin_I * np.sin(node_ref))[:, None]
+        n1 = (-sin_I * np.cos(node_ref))[:, None]
+        n2 = cI[:, None]
+        sig = c["sigma"][:, None]
+        f = self.folded
+        with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+            if like is not None:
+                out = like.copy()
+                if self._fold_any:
+                    au = np.abs(c["u"][:, f])
+                    si = np.sqrt(_clip(1.0 - au * au, 0.0, 1.0))
+                    node = c["node"][:, f]
+                    common = si * (np.sin(node) * n0 - np.cos(node) * n1)
+                    zpart = au * n2
+                    k = common.shape[1]
+                    both = log_tilt_density_raw(np.concatenate([common + zpart, common - zpart], axis=1), sig)
+                    out[:, f, 0] = both[:, :k]
+                    out[:, f, 1] = both[:, k:]
+                return out
+            u = c["u"]
+            au = np.where(f, np.abs(u), u)
+            si = np.sqrt(_clip(1.0 - au * au, 0.0, 1.0))
+            node = c["node"]
+            common = si * (np.sin(node) * n0 - np.cos(node) * n1)
+            zpart = au * n2
+            npl = u.shape[1]
+            out = np.empty(u.shape + (2,))
+            if mirror or self._fold_all:
+                both = log_tilt_density_raw(np.concatenate([common + zpart, common - zpart], axis=1), sig)
+                out[..., 0] = both[:, :npl]
+                out[..., 1] = both[:, npl:]
+            elif self._fold_any:      # the mirror image only where the sign of cos i is unobserved
+                both = log_tilt_density_raw(np.concatenate([common + zpart, common[:, f] - zpart[:, f]], axis=1),
+                                            sig)
+                out[..., 0] = both[:, :npl]
+                out[..., 1] = out[..., 0]
+                out[:, f, 1] = both[:, npl:]
+            else:
+                out[..., 0] = log_tilt_density_raw(common + zpart, sig)
+                out[..., 1] = out[..., 0]
+        return out
+
+    def log_prob(self, theta, g=None, g_nt=None, parts=False):
         """Log-density of the orientation block (m,), with the geometry factor ``g``.
 
         ``g_nt`` is the factor used in the non-transit condition |cos i| > (1 + Rp/R*) g;
-        inside the sampler it is the lower bound ``self.g_nt``.
+        inside the sampler it is the lower bound ``self.g_nt``.  ``parts=True`` returns
+        ``(log_prob, unpack(theta, g), sign_terms(...))``: the engine reuses them.
         """
-        th = np.atleast_2d(theta)
-        c = self.unpack(th, g)
+        c = self.unpack(theta, g)
+        out, terms = self._log_prob_of(c, g_nt)
+        return (out, c, terms) if parts else out
+
+    def log_prob_pair(self, theta, g):
+        """``log_prob(theta)`` and ``log_prob(theta, g, g_nt=g, parts=True)`` together: the same
+        numbers, with what does not depend on g (all but the 'b' planets' cos i) computed once."""
+        base = self._unpack_common(np.atleast_2d(theta))
+        c0, c1 = self._with_g(base, None), self._with_g(base, g)
+        out0, t0 = self._log_prob_of(c0, None)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            t1 = self.sign_terms(c1, like=t0)
+        out1, _ = self._log_prob_of(c1, g, t1)
+        return out0, (out1, c1, t1)
+
+    def _log_prob_of(self, c, g_nt, terms=None):
+        """(log_prob, sign terms) from unpacked parameters ``c`` (terms computed unless given)."""
         ok = (c["cosI"] >= self.cosI_lo) & (c["cosI"] <= 1.0)
         V = self._vec
         if len(V["jb"]):
             bj = c["beta"][:, V["jb"]]
-            ok &= np.all((bj >= 0.0) & (bj <= V["top_b"]), axis=1)
-        ok &= np.all(np.abs(c["u"]) <= 1.0, axis=1)
+            ok &= np.logical_and.reduce((bj >= 0.0) & (bj <= V["top_b"]), axis=1)
+        ok &= np.logical_and.reduce(np.abs(c["u"]) <= 1.0, axis=1)
         if len(V["nt"]):
             gnt = self.g_nt if g_nt is None else g_nt
             gnt = np.broadcast_to(np.asarray(gnt, float), c["u"].shape)
-            ok &= np.all(np.abs(c["u"][:, V["nt"]]) > V["top_nt"] * gnt[:, V["nt"]], axis=1)
+            ok &= np.logical_and.reduce(np.abs(c["u"][:, V["nt"]]) > V["top_nt"] * gnt[:, V["nt"]], axis=1)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            terms = self.sign_terms(c)
+            if terms is None:
+                terms = self.sign_terms(c, mirror=False)
             orient = np.where(self.folded, np.logaddexp(terms[..., 0], terms[..., 1]), terms[..., 0])
             sig_deg = np.degrees(c["sigma"])
-            lp = (np.sum(orient, axis=1) + c["log_jac"]
+            lp = (np.add.reduce(orient, axis=1) + c["log_jac"]
                   + self.sigma_prior.logpdf(np.where(ok, sig_deg, 1.0)) + c["logsigma"])
             if self._bl is not None:
                 k, cen, inv_m, inv_p, lw_m, lw_p = self._bl
                 d = c["beta"][:, V["jb"][k]] - cen
                 neg = d < 0
                 r = d * np.where(neg, inv_m, inv_p)
-                lp += np.sum(-0.5 * r * r - np.where(neg, lw_m, lw_p), axis=1)
-            for j, meas in self.i_like:
-                lp += meas.log_likelihood(np.degrees(np.arccos(np.clip(c["u"][:, j], -1.0, 1.0))))
+                lp += np.add.reduce(-0.5 * r * r - np.where(neg, lw_m, lw_p), axis=1)
+            for j, gp in self._i_gauss:
+                # Measurement.log_likelihood of the inclination summary, its operations inlined
+                x = np.degrees(np.arccos(_clip(c["u"][:, j], -1.0, 1.0)))
+                if gp is None:
+                    lp += np.zeros_like(x)
+                    continue
+                cen, sm, sp, log_sm, log_sp = gp
+                d = x - cen
+                neg = d < 0
+                r = np.where(neg, d / sm, d / sp)
+                lp += -0.5 * r * r - np.where(neg, log_sm, log_sp) if log_sm is not None else -0.5 * r * r
             for j, mu, sd in self.node_like:
                 d = (c["node"][:, j] - mu + np.pi) % (2 * np.pi) - np.pi
                 lp += -0.5 * (d / sd) ** 2
-        return np.where(ok & np.isfinite(lp), lp, _NEG)
+        return np.where(ok & np.isfinite(lp), lp, _NEG), terms

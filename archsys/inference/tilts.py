@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["orbit_normals", "log_tilt_density", "classify", "prior_orientations"]
+__all__ = ["orbit_normals", "log_tilt_density", "log_tilt_density_raw", "classify", "prior_orientations"]
 
 
 def orbit_normals(cos_i, node):
@@ -21,12 +21,35 @@ def orbit_normals(cos_i, node):
 
 def log_tilt_density(cos_psi, sigma):
     """log [Rayleigh(psi; sigma) / (2 pi sin psi)] per unit solid angle, truncated at psi = pi."""
-    psi = np.arccos(np.clip(cos_psi, -1.0, 1.0))
-    s2 = sigma * sigma
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
-        ratio = np.where(psi > 1e-6, psi / np.maximum(np.sin(psi), 1e-300), 1.0)
-        log_norm = np.log1p(-np.exp(-np.pi ** 2 / (2.0 * s2)))
-        return np.log(ratio) - np.log(2.0 * np.pi * s2) - 0.5 * psi * psi / s2 - log_norm
+        return log_tilt_density_raw(cos_psi, sigma)
+
+
+def log_tilt_density_raw(cos_psi, sigma):
+    """:func:`log_tilt_density` without its floating-point error settings (callers inside their own)."""
+    # the operations of log(ratio) - log(2 pi s2) - 0.5 psi^2 / s2 - log_norm with
+    # ratio = psi / max(sin psi, 1e-300) (1 below psi = 1e-6), in place where they can be
+    psi = np.array(cos_psi, dtype=float)
+    shape = np.broadcast_shapes(psi.shape, np.shape(sigma))
+    scalar = shape == ()
+    if psi.shape != shape or scalar:
+        psi = np.array(np.broadcast_to(psi, shape or (1,)))
+    np.maximum(psi, -1.0, out=psi)                  # np.clip, without its overhead
+    np.minimum(psi, 1.0, out=psi)
+    np.arccos(psi, out=psi)
+    s2 = sigma * sigma
+    out = np.sin(psi)
+    np.maximum(out, 1e-300, out=out)
+    np.divide(psi, out, out=out)
+    np.copyto(out, 1.0, where=~(psi > 1e-6))
+    np.log(out, out=out)
+    out -= np.log(2.0 * np.pi * s2)
+    q = np.multiply(psi, 0.5)
+    q *= psi
+    q /= s2
+    out -= q
+    out -= np.log1p(-np.exp(-np.pi ** 2 / (2.0 * s2)))
+    return out[0] if scalar else out
 
 
 def classify(system, has_scale):

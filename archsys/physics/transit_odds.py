@@ -88,16 +88,7 @@ def azimuth_fraction(cos_ref, psi, c_max):
     fixed and the fraction is 0 or 1.
     """
     cI = np.clip(np.asarray(cos_ref, dtype=float), -1.0, 1.0)
-    psi = np.asarray(psi, dtype=float)
-    c = np.asarray(c_max, dtype=float)
-    A = cI * np.cos(psi)
-    B = np.sqrt(1.0 - cI * cI) * np.abs(np.sin(psi))
-    tiny = B < 1e-15
-    Bs = np.where(tiny, 1.0, B)
-    lo = np.clip((-c - A) / Bs, -1.0, 1.0)
-    hi = np.clip((c - A) / Bs, -1.0, 1.0)
-    frac = (np.arccos(lo) - np.arccos(hi)) / np.pi
-    return np.where(tiny, (np.abs(A) < c).astype(float), frac)
+    return _fraction(cI, np.sqrt(1.0 - cI * cI), np.asarray(psi, dtype=float), np.asarray(c_max, dtype=float))
 
 
 def _cdf(psi, sigma, kind):
@@ -174,7 +165,12 @@ def conditional_transit_probability(aor, ref_inc, sigma, ror=0.0, ecc=0.0, omega
     -----
     The tilt integral is taken in the CDF variable :math:`u = F(\psi)` (so the
     weight is uniform however small :math:`\sigma` is), split at the kinks of
-    :func:`tilt_kinks`, with Gauss-Legendre nodes on each piece.
+    :func:`tilt_kinks`, with Gauss-Legendre nodes on each piece.  Only pieces on
+    which the azimuth fraction varies are evaluated node by node: pieces of zero
+    width add nothing and those where it is exactly 0 or 1 add 0 or their width
+    (the same quadrature as evaluating every node, to rounding:
+    tests/test_transit_odds.py).  Each element's value depends on its own inputs
+    only (batch invariance).
 
     Limits (tested): :math:`\sigma \to 0` gives the indicator
     :math:`|b_{ref}| < 1 + R_p/R_\star` with :math:`b_{ref}` the impact
@@ -186,18 +182,125 @@ def conditional_transit_probability(aor, ref_inc, sigma, ror=0.0, ecc=0.0, omega
     I, c, sig = np.broadcast_arrays(np.asarray(ref_inc, dtype=float), c, np.asarray(sigma, dtype=float))
     if kind == "rayleigh" and np.any(~np.isfinite(sig) | (sig <= 0)):
         raise ValueError("sigma must be positive and finite")
-    sig = sig[..., None, None]
-    x, w = np.polynomial.legendre.leggauss(n_gauss)               # on [-1, 1]
-    u_edges = _cdf(tilt_kinks(I, c), sig[..., 0], kind)           # (..., 8)
-    ua, ub = u_edges[..., :-1, None], u_edges[..., 1:, None]      # (..., 7, 1)
+    shape = I.shape
+    I, c, sig = (np.ravel(v) for v in (I, c, sig))                    # (N,)
+    kinks = tilt_kinks(I, c)                                            # (N, 8)
+    u_edges = _cdf(kinks, sig[:, None], kind)
+    width = u_edges[:, 1:] - u_edges[:, :-1]                            # (N, 7)
+    part = np.zeros(width.shape)
+    # Pieces of zero width in u (kinks clipped to 0 or pi, or beyond the Rayleigh's reach, where
+    # F(psi) is 1 to double precision) add exactly nothing.  Between two kinks the azimuth
+    # fraction is either one expression or exactly 0 or exactly 1 (tilt_kinks), so the fraction
+    # at the piece's middle tilt says which: 0 adds nothing, 1 adds the width times the sum of
+    # the weights, and only the other pieces need the nodes.
+    rows, segs = np.nonzero(width != 0)                                 # NaN widths stay (NaN result)
+    cI = np.clip(np.cos(I), -1.0, 1.0)
+    sI = np.sqrt(1.0 - cI * cI)
+    mid = 0.5 * (kinks[rows, segs] + kinks[rows, segs + 1])
+    f_mid, lo_mid, hi_mid = _fraction(cI[rows], sI[rows], mid, c[rows], bounds=True)
+    x, w = np.polynomial.legendre.leggauss(n_gauss)                     # on [-1, 1]
     # u = ua + (ub - ua)(1 - cos t)/2 clusters the nodes at both ends of each piece,
     # which removes the square-root behaviour of the fraction at the kinks
-    t = 0.5 * np.pi * (x + 1.0)                                   # (n_gauss,) in (0, pi)
-    wt = 0.5 * np.pi * w * 0.5 * np.sin(t)                        # du/(ub - ua) weights
-    u = ua + (ub - ua) * 0.5 * (1.0 - np.cos(t))                  # (..., 7, n_gauss)
-    psi = _inverse_cdf(u, sig, kind)
-    frac = azimuth_fraction(np.cos(I)[..., None, None], psi, c[..., None, None])
-    return np.sum((ub - ua)[..., 0] * (frac @ wt), axis=-1)
+    t = 0.5 * np.pi * (x + 1.0)                                         # (n_gauss,) in (0, pi)
+    wt = 0.5 * np.pi * w * 0.5 * np.sin(t)                              # du/(ub - ua) weights
+    omc = 1.0 - np.cos(t)
+    full = f_mid == 1.0
+    part[rows[full], segs[full]] = width[rows[full], segs[full]] * _ordered_sum(np.ones((n_gauss, 1)), wt)[0]
+    # on the other pieces one bound of cos(phi) may stay clipped throughout (arccos(-1) = pi,
+    # arccos(1) = 0): only the other one is evaluated at the nodes
+    todo = ~((f_mid == 0.0) | full)
+    for lo_side, hi_side in ((False, True), (True, False), (True, True)):
+        sel = todo & (~(lo_mid <= -1.0) == lo_side) & (~(hi_mid >= 1.0) == hi_side)     # NaN: both
+        r_all, s_all = rows[sel], segs[sel]
+        for k in range(0, r_all.size, _CHUNK):
+            r, s = r_all[k:k + _CHUNK], s_all[k:k + _CHUNK]
+            ua, hw = u_edges[r, s], width[r, s] * 0.5
+            u = ua + hw * omc[:, None]                                  # (n_gauss, chunk)
+            sg = sig[r]
+            if kind == "rayleigh":
+                with np.errstate(over="ignore", under="ignore", divide="ignore"):
+                    psi = _rayleigh_tilt(u, sg)
+            else:
+                psi = _inverse_cdf(u, sg, kind)
+            frac = _node_fraction(cI[r], sI[r], psi, c[r], lo_side, hi_side)
+            part[r, s] = width[r, s] * _ordered_sum(frac, wt)
+    return np.sum(part, axis=-1).reshape(shape)
+
+
+#: Pieces of the tilt integral evaluated together (node arrays of n_gauss x _CHUNK stay in cache).
+_CHUNK = 2048
+
+
+def _ordered_sum(frac, wt):
+    """sum_k wt[k] * frac[k] over the first axis, in node order (the same rounding for every element)."""
+    acc = frac[0] * wt[0]
+    for k in range(1, len(wt)):
+        acc += frac[k] * wt[k]
+    return acc
+
+
+def _rayleigh_tilt(u, sigma):
+    """:func:`_inverse_cdf` (Rayleigh) of the nodes ``u`` (n_gauss, k) for ``sigma`` (k,), in place
+    where it can be (the same operations, so the same numbers); ``u`` is overwritten."""
+    f_pi = -np.expm1(-np.pi ** 2 / (2.0 * sigma * sigma))
+    t = np.multiply(u, f_pi, out=u)
+    np.minimum(t, 1.0, out=t)
+    np.negative(t, out=t)
+    np.log1p(t, out=t)
+    t *= -2.0
+    np.sqrt(t, out=t)
+    t *= sigma
+    return np.minimum(t, np.pi, out=t)
+
+
+def _node_fraction(cI, sI, psi, c, lo_side, hi_side):
+    """:func:`_fraction` at the nodes ``psi`` (n_gauss, k), with fewer temporaries (the same
+    operations, so the same numbers); ``psi`` is overwritten."""
+    A = np.cos(psi)
+    A *= cI
+    B = np.sin(psi, out=psi)
+    np.abs(B, out=B)
+    B *= sI
+    tiny = B < 1e-15
+    some_tiny = bool(tiny.any())
+    Bs = np.where(tiny, 1.0, B) if some_tiny else B
+    if lo_side:
+        frac = np.subtract(-c, A)
+        frac /= Bs
+        np.clip(frac, -1.0, 1.0, out=frac)
+        np.arccos(frac, out=frac)
+    else:
+        frac = np.full(A.shape, np.pi)
+    if hi_side:
+        hi = np.subtract(c, A)
+        hi /= Bs
+        np.clip(hi, -1.0, 1.0, out=hi)
+        frac -= np.arccos(hi, out=hi)
+    frac /= np.pi
+    return np.where(tiny, (np.abs(A) < c).astype(float), frac) if some_tiny else frac
+
+
+def _fraction(cI, sI, psi, c, lo_side=True, hi_side=True, bounds=False):
+    """:func:`azimuth_fraction` from cos I clipped to [-1, 1] and sin I = sqrt(1 - cos^2 I).
+
+    ``lo_side=False`` (``hi_side=False``): the lower (upper) bound of cos(phi) is known to be clipped
+    to -1 (+1), so it is not computed.  ``bounds=True`` also returns both bounds before clipping.
+    """
+    A = cI * np.cos(psi)
+    B = sI * np.abs(np.sin(psi))
+    tiny = B < 1e-15
+    Bs = np.where(tiny, 1.0, B)
+    if lo_side:
+        lo = (-c - A) / Bs
+        frac = np.arccos(np.clip(lo, -1.0, 1.0))
+    else:
+        frac = np.full(A.shape, np.pi)
+    if hi_side:
+        hi = (c - A) / Bs
+        frac -= np.arccos(np.clip(hi, -1.0, 1.0))
+    frac /= np.pi
+    frac = np.where(tiny, (np.abs(A) < c).astype(float), frac)
+    return (frac, lo, hi) if bounds else frac
 
 
 def isotropic_transit_probability(aor, ror=0.0, ecc=0.0, omega_rad=np.pi / 2):
