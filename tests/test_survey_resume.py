@@ -18,8 +18,11 @@ from archsys.survey.run import run_survey
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 OEC = pathlib.Path(__file__).parent / "data" / "oec" / "open_exoplanet_catalogue_planets.csv"  # Rein 2012; see data/oec/README.md
 COLUMNS = ROOT / "tests" / "data" / "oec_columns.toml"
-N = 30
-ARGS = dict(columns=str(COLUMNS), where=["n_planets>=2"], limit=N, mode="direct", draws=1000, seed=2)
+# enough work that the survey stores its systems over several flushes (every 0.5 s) and can be killed
+# between them: 30 systems of 1000 draws finished within one flush once batched fast mode came
+N = 60
+DRAWS = 3000
+ARGS = dict(columns=str(COLUMNS), where=["n_planets>=2"], limit=N, mode="direct", draws=DRAWS, seed=2)
 
 
 def _stored(db):
@@ -46,7 +49,7 @@ def test_sigkill_then_resume_equals_uninterrupted(tmp_path):
 
     out = tmp_path / "killed"
     cmd = [sys.executable, "-m", "archsys", "survey", str(OEC), "--out", str(out), "--columns", str(COLUMNS),
-           "--where", "n_planets>=2", "--limit", str(N), "--mode", "direct", "--draws", "1000", "--seed", "2",
+           "--where", "n_planets>=2", "--limit", str(N), "--mode", "direct", "--draws", str(DRAWS), "--seed", "2",
            "--jobs", "1", "--quiet"]
     env = {**os.environ, "PYTHONPATH": str(ROOT)}
     proc = subprocess.Popen(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
