@@ -89,21 +89,13 @@ class FitRunner:
             return _Done(fn, args)
         import multiprocessing
         from concurrent.futures import ProcessPoolExecutor
-        from .workers import _THREAD_VARS, worker_start
-        saved = {k: os.environ.get(k) for k in _THREAD_VARS}
-        os.environ.update({k: "1" for k in _THREAD_VARS})      # inherited by a process this submit starts
-        try:
+        from .workers import one_thread_env, worker_start
+        with one_thread_env():                  # inherited by a process this submit starts
             if self._ex is None:
                 self._ex = ProcessPoolExecutor(max_workers=self.processes,
                                                mp_context=multiprocessing.get_context("spawn"),
                                                initializer=worker_start, initargs=(os.getpid(),))
             return self._ex.submit(fn, *args)
-        finally:
-            for k, v in saved.items():
-                if v is None:
-                    os.environ.pop(k, None)
-                else:
-                    os.environ[k] = v
 
     def close(self, cancel=False):
         if self._ex is not None:

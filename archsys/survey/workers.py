@@ -7,6 +7,7 @@ same tasks through :func:`dask_client`.
 """
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import os
@@ -277,6 +278,24 @@ def one_blas_thread():
     return threadpool_limits(limits=1)
 
 
+@contextlib.contextmanager
+def one_thread_env():
+    """The BLAS/OpenMP thread variables set to 1 while inside (for processes started there), then restored.
+
+    A process pool starts its processes as tasks are submitted, so keep submitting inside.
+    """
+    saved = {k: os.environ.get(k) for k in _THREAD_VARS}
+    os.environ.update({k: "1" for k in _THREAD_VARS})
+    try:
+        yield
+    finally:
+        for k, v in saved.items():
+            if v is None:
+                os.environ.pop(k, None)
+            else:
+                os.environ[k] = v
+
+
 def worker_start(parent_pid, interval=0.5):
     """Initialiser of survey worker and population-fit processes: one BLAS thread, exit with the parent."""
     one_blas_thread()
@@ -320,33 +339,26 @@ def _run_local(tasks, sink, jobs, batch=None):
     ctx = multiprocessing.get_context("spawn")     # no inherited sqlite handle, same as Dask workers
     it = iter(_batches(tasks, jobs, batch))
     # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
-    saved = {k: os.environ.get(k) for k in _THREAD_VARS}
-    os.environ.update({k: "1" for k in _THREAD_VARS})
-    ex = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=worker_start,
-                             initargs=(os.getpid(),))
-    try:
-        pending = set()
-        for b in it:
-            pending.add(ex.submit(process_batch, b))
-            if len(pending) >= 4 * jobs:
-                break
-        while pending:
-            done, pending = wait(pending, return_when=FIRST_COMPLETED)
-            for f in done:
-                for r in f.result():
-                    sink(r)
-                nxt = next(it, None)
-                if nxt is not None:
-                    pending.add(ex.submit(process_batch, nxt))
-    except BaseException:
-        ex.shutdown(wait=False, cancel_futures=True)
-        raise
-    finally:
-        for k, v in saved.items():
-            if v is None:
-                os.environ.pop(k, None)
-            else:
-                os.environ[k] = v
+    with one_thread_env():
+        ex = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=worker_start,
+                                 initargs=(os.getpid(),))
+        try:
+            pending = set()
+            for b in it:
+                pending.add(ex.submit(process_batch, b))
+                if len(pending) >= 4 * jobs:
+                    break
+            while pending:
+                done, pending = wait(pending, return_when=FIRST_COMPLETED)
+                for f in done:
+                    for r in f.result():
+                        sink(r)
+                    nxt = next(it, None)
+                    if nxt is not None:
+                        pending.add(ex.submit(process_batch, nxt))
+        except BaseException:
+            ex.shutdown(wait=False, cancel_futures=True)
+            raise
     ex.shutdown(wait=True)
 
 
