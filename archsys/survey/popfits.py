@@ -98,9 +98,16 @@ class FitRunner:
             return self._ex.submit(fn, *args)
 
     def close(self, cancel=False):
+        """Wait for the fits (``cancel=False``), or stop them now: the processes and the pool's thread are
+        gone on return either way, so nothing of the pool runs into interpreter exit
+        (:func:`archsys.survey.workers.stop_pool`)."""
         if self._ex is not None:
-            self._ex.shutdown(wait=not cancel, cancel_futures=cancel)
-            self._ex = None
+            ex, self._ex = self._ex, None
+            if cancel:
+                from .workers import stop_pool
+                stop_pool(ex)
+            else:
+                ex.shutdown(wait=True)
 
     def __enter__(self):
         return self

@@ -27,7 +27,7 @@ from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
 __all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "worker_start", "one_blas_thread",
-           "dask_client",
+           "stop_pool", "dask_client",
            "run_tasks", "system_seed", "system_options", "SAMPLES_PER_PLANET", "FAST_BATCH"]
 
 #: Posterior samples per planet kept for the hierarchical inference.
@@ -312,6 +312,113 @@ def watch_parent(parent_pid, interval=0.5):
                      name="archsys-parent-watch").start()
 
 
+def _sentinels(procs):
+    out = []
+    for p in procs:
+        try:
+            out.append(p.sentinel)
+        except (ValueError, AttributeError):    # a closed Process object: long gone
+            pass
+    return out
+
+
+def _wait_gone(procs, timeout):
+    """True when every process of ``procs`` has exited within ``timeout`` s (not reaped: the pool does that)."""
+    from multiprocessing.connection import wait
+    left, end = _sentinels(procs), time.monotonic() + timeout
+    while left:
+        ready = wait(left, max(0.0, end - time.monotonic()))
+        if not ready:
+            return False
+        left = [s for s in left if s not in ready]
+    return True
+
+
+def _signal_all(procs, how):
+    for p in procs:
+        try:
+            getattr(p, how)()
+        except (OSError, ValueError, AttributeError):   # exited meanwhile, or closed
+            pass
+
+
+def _drain(fd, timeout):
+    """Read and drop what reaches the pipe ``fd`` within ``timeout`` s and after; None (closed) at its end."""
+    import select
+    wait = timeout
+    while select.select([fd], [], [], wait)[0]:
+        if not os.read(fd, 1 << 16):        # no writer left
+            os.close(fd)
+            return None
+        wait = 0
+    return fd
+
+
+def stop_pool(ex, grace=2.0, limit=10.0):
+    """Stop a ``ProcessPoolExecutor`` now: return when its processes and its manager thread are gone.
+
+    For a run that failed or was interrupted.  ``shutdown(wait=False, cancel_futures=True)`` alone leaves
+    the pool's manager thread working into interpreter exit, and there the exit hook of
+    ``concurrent.futures`` (CPython 3.10, 3.11) wakes that thread through a pipe without the lock the
+    thread holds while it closes that pipe: now and then an "Exception ignored ... OSError: [Errno 9]
+    Bad file descriptor" traceback after the CLI's one error line (DEVELOPERS.md, "Stopping a process
+    pool").  ``shutdown(wait=True)`` alone would wait for the running tasks (a population fit can take
+    minutes).  So: cancel what has not started, end the processes (SIGTERM, then SIGKILL after ``grace``
+    s), then wait (at most ``limit`` s) for the manager thread to see them gone and clean up.  Two
+    things the kill leaves behind would otherwise hang that thread, hence the exit:
+
+    * a result cut off by the kill: the thread would read forever from a pipe whose write end this
+      process still holds.  That end is closed once the processes are gone, so the read ends (EOF) and
+      the thread takes the pool for broken, its normal path after a dead worker;
+    * a task input still being written to the pipe of queued tasks (a large fit input) by the queue's
+      feeder thread, blocked on a full pipe nobody reads any more (measured: CPython 3.11.2 hangs
+      there for good, 3.11.7 closes that pipe).  This keeps a read end of its own and empties the pipe until the thread is done.
+
+    The pool's processes, manager thread and queues are attributes of the executor that
+    ``concurrent.futures`` does not make public (Python 3.14 adds ``terminate_workers``, without the
+    wait); each is looked up with a fallback, so another layout degrades to the plain shutdown.
+    A Ctrl-C during the (bounded) stop is raised when the stop is done.
+    """
+    procs = list((getattr(ex, "_processes", None) or {}).values())
+    manager = getattr(ex, "_executor_manager_thread", None)
+    results = getattr(ex, "_result_queue", None)
+    try:
+        spare = [os.dup(ex._call_queue._reader.fileno())]
+    except (AttributeError, OSError, ValueError):
+        spare = [None]
+    end = time.monotonic() + limit
+
+    def end_processes():
+        _signal_all(procs, "terminate")
+        if not _wait_gone(procs, grace):
+            _signal_all(procs, "kill")
+            _wait_gone(procs, grace)
+
+    def close_result_writer():
+        writer = getattr(results, "_writer", None)
+        if writer is not None and _wait_gone(procs, 0):
+            writer.close()
+
+    def wait_manager():
+        while manager is not None and manager.is_alive() and time.monotonic() < end:
+            if spare[0] is not None:
+                spare[0] = _drain(spare[0], 0.02)
+            else:
+                manager.join(0.02)
+
+    interrupted = None
+    for step in (lambda: ex.shutdown(wait=False, cancel_futures=True),   # nothing queued starts any more
+                 end_processes, close_result_writer, wait_manager, wait_manager):
+        try:
+            step()
+        except KeyboardInterrupt as exc:        # a second Ctrl-C: finish the (bounded) stop first
+            interrupted = exc
+    if spare[0] is not None:
+        os.close(spare[0])
+    if interrupted is not None:
+        raise interrupted
+
+
 #: Most systems in one worker call (process_batch analyses a fast-mode call together): enough to amortise
 #: the per-draw kernels' Python cost over (systems x draws) arrays and a Dask scheduler's per-task cost
 #: (about a millisecond), small enough for the caches and a steady progress line.
@@ -357,7 +464,7 @@ def _run_local(tasks, sink, jobs, batch=None):
                     if nxt is not None:
                         pending.add(ex.submit(process_batch, nxt))
         except BaseException:
-            ex.shutdown(wait=False, cancel_futures=True)
+            stop_pool(ex)               # gone before the error is reported (see stop_pool)
             raise
     ex.shutdown(wait=True)
 
