@@ -10,11 +10,14 @@ slow Dask test of tests/test_hardening.py; 2 of 100 bare runs, DEVELOPERS.md "St
 import multiprocessing
 import os
 import pathlib
+import signal
 import sqlite3
 import subprocess
 import sys
 import threading
 import time
+
+import pytest
 
 from archsys.cli import main
 from archsys.survey import popfits
@@ -130,3 +133,56 @@ def test_pool_closing_at_exit_prints_nothing_after_the_error_line(tmp_path):
                            "--mode", "direct", "--draws", "100", "--jobs", "2", "--no-figures", "--quiet"],
                           env=ENV, capture_output=True, text=True, timeout=120)
     one_line_exit_2(proc.returncode, proc.stderr, "survey store: disk I/O error")
+
+
+def _children(pid):
+    out = set()
+    try:
+        for tid in os.listdir(f"/proc/{pid}/task"):
+            with open(f"/proc/{pid}/task/{tid}/children") as fh:
+                out |= {int(x) for x in fh.read().split()}
+    except OSError:
+        pass
+    return out
+
+
+def _alive(pid):
+    try:
+        with open(f"/proc/{pid}/stat") as fh:
+            return fh.read().split()[2] != "Z"
+    except OSError:
+        return False
+
+
+@pytest.mark.parametrize("sig, code, line", [(signal.SIGINT, 130, "archsys: interrupted"),
+                                             (signal.SIGTERM, 143, "archsys: terminated")], ids=["SIGINT", "SIGTERM"])
+def test_signal_to_a_survey_with_workers_stops_them(tmp_path, sig, code, line):
+    # --jobs 2: two workers and the population-fit process are running when the signal comes; the
+    # survey says one line and none of its processes outlives it (its pools are stopped, not waited for)
+    cat = tmp_path / "cat.csv"
+    cat.write_text(CAT + "".join(f"U{i:03d},U{i:03d} b,{3 + i % 7}.1,0.01,1.0\nU{i:03d},U{i:03d} c,{9 + i % 5}.3,0.01,1.0\n"
+                                 for i in range(200)))
+    proc = subprocess.Popen([sys.executable, "-m", "archsys", "survey", str(cat), "--out", str(tmp_path / "out"),
+                             "--mode", "direct", "--draws", "4000", "--jobs", "2", "--no-figures", "--quiet"],
+                            env=ENV, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    try:
+        t0, kids = time.monotonic(), set()
+        while len(kids) < 4 and time.monotonic() - t0 < 120:     # two workers, the fit, the resource tracker
+            assert proc.poll() is None, proc.stderr.read()
+            kids = _children(proc.pid)
+            time.sleep(0.05)
+        assert len(kids) >= 4, "the workers did not start"
+        proc.send_signal(sig)
+        _, err = proc.communicate(timeout=120)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
+    assert proc.returncode == code, err
+    assert err.splitlines() == [line], err
+    left = [k for k in kids if _alive(k)]
+    t1 = time.monotonic()
+    while left and time.monotonic() - t1 < 5:      # the resource tracker ends once its pipe closes
+        time.sleep(0.05)
+        left = [k for k in left if _alive(k)]
+    assert not left, f"processes {left} outlived the survey"
