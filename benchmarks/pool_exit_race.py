@@ -11,8 +11,9 @@ fails.  A trial counts as bad when its stderr holds more than that line.  Two wa
 ``stop_pool``
     :func:`archsys.survey.workers.stop_pool`, which returns once the processes and that thread are gone.
 
-Measured on the 2-core development machine (CPython 3.11.7): 2 bad of 100 trials with ``wait=False``,
-0 of 100 with ``stop_pool``.  A rare race: a few hundred trials are needed to see it at all.  No figure is
+Measured on the 2-core development machine (CPython 3.11.7), two runs: 2 bad of 100 and 2 of 150 trials
+(the second under ``nice -n 19`` beside a test run) with ``wait=False``, 0 of 100 and 0 of 150 with
+``stop_pool``.  A rare race: a few hundred trials are needed to see it at all.  No figure is
 a pass/fail test (tests/test_pool_shutdown.py widens the race's window instead).
 """
 from __future__ import annotations

@@ -5,7 +5,7 @@ a CLI's error is one line, common practice).  Its enemy was a race at interprete
 down with ``wait=False`` kept its manager thread closing a wake-up pipe while the exit hook of
 ``concurrent.futures`` (CPython 3.10, 3.11) wrote to it without a lock, now and then printing an
 ``OSError: [Errno 9] Bad file descriptor`` traceback after the error line (seen once in CI, in the
-slow Dask test of tests/test_hardening.py; 2 of 100 bare runs, DEVELOPERS.md "Stopping a process pool").
+slow Dask test of tests/test_hardening.py; 4 of 250 bare runs, DEVELOPERS.md "Stopping a process pool").
 """
 import multiprocessing
 import os
