@@ -160,8 +160,8 @@ def test_signal_to_a_survey_with_workers_stops_them(tmp_path, sig, code, line):
     # --jobs 2: two workers and the population-fit process are running when the signal comes; the
     # survey says one line and none of its processes outlives it (its pools are stopped, not waited for)
     cat = tmp_path / "cat.csv"
-    cat.write_text(CAT + "".join(f"U{i:03d},U{i:03d} b,{3 + i % 7}.1,0.01,1.0\nU{i:03d},U{i:03d} c,{9 + i % 5}.3,0.01,1.0\n"
-                                 for i in range(200)))
+    cat.write_text(CAT + "".join(f"U{i:03d},U{i:03d} b,{3 + i % 7}.1,0.01,1.0\n"
+                                 f"U{i:03d},U{i:03d} c,{9 + i % 5}.3,0.01,1.0\n" for i in range(200)))
     proc = subprocess.Popen([sys.executable, "-m", "archsys", "survey", str(cat), "--out", str(tmp_path / "out"),
                              "--mode", "direct", "--draws", "4000", "--jobs", "2", "--no-figures", "--quiet"],
                             env=ENV, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)

@@ -359,20 +359,22 @@ def stop_pool(ex, grace=2.0, limit=10.0):
 
     For a run that failed or was interrupted.  ``shutdown(wait=False, cancel_futures=True)`` alone leaves
     the pool's manager thread working into interpreter exit, and there the exit hook of
-    ``concurrent.futures`` (CPython 3.10, 3.11) wakes that thread through a pipe without the lock the
-    thread holds while it closes that pipe: now and then an "Exception ignored ... OSError: [Errno 9]
-    Bad file descriptor" traceback after the CLI's one error line (DEVELOPERS.md, "Stopping a process
-    pool").  ``shutdown(wait=True)`` alone would wait for the running tasks (a population fit can take
-    minutes).  So: cancel what has not started, end the processes (SIGTERM, then SIGKILL after ``grace``
-    s), then wait (at most ``limit`` s) for the manager thread to see them gone and clean up.  Two
-    things the kill leaves behind would otherwise hang that thread, hence the exit:
+    ``concurrent.futures`` wakes that thread through a pipe without the lock the thread holds while it
+    closes that pipe (CPython 3.10 and 3.11, and 3.12/3.13 until python/cpython#125451): now and then an
+    "Exception ignored ... OSError: [Errno 9] Bad file descriptor" traceback after the CLI's one error
+    line (DEVELOPERS.md, "Stopping a process pool").  ``shutdown(wait=True)`` alone would wait for the
+    running tasks (a population fit can take minutes).  So: cancel what has not started, end the
+    processes (SIGTERM, then SIGKILL after ``grace`` s), then wait (at most ``limit`` s) for the manager
+    thread to see them gone and clean up.  Two things the kill leaves behind would otherwise hang that
+    thread, hence the exit:
 
     * a result cut off by the kill: the thread would read forever from a pipe whose write end this
       process still holds.  That end is closed once the processes are gone, so the read ends (EOF) and
       the thread takes the pool for broken, its normal path after a dead worker;
     * a task input still being written to the pipe of queued tasks (a large fit input) by the queue's
       feeder thread, blocked on a full pipe nobody reads any more (measured: CPython 3.11.2 hangs
-      there for good, 3.11.7 closes that pipe).  This keeps a read end of its own and empties the pipe until the thread is done.
+      there for good, 3.11.7 closes that pipe).  This keeps a read end of its own and empties the pipe
+      until the thread is done.
 
     The pool's processes, manager thread and queues are attributes of the executor that
     ``concurrent.futures`` does not make public (Python 3.14 adds ``terminate_workers``, without the
