@@ -27,11 +27,13 @@ class Analysis:
 
 
 def _posterior(system, opts: AnalysisOptions) -> Posterior:
-    from .inference.joint import sample_joint
-    from .inference.route import choose_path
-    # "fast" trades depth for speed in large surveys: direct draws only, never the joint engine
-    if opts.uses_mcmc and choose_path(system, opts).joint:
-        return sample_joint(system, opts)
+    # "fast" trades depth for speed in large surveys: direct draws only, never the joint engine (nor its
+    # imports: scipy.stats alone is a third of a fast-mode survey worker's start-up)
+    if opts.uses_mcmc:
+        from .inference.route import choose_path
+        if choose_path(system, opts).joint:
+            from .inference.joint import sample_joint
+            return sample_joint(system, opts)
     return direct_draws(system, n=opts.n_draws, seed=opts.seed)
 
 

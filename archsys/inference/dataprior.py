@@ -79,10 +79,10 @@ def measure(draws, prior, scale=1.0):
 
 
 def _load(rec):
-    from .prior_files import load_prior
     name = rec.get("name") if isinstance(rec, dict) else rec
     if not name or name == "ecc-uniform":
         return None
+    from .prior_files import load_prior       # only here: it imports scipy.stats (a third of a second)
     try:
         return load_prior(name)
     except Exception:          # a prior that cannot be read again (a moved user file): no measure

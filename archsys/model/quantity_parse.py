@@ -7,7 +7,6 @@ import difflib
 import math
 
 import astropy.units as u
-import numpy as np
 
 from ..errors import InputError
 from ..limits import clip
@@ -52,16 +51,37 @@ def _is_finite(x):
         return False
 
 
+#: (unit, canonical unit) -> conversion factor; a catalogue has a handful of units and many rows.
+_FACTORS: dict = {}
+
+
+def _factor(unit_str, canonical):
+    """The factor that converts a number in ``unit_str`` to ``canonical`` (every unit taken is linear).
+
+    astropy's ``(x * unit).to_value(canonical)`` is ``x * factor`` (or ``x`` itself where the factor is
+    unity to rounding), so multiplying by the factor found once gives the same float as converting
+    each number through astropy, at a fraction of the cost.
+    """
+    key = (unit_str, canonical)
+    f = _FACTORS.get(key)
+    if f is None:
+        src = u.Unit(unit_str)
+        if not isinstance(src, u.UnitBase):  # logarithmic units such as dex(m/s) are not linear
+            raise u.UnitsError(f"'{unit_str}' is not a linear unit")
+        dst = u.Unit(canonical) if canonical else u.dimensionless_unscaled
+        f = float((1.0 * src).to_value(dst))
+        if len(_FACTORS) > 1024:
+            _FACTORS.clear()
+        _FACTORS[key] = f
+    return f
+
+
 def _convert(x, unit_str, fld: Field):
     """Convert number x from unit_str to the field's canonical unit."""
     if unit_str is None or unit_str == fld.unit:
         return float(x)
-    src = u.Unit(unit_str)
-    if not isinstance(src, u.UnitBase):  # logarithmic units such as dex(m/s) are not linear
-        raise u.UnitsError(f"'{unit_str}' is not a linear unit")
-    dst = u.Unit(fld.unit) if fld.unit else u.dimensionless_unscaled
-    with np.errstate(over="ignore", invalid="ignore"):   # overflow is reported by the caller
-        return float((x * src).to_value(dst))
+    f = _factor(unit_str, fld.unit)
+    return float(x) * f          # a float product overflows to inf (reported by the caller), never raises
 
 
 #: Required fields that must be measured, not bounded (field -> prefix of its location).

@@ -8,6 +8,7 @@ byte-identical JSON.
 """
 from __future__ import annotations
 
+import functools
 import platform
 
 import math
@@ -30,12 +31,26 @@ DISCLAIMER = ("Stability and resonance verdicts are statistical estimates over t
               "draws, not guarantees of long-term dynamical behaviour.")
 
 
+@functools.lru_cache(maxsize=1)
+def _emcee_version():
+    """emcee's version without importing it (a fast-mode survey worker never samples; emcee pulls in
+    scipy.stats, a third of a second of the worker's start-up)."""
+    import sys
+    if "emcee" in sys.modules:
+        return sys.modules["emcee"].__version__
+    from importlib.metadata import PackageNotFoundError, version
+    try:
+        return version("emcee")
+    except PackageNotFoundError:  # pragma: no cover - not installed as a distribution
+        import emcee
+        return emcee.__version__
+
+
 def _versions():
     import astropy
-    import emcee
     import scipy
     return {"archsys": __version__, "python": platform.python_version(), "numpy": np.__version__,
-            "scipy": scipy.__version__, "astropy": astropy.__version__, "emcee": emcee.__version__}
+            "scipy": scipy.__version__, "astropy": astropy.__version__, "emcee": _emcee_version()}
 
 
 def _planet_entry(post, j, pl):

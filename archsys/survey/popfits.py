@@ -97,6 +97,15 @@ class FitRunner:
                                                initializer=worker_start, initargs=(os.getpid(),))
             return self._ex.submit(fn, *args)
 
+    def warm(self):
+        """Start every background process now, each importing the fit modules (no-op in this process).
+
+        The executor starts a process per submission that finds none idle, so the second fit
+        process would otherwise start -- and spend about a second importing -- only when the
+        eccentricity fits are submitted after the last system, on the survey's critical path.
+        """
+        return [self.submit(_warm_up) for _ in range(self.processes)]
+
     def close(self, cancel=False):
         """Wait for the fits (``cancel=False``), or stop them now: the processes and the pool's thread are
         gone on return either way, so nothing of the pool runs into interpreter exit
@@ -115,6 +124,13 @@ class FitRunner:
     def __exit__(self, et, ev, tb):
         self.close(cancel=et is not None)
         return False
+
+
+def _warm_up():
+    """Import what the population fits use (run in a fit process started early by :meth:`FitRunner.warm`)."""
+    import emcee  # noqa: F401
+    from . import hierarchical, multiplicity_block  # noqa: F401
+    return os.getpid()
 
 
 def transit_block(groups, cmap, columns, units, transit, seed):

@@ -168,6 +168,7 @@ def _run_survey(catalog, out, options, survey, *, debug, stream, transit, **keyw
                 # a million tasks do not carry a million option copies
                 tasks = [(g, cmap, cat.units, base, cat.name, debug) for g in todo]
                 tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(opts.seed))
+                fits.warm()           # the other fit process imports now, not when the last system is stored
                 bar = progress_bar(len(tasks), quiet=opts.quiet, stream=stream,
                                    skipped=len(selected) - len(todo))
                 failed = [0]
