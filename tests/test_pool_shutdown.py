@@ -37,13 +37,14 @@ def _hold(marker, payload=None):
 
 
 def _pool_threads():
-    return [t for t in threading.enumerate() if type(t).__name__ == "_ExecutorManagerThread"]
+    """The manager threads of the process pools alive in this process (other tests' pools kept for reuse too)."""
+    return {t for t in threading.enumerate() if type(t).__name__ == "_ExecutorManagerThread"}
 
 
 def test_cancelled_fits_leave_no_process_and_no_pool_thread(tmp_path):
     # a fit is running and a large fit input is still queued when the survey fails: on return of
     # close(cancel=True) the fit's process is gone and no pool thread is left for the exit hook
-    before = set(multiprocessing.active_children())
+    before, threads = set(multiprocessing.active_children()), _pool_threads()
     fits = popfits.FitRunner(1)
     marker = tmp_path / "started"
     try:
@@ -54,7 +55,7 @@ def test_cancelled_fits_leave_no_process_and_no_pool_thread(tmp_path):
             time.sleep(0.01)
         assert marker.exists(), "the fit process did not start within 60 s"
         fits.close(cancel=True)
-        assert not _pool_threads()
+        assert not _pool_threads() - threads
         assert not set(multiprocessing.active_children()) - before
         assert busy.done() and queued.done() and not (tmp_path / "never").exists()
     finally:
@@ -69,12 +70,12 @@ def test_survey_failing_in_its_workers_says_one_line_and_leaves_nothing_running(
     monkeypatch.setattr(SurveyStore, "put_many", failing)
     cat = tmp_path / "cat.csv"
     cat.write_text(CAT)
-    before = set(multiprocessing.active_children())
+    before, threads = set(multiprocessing.active_children()), _pool_threads()
     rc = main(["survey", str(cat), "--out", str(tmp_path / "out"), "--mode", "direct", "--draws", "3000",
                "--jobs", "2", "--no-figures", "--quiet"])
     err = capsys.readouterr().err
     left = set(multiprocessing.active_children()) - before
-    threads = _pool_threads()
+    threads = _pool_threads() - threads
     for p in left:
         p.kill()
     one_line_exit_2(rc, err, "survey store: disk I/O error")
