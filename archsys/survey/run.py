@@ -143,8 +143,9 @@ def _run_survey(catalog, out, options, survey, *, debug, stream, transit, **keyw
         selected = selected[:sv.limit]
     ids = {g.system for g in selected}
     client = dask_client(sv.scheduler) if sv.scheduler else None    # before any file is made
-    # population fits beside the per-system work when other processes do that work (popfits.py)
-    fits = FitRunner(min(2, jobs) if (jobs > 1 or client is not None) else 0)
+    # population fits beside the per-system work when other processes do that work (popfits.py): in the
+    # survey's own worker processes (one pool for both), or in two local processes beside a Dask cluster
+    fits = FitRunner(min(2, jobs) if client is not None else jobs if jobs > 1 else 0)
 
     try:
         with SurveyLock(out) as lock, fits:
@@ -168,7 +169,8 @@ def _run_survey(catalog, out, options, survey, *, debug, stream, transit, **keyw
                 # a million tasks do not carry a million option copies
                 tasks = [(g, cmap, cat.units, base, cat.name, debug) for g in todo]
                 tm = fits.submit(transit_block, selected, cmap, cat.columns, cat.units, transit, int(opts.seed))
-                fits.warm()           # the other fit process imports now, not when the last system is stored
+                if client is not None:     # the other fit process imports now, not after the last system
+                    fits.warm()
                 bar = progress_bar(len(tasks), quiet=opts.quiet, stream=stream,
                                    skipped=len(selected) - len(todo))
                 failed = [0]
@@ -190,7 +192,7 @@ def _run_survey(catalog, out, options, survey, *, debug, stream, transit, **keyw
                         flush()
 
                 try:
-                    run_tasks(tasks, sink, jobs, client=client, batch=None if fast else 1)
+                    run_tasks(tasks, sink, jobs, client=client, batch=None if fast else 1, pool=fits)
                     client = None                     # closed by run_tasks
                 finally:
                     try:
@@ -202,6 +204,7 @@ def _run_survey(catalog, out, options, survey, *, debug, stream, transit, **keyw
                     pop = _finish(store, cat, cmap, selected, ids, orphans, groups, out, base, sv, transit,
                                   fits=fits, tm=tm, step=lambda what: (fbar.set_postfix_str(what, refresh=False), fbar.update(1)))
                 pop["_notes"] = notes + pop.get("_notes", [])
+                fits.close()                  # the workers exit (and are counted in the peak memory below)
                 if not opts.quiet:
                     own, kids = peak_memory_mib()
                     if own is not None:

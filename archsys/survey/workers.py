@@ -442,6 +442,31 @@ def _run_serial(tasks, sink, batch=None):
             sink(r)
 
 
+def _run_pooled(tasks, sink, jobs, batch, pool):
+    """The worker calls on ``pool`` (a :class:`~archsys.survey.popfits.FitRunner` of ``jobs`` processes).
+
+    The pool is the survey's: the population fits run in the same processes (the transit-multiplicity
+    fit beside the systems, the eccentricity fits after them), so no process starts -- and imports
+    archsys, about a second each -- only for a fit.  The caller closes the pool (stopped at once on an
+    error, :meth:`FitRunner.close`).
+    """
+    from concurrent.futures import FIRST_COMPLETED, wait
+    it = iter(_batches(tasks, jobs, batch))
+    pending = set()
+    for b in it:
+        pending.add(pool.submit(process_batch, b))
+        if len(pending) >= 4 * jobs:
+            break
+    while pending:
+        done, pending = wait(pending, return_when=FIRST_COMPLETED)
+        for f in done:
+            for r in f.result():
+                sink(r)
+            nxt = next(it, None)
+            if nxt is not None:
+                pending.add(pool.submit(process_batch, nxt))
+
+
 def _run_local(tasks, sink, jobs, batch=None):
     import multiprocessing
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
@@ -499,15 +524,19 @@ def _run_dask(tasks, sink, client, batch=None):
             pass
 
 
-def run_tasks(tasks, sink, jobs, client=None, batch=None):
+def run_tasks(tasks, sink, jobs, client=None, batch=None, pool=None):
     """Run every task: on Dask when ``client``, serially for one job or task, else on local processes.
 
     ``batch``: systems per worker call (None: sized from the number of tasks,
-    for short even tasks; 1 for the joint engine's long uneven ones).
+    for short even tasks; 1 for the joint engine's long uneven ones).  ``pool``: the survey's local
+    process pool (:class:`~archsys.survey.popfits.FitRunner` of ``jobs`` processes, shared with the
+    population fits and closed by the caller); None starts and stops a pool here.
     """
     if client is not None:
         _run_dask(tasks, sink, client, batch)
     elif jobs == 1 or len(tasks) <= 1:
         _run_serial(tasks, sink, batch)
+    elif pool is not None and pool.processes == jobs:
+        _run_pooled(tasks, sink, jobs, batch, pool)
     else:
         _run_local(tasks, sink, jobs, batch)
