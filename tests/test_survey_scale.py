@@ -213,3 +213,54 @@ def test_fit_processes_and_the_survey_process_use_one_blas_thread():
         assert fits.submit(_blas_threads).result() == [1]
     with one_blas_thread():
         assert _blas_threads() == [1]
+
+
+_FAULTS = r"""
+import pathlib, resource, sys, warnings
+warnings.simplefilter("ignore")
+from archsys.survey import workers
+from archsys.survey.catalog import read_catalog, group_systems
+from archsys.survey.column_map import bind, load_column_map
+from archsys.options import AnalysisOptions
+if sys.argv[1] == "off":
+    workers._malloc_checked.append(False)        # as before the fix: glibc's settings left as the environment made them
+data = pathlib.Path(sys.argv[2])
+cat = read_catalog(data / "oec" / "open_exoplanet_catalogue_planets.csv")
+cmap = bind(load_column_map(str(data / "oec_columns.toml")), cat)
+groups = [g for g in group_systems(cat, cmap.system)[0] if g.n_planets >= 3][:32]
+opts = AnalysisOptions(mode="fast", nbody=0, quiet=True, jobs=1)
+tasks = [(g, cmap, cat.units, opts, cat.name, False) for g in groups]
+workers.process_batch(tasks[:4])
+before = resource.getrusage(resource.RUSAGE_SELF).ru_minflt
+out = workers.process_batch(tasks)
+print(resource.getrusage(resource.RUSAGE_SELF).ru_minflt - before, workers.large_array_malloc(),
+      sum(r["status"] == "ok" for r in out))
+"""
+
+
+@pytest.mark.skipif(not pathlib.Path("/proc/self").exists(), reason="glibc/Linux behaviour")
+def test_workers_undo_a_low_malloc_trim_threshold():
+    """A Dask worker's MALLOC_TRIM_THRESHOLD_=65536 must not turn every batch array into fresh pages.
+
+    glibc's mallopt(3) manual: setting M_TRIM_THRESHOLD (or M_MMAP_THRESHOLD, M_TOP_PAD, M_MMAP_MAX)
+    disables the dynamic mmap threshold, so each allocation above 128 KiB is a new mmap faulted in page
+    by page.  Dask's nanny sets that variable in its workers (distributed's default configuration).
+    Open-catalogue multis (tests/data/oec) analysed in one batch, page faults counted by getrusage.
+    """
+    import subprocess
+    import sys
+    data = pathlib.Path(__file__).parent / "data"
+    env = dict(__import__("os").environ, MALLOC_TRIM_THRESHOLD_="65536")
+    counts = {}
+    for mode in ("off", "on"):
+        r = subprocess.run([sys.executable, "-c", _FAULTS, mode, str(data)], env=env, capture_output=True,
+                           text=True, timeout=300)
+        assert r.returncode == 0, r.stderr
+        faults, fixed, ok = r.stdout.split()
+        counts[mode] = int(faults)
+        assert fixed == ("True" if mode == "on" else "False") and int(ok) >= 16
+    assert counts["on"] * 4 < counts["off"], counts
+    clean = {k: v for k, v in __import__("os").environ.items() if not k.startswith("MALLOC_")}
+    r = subprocess.run([sys.executable, "-c", "from archsys.survey.workers import large_array_malloc as f; "
+                        "print(f())"], env=clean, capture_output=True, text=True, timeout=120)
+    assert r.stdout.strip() == "False", r.stderr           # nothing changed where nothing was set
