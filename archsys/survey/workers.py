@@ -506,32 +506,11 @@ def _run_pooled(tasks, sink, jobs, batch, pool):
 
 
 def _run_local(tasks, sink, jobs, batch=None):
-    import multiprocessing
-    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
-    ctx = multiprocessing.get_context("spawn")     # no inherited sqlite handle, same as Dask workers
-    it = iter(_batches(tasks, jobs, batch))
-    # one BLAS/OpenMP thread per worker: N workers on N cores, not N x (threads per library)
-    with one_thread_env():
-        ex = ProcessPoolExecutor(max_workers=jobs, mp_context=ctx, initializer=worker_start,
-                                 initargs=(os.getpid(),))
-        try:
-            pending = set()
-            for b in it:
-                pending.add(ex.submit(process_batch, b))
-                if len(pending) >= 4 * jobs:
-                    break
-            while pending:
-                done, pending = wait(pending, return_when=FIRST_COMPLETED)
-                for f in done:
-                    for r in f.result():
-                        sink(r)
-                    nxt = next(it, None)
-                    if nxt is not None:
-                        pending.add(ex.submit(process_batch, nxt))
-        except BaseException:
-            stop_pool(ex)               # gone before the error is reported (see stop_pool)
-            raise
-    ex.shutdown(wait=True)
+    """The worker calls on a pool of ``jobs`` spawned processes of its own (one BLAS thread each, stopped
+    before an error is reported: :meth:`~archsys.survey.popfits.FitRunner.close`)."""
+    from .popfits import FitRunner
+    with FitRunner(jobs) as pool:
+        _run_pooled(tasks, sink, jobs, batch, pool)
 
 
 def dask_client(address):
