@@ -3,8 +3,9 @@
 Two things make the population fits of a large survey cheap without changing
 what they estimate:
 
-* **No serial tail.**  With several local workers (or a Dask cluster), the
-  fits run in a process of their own: the transit-multiplicity fit needs only
+* **No serial tail.**  With several local workers the fits run in those
+  workers (one pool, :class:`archsys.survey.workers.FitRunner`), beside a Dask
+  cluster in two local processes: the transit-multiplicity fit needs only
   the catalogue rows, so it starts before the first system is analysed; the
   Beta and Rayleigh eccentricity fits (Hogg, Myers & Bovy 2010) start as soon
   as the last system is stored and run side by side.  Every fit is seeded as
@@ -22,9 +23,10 @@ what they estimate:
 from __future__ import annotations
 
 import math
-import os
 
 import numpy as np
+
+from .workers import FitRunner  # noqa: F401 - the population fits' pool is the survey's (workers.py)
 
 __all__ = ["MAX_FIT_OBJECTS", "subsample_objects", "FitRunner"]
 
@@ -52,85 +54,6 @@ def subsample_objects(samples, log_p0, seed, max_objects=None, tag=0x5AB5):
             "effect": (f"intervals are those of {max_objects} planets: about {widen:.2f}x wider than a fit of "
                        f"all {n} would give (width ~ 1/sqrt(N), common practice)")}
     return [samples[i] for i in keep], [log_p0[i] for i in keep], info
-
-
-class _Done:
-    """A finished (or lazily computed) result with the Future interface used here."""
-
-    def __init__(self, fn, args):
-        self._fn, self._args, self._value, self._ran = fn, args, None, False
-
-    def result(self):
-        if not self._ran:
-            self._value = self._fn(*self._args)
-            self._ran = True
-        return self._value
-
-    def cancel(self):
-        return True
-
-
-class FitRunner:
-    """Run population fits in background processes (``processes >= 1``) or lazily in this process (0).
-
-    Background processes are spawned (like the survey's workers), limited to
-    one BLAS thread each and exit with the survey process
-    (:func:`archsys.survey.workers.worker_start`).  The executor starts its
-    processes as tasks are submitted, so the thread variables are set around
-    each submission, not only around the executor's creation.
-    """
-
-    def __init__(self, processes=0):
-        self.processes = int(processes)
-        self._ex = None
-
-    def submit(self, fn, *args):
-        if self.processes <= 0:
-            return _Done(fn, args)
-        import multiprocessing
-        from concurrent.futures import ProcessPoolExecutor
-        from .workers import one_thread_env, worker_start
-        with one_thread_env():                  # inherited by a process this submit starts
-            if self._ex is None:
-                self._ex = ProcessPoolExecutor(max_workers=self.processes,
-                                               mp_context=multiprocessing.get_context("spawn"),
-                                               initializer=worker_start, initargs=(os.getpid(),))
-            return self._ex.submit(fn, *args)
-
-    def warm(self):
-        """Start every background process now, each importing the fit modules (no-op in this process).
-
-        The executor starts a process per submission that finds none idle, so the second fit
-        process would otherwise start -- and spend about a second importing -- only when the
-        eccentricity fits are submitted after the last system, on the survey's critical path.
-        """
-        return [self.submit(_warm_up) for _ in range(self.processes)]
-
-    def close(self, cancel=False):
-        """Wait for the fits (``cancel=False``), or stop them now: the processes and the pool's thread are
-        gone on return either way, so nothing of the pool runs into interpreter exit
-        (:func:`archsys.survey.workers.stop_pool`)."""
-        if self._ex is not None:
-            ex, self._ex = self._ex, None
-            if cancel:
-                from .workers import stop_pool
-                stop_pool(ex)
-            else:
-                ex.shutdown(wait=True)
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, et, ev, tb):
-        self.close(cancel=et is not None)
-        return False
-
-
-def _warm_up():
-    """Import what the population fits use (run in a fit process started early by :meth:`FitRunner.warm`)."""
-    import emcee  # noqa: F401
-    from . import hierarchical, multiplicity_block  # noqa: F401
-    return os.getpid()
 
 
 def transit_block(groups, cmap, columns, units, transit, seed):

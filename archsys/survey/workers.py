@@ -27,7 +27,7 @@ from .mapping import system_mapping
 from .store import pair_row, planet_row, system_row
 
 __all__ = ["process_system", "process_batch", "progress_bar", "watch_parent", "worker_start", "one_blas_thread",
-           "large_array_malloc",
+           "large_array_malloc", "FitRunner",
            "stop_pool", "dask_client",
            "run_tasks", "system_seed", "system_options", "SAMPLES_PER_PLANET", "FAST_BATCH"]
 
@@ -480,8 +480,89 @@ def _run_serial(tasks, sink, batch=None):
             sink(r)
 
 
+# --------------------------------------------------------------------------
+# Local process pools (the survey's workers and population fits)
+# --------------------------------------------------------------------------
+
+class _Done:
+    """A finished (or lazily computed) result with the Future interface used here."""
+
+    def __init__(self, fn, args):
+        self._fn, self._args, self._value, self._ran = fn, args, None, False
+
+    def result(self):
+        if not self._ran:
+            self._value = self._fn(*self._args)
+            self._ran = True
+        return self._value
+
+    def cancel(self):
+        return True
+
+
+class FitRunner:
+    """A local process pool (``processes >= 1``), or tasks run lazily in this process (0).
+
+    It runs a local survey's worker calls and population fits, or the fits alone beside a Dask
+    cluster.  Processes are spawned, limited to one BLAS thread each and exit with the survey process
+    (:func:`worker_start`).  The executor starts its
+    processes as tasks are submitted, so the thread variables are set around
+    each submission, not only around the executor's creation.
+    """
+
+    def __init__(self, processes=0):
+        self.processes = int(processes)
+        self._ex = None
+
+    def submit(self, fn, *args):
+        if self.processes <= 0:
+            return _Done(fn, args)
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+        with one_thread_env():                  # inherited by a process this submit starts
+            if self._ex is None:
+                self._ex = ProcessPoolExecutor(max_workers=self.processes,
+                                               mp_context=multiprocessing.get_context("spawn"),
+                                               initializer=worker_start, initargs=(os.getpid(),))
+            return self._ex.submit(fn, *args)
+
+    def warm(self):
+        """Start every background process now, each importing the fit modules (no-op in this process).
+
+        The executor starts a process per submission that finds none idle, so the second fit
+        process would otherwise start -- and spend about a second importing -- only when the
+        eccentricity fits are submitted after the last system, on the survey's critical path.
+        """
+        return [self.submit(_warm_up) for _ in range(self.processes)]
+
+    def close(self, cancel=False):
+        """Wait for the fits (``cancel=False``), or stop them now: the processes and the pool's thread are
+        gone on return either way, so nothing of the pool runs into interpreter exit
+        (:func:`archsys.survey.workers.stop_pool`)."""
+        if self._ex is not None:
+            ex, self._ex = self._ex, None
+            if cancel:
+                stop_pool(ex)
+            else:
+                ex.shutdown(wait=True)
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, et, ev, tb):
+        self.close(cancel=et is not None)
+        return False
+
+
+def _warm_up():
+    """Import what the population fits use (run in a fit process started early by :meth:`FitRunner.warm`)."""
+    import emcee  # noqa: F401
+    from . import hierarchical, multiplicity_block  # noqa: F401
+    return os.getpid()
+
+
 def _run_pooled(tasks, sink, jobs, batch, pool):
-    """The worker calls on ``pool`` (a :class:`~archsys.survey.popfits.FitRunner` of ``jobs`` processes).
+    """The worker calls on ``pool`` (a :class:`FitRunner` of ``jobs`` processes).
 
     The pool is the survey's: the population fits run in the same processes (the transit-multiplicity
     fit beside the systems, the eccentricity fits after them), so no process starts -- and imports
@@ -507,8 +588,7 @@ def _run_pooled(tasks, sink, jobs, batch, pool):
 
 def _run_local(tasks, sink, jobs, batch=None):
     """The worker calls on a pool of ``jobs`` spawned processes of its own (one BLAS thread each, stopped
-    before an error is reported: :meth:`~archsys.survey.popfits.FitRunner.close`)."""
-    from .popfits import FitRunner
+    before an error is reported: :meth:`FitRunner.close`)."""
     with FitRunner(jobs) as pool:
         _run_pooled(tasks, sink, jobs, batch, pool)
 
@@ -546,7 +626,7 @@ def run_tasks(tasks, sink, jobs, client=None, batch=None, pool=None):
 
     ``batch``: systems per worker call (None: sized from the number of tasks,
     for short even tasks; 1 for the joint engine's long uneven ones).  ``pool``: the survey's local
-    process pool (:class:`~archsys.survey.popfits.FitRunner` of ``jobs`` processes, shared with the
+    process pool (:class:`FitRunner` of ``jobs`` processes, shared with the
     population fits and closed by the caller); None starts and stops a pool here.
     """
     if client is not None:
