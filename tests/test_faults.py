@@ -19,7 +19,7 @@ import pytest
 
 from archsys.cli import main
 from archsys.errors import InputError
-from cli_checks import files_in, one_line_exit_2
+from cli_checks import files_in, one_line_exit_2, alive, child_pids
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 KORRIN = ROOT / "demo_systems" / "korrin.toml"
@@ -329,25 +329,6 @@ def test_failed_start_leaves_no_empty_store(tmp_path, capsys):
     assert not out.exists()
 
 
-def _children(pid):
-    out = set()
-    try:
-        for tid in os.listdir(f"/proc/{pid}/task"):
-            with open(f"/proc/{pid}/task/{tid}/children") as fh:
-                out |= {int(x) for x in fh.read().split()}
-    except OSError:
-        pass
-    return out
-
-
-def _alive(pid):
-    try:
-        with open(f"/proc/{pid}/stat") as fh:
-            return fh.read().split()[2] != "Z"
-    except OSError:
-        return False
-
-
 @pytest.mark.slow
 def test_concurrent_surveys_into_one_folder(tmp_path):
     # two surveys started together: exactly one runs, the other is refused with one line
@@ -383,16 +364,16 @@ def test_workers_exit_when_the_parent_is_killed(tmp_path):
         workers = set()
         while len(workers) < 2 and time.monotonic() - t0 < 120:
             assert proc.poll() is None
-            workers = _children(proc.pid)
+            workers = child_pids(proc.pid)
             time.sleep(0.2)
         assert len(workers) >= 2, "workers did not start"
         time.sleep(2.0)
         os.kill(proc.pid, signal.SIGKILL)
         proc.wait(timeout=30)
         t1 = time.monotonic()
-        while any(_alive(w) for w in workers) and time.monotonic() - t1 < 20:
+        while any(alive(w) for w in workers) and time.monotonic() - t1 < 20:
             time.sleep(0.2)
-        left = [w for w in workers if _alive(w)]
+        left = [w for w in workers if alive(w)]
         assert not left, f"workers {left} still alive 20 s after the parent died"
     finally:
         if proc.poll() is None:

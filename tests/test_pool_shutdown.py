@@ -22,7 +22,7 @@ import pytest
 from archsys.cli import main
 from archsys.survey import popfits
 from archsys.survey.store import SurveyStore
-from cli_checks import one_line_exit_2
+from cli_checks import one_line_exit_2, alive, child_pids
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 ENV = dict(os.environ, PYTHONPATH=str(ROOT), MPLBACKEND="Agg")
@@ -136,25 +136,6 @@ def test_pool_closing_at_exit_prints_nothing_after_the_error_line(tmp_path):
     one_line_exit_2(proc.returncode, proc.stderr, "survey store: disk I/O error")
 
 
-def _children(pid):
-    out = set()
-    try:
-        for tid in os.listdir(f"/proc/{pid}/task"):
-            with open(f"/proc/{pid}/task/{tid}/children") as fh:
-                out |= {int(x) for x in fh.read().split()}
-    except OSError:
-        pass
-    return out
-
-
-def _alive(pid):
-    try:
-        with open(f"/proc/{pid}/stat") as fh:
-            return fh.read().split()[2] != "Z"
-    except OSError:
-        return False
-
-
 @pytest.mark.parametrize("sig, code, line", [(signal.SIGINT, 130, "archsys: interrupted"),
                                              (signal.SIGTERM, 143, "archsys: terminated")], ids=["SIGINT", "SIGTERM"])
 def test_signal_to_a_survey_with_workers_stops_them(tmp_path, sig, code, line):
@@ -170,7 +151,7 @@ def test_signal_to_a_survey_with_workers_stops_them(tmp_path, sig, code, line):
         t0, kids = time.monotonic(), set()
         while len(kids) < 3 and time.monotonic() - t0 < 120:     # two workers and the resource tracker
             assert proc.poll() is None, proc.stderr.read()
-            kids = _children(proc.pid)
+            kids = child_pids(proc.pid)
             time.sleep(0.05)
         assert len(kids) >= 3, "the workers did not start"
         proc.send_signal(sig)
@@ -181,9 +162,9 @@ def test_signal_to_a_survey_with_workers_stops_them(tmp_path, sig, code, line):
             proc.wait()
     assert proc.returncode == code, err
     assert err.splitlines() == [line], err
-    left = [k for k in kids if _alive(k)]
+    left = [k for k in kids if alive(k)]
     t1 = time.monotonic()
     while left and time.monotonic() - t1 < 5:      # the resource tracker ends once its pipe closes
         time.sleep(0.05)
-        left = [k for k in left if _alive(k)]
+        left = [k for k in left if alive(k)]
     assert not left, f"processes {left} outlived the survey"
